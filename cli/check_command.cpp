@@ -1,0 +1,271 @@
+// `hallway check`: derived wafer figures, layout and wiring checks, as text and JSON.
+#include <fmt/core.h>
+
+#include <cmath>
+#include <iostream>
+#include <nlohmann/json.hpp>
+
+#include "commands.hpp"
+#include "hallway/channels.hpp"
+#include "hallway/check.hpp"
+#include "hallway/constants.hpp"
+#include "hallway/design_loader.hpp"
+#include "hallway/geometry/polygon.hpp"
+#include "hallway/units.hpp"
+#include "output.hpp"
+
+namespace hallway::cli {
+namespace {
+
+using units::FormatSI;
+constexpr double kMeV = 1e-3 * constants::kElementaryCharge_C;
+
+std::string ev(double joule) { return FormatSI(joule / constants::kElementaryCharge_C, "eV"); }
+
+void row(std::string& out, const std::string& label, const std::string& value) {
+  out += fmt::format("  {:<36} {}\n", label, value);
+}
+
+// Durations as a lab writes them: seconds below a minute, then minutes, then hours.
+std::string duration(double s) {
+  if (s < 60.0) return FormatSI(s, "s");
+  if (s < 3600.0) return fmt::format("{:.4g} min", s / 60.0);
+  return fmt::format("{:.4g} h", s / 3600.0);
+}
+
+std::string optional_text(const std::optional<double>& x, const char* unit) {
+  return x ? FormatSI(*x, unit) : std::string("(needs heterostructure.mobility)");
+}
+
+std::string describe_wiring(const Wiring& w) {
+  switch (w.role) {
+    case Role::kSource: return "source, " + FormatSI(w.bias, w.bias_is_current ? "A" : "V");
+    case Role::kGround: return "cold ground";
+    case Role::kFloat: return "floating ohmic (no net current)";
+    case Role::kAmplifier: {
+      const Amplifier& a = *w.amplifier;
+      return fmt::format("amplifier: load {}, e_n {}/rtHz, i_n {}/rtHz, {} band, {} averaging",
+                         FormatSI(a.load_Ohm, "Ohm"), FormatSI(a.voltage_noise_V_per_rtHz, "V"),
+                         FormatSI(a.current_noise_A_per_rtHz, "A"), FormatSI(a.bandwidth_Hz, "Hz"),
+                         duration(a.integration_s));
+    }
+  }
+  return "?";
+}
+
+std::string channel_text(const Channel& c) {
+  std::string s = fmt::format("{} e^2/h, e* = {:.4g} e", c.conductance.ToString(), c.charge_e);
+  if (c.exchange_pi) s += fmt::format(", theta = {:.4g} pi", *c.exchange_pi);
+  if (c.scaling) s += fmt::format(", delta = {:.4g}", *c.scaling);
+  if (!c.note.empty()) s += " [" + c.note + "]";
+  return s;
+}
+
+std::string render_text(const Design& d, const CheckResult& r) {
+  const auto& f = r.figures;
+  const auto& h = d.heterostructure;
+  std::string out;
+  out += fmt::format("hallway check  {}\n", d.path);
+  if (!d.name.empty()) out += fmt::format("  design: {}\n", d.name);
+  out += "\nWafer and field (derived)\n";
+  row(out, "2DEG depth", FormatSI(h.depth_m, "m"));
+  row(out, "sheet density", fmt::format("{:.4g} m^-2 ({:.4g} cm^-2)", h.density_per_m2, h.density_per_m2 * 1e-4));
+  row(out, "density of states (spin-degenerate)", fmt::format("{:.4g} cm^-2 meV^-1", f.density_of_states_per_J_m2 * 1e-4 * kMeV));
+  row(out, "Fermi energy", ev(f.fermi_energy_J));
+  row(out, "Fermi wavelength", FormatSI(f.fermi_wavelength_m, "m"));
+  row(out, "Fermi velocity", fmt::format("{:.4g} m/s", f.fermi_velocity_m_per_s));
+  row(out, "mean free path", optional_text(f.mean_free_path_m, "m"));
+  row(out, "transport lifetime", optional_text(f.transport_lifetime_s, "s"));
+  if (d.conditions.field_given)
+    row(out, "field (given)", fmt::format("{:.4g} T -> bulk filling {:.4g}, plateau nu = {}", f.field_T,
+                                          d.conditions.filling_from_field, d.conditions.filling.ToString()));
+  else
+    row(out, "field for the filling", fmt::format("{:.4g} T at nu = {} (n h / e nu)", f.field_T, d.conditions.filling.ToString()));
+  row(out, "magnetic length", FormatSI(f.magnetic_length_m, "m"));
+  row(out, "cyclotron energy", ev(f.cyclotron_energy_J));
+  row(out, "thermal energy k_B T", ev(f.thermal_energy_J) + fmt::format(" at {}", FormatSI(d.conditions.temperature_K, "K")));
+  row(out, "wide-gate capacitance", fmt::format("{:.4g} mF/m^2", f.gate_capacitance_F_per_m2 * 1e3));
+  row(out, "density change per gate volt", fmt::format("{:.4g} m^-2/V", f.density_per_gate_volt_per_m2));
+  row(out, "wide-gate depletion (plate)", FormatSI(f.depletion_voltage_plate_V, "V"));
+  row(out, "wide-gate depletion (+ quantum C)", FormatSI(f.depletion_voltage_V, "V"));
+
+  out += fmt::format("\nEdge channels at nu = {} ({})\n", d.conditions.filling.ToString(),
+                     d.channels_given ? "from the design's channels:" : "hallway defaults");
+  for (std::size_t k = 0; k < d.channels.size(); ++k) row(out, fmt::format("channel {}", k + 1), channel_text(d.channels[k]));
+
+  out += "\nLayout\n";
+  const auto bb = geometry::bounding_box(d.mesa.outline);
+  row(out, "mesa", fmt::format("{} x {}, area {:.4g} um^2, etch depletion {}", FormatSI(bb.width(), "m"),
+                               FormatSI(bb.height(), "m"), geometry::area(d.mesa.outline) * 1e12,
+                               FormatSI(d.mesa.etch_depletion_m, "m")));
+  for (const Gate& g : d.gates)
+    row(out, "gate " + g.name, fmt::format("{}, area {:.4g} um^2", FormatSI(g.voltage_V, "V"), geometry::area(g.outline) * 1e12));
+
+  if (!d.constrictions.empty()) {
+    out += "\nConstrictions\n";
+    for (const Constriction& k : d.constrictions) {
+      std::string t;
+      for (double x : k.transmission) t += fmt::format("{}{:.3g}", t.empty() ? "" : ", ", x);
+      std::string gap = "(not measured: see errors)";
+      std::string pinch;
+      for (const ConstrictionGap& g : r.constrictions)
+        if (g.name == k.name) {
+          gap = FormatSI(g.gap_m, "m");
+          pinch = g.bare_pinch_off_V ? fmt::format("; bare pinch-off estimate {} (physics 1.4 i, long fingers)",
+                                                   FormatSI(*g.bare_pinch_off_V, "V"))
+                                     : std::string("; gate against the etched edge, no closed-form estimate");
+        }
+      row(out, k.name + " (" + k.first + " | " + k.second + ")", fmt::format("gap {}{}; transmission [{}]", gap, pinch, t));
+    }
+  }
+
+  out += "\nWiring\n";
+  for (const Wiring& w : d.wiring) row(out, w.contact, describe_wiring(w));
+
+  if (!d.notes.empty()) {
+    out += "\nNotes\n";
+    for (const auto& n : d.notes) out += "  - " + n + "\n";
+  }
+  if (!r.findings.empty()) {
+    out += "\nFindings\n";
+    for (const Finding& x : r.findings)
+      out += fmt::format("  {}: {} [{}]\n      at {}\n", ToString(x.severity), x.message, x.code, x.where.ToString());
+  }
+  out += "\nAll figures are model estimates. A gate voltage past the leakage or breakdown onset can destroy a\n"
+         "sample; follow your lab's own safety rules for cryostats, magnets and electronics.\n";
+  out += fmt::format("\n{}: {} error(s), {} warning(s)\n", r.ok() ? "check passed" : "check FAILED", r.error_count(),
+                     r.warning_count());
+  return out;
+}
+
+nlohmann::json location_json(const SourceLocation& s) {
+  return {{"file", s.file}, {"line", s.line}, {"column", s.column}, {"key", s.key_path}};
+}
+
+nlohmann::json polygon_json(const geometry::Polygon& p) {
+  const auto bb = geometry::bounding_box(p);
+  return {{"area_m2", geometry::area(p)}, {"bounding_box_m", {bb.xmin, bb.ymin, bb.xmax, bb.ymax}}};
+}
+
+std::string render_json(const Design& d, const CheckResult& r) {
+  using nlohmann::json;
+  const auto& f = r.figures;
+  json j;
+  j["hallway_check"] = 1;
+  j["design"] = {{"path", d.path}, {"name", d.name}, {"format", d.format_version}};
+  json derived = {{"depth_m", d.heterostructure.depth_m},
+                  {"density_per_m2", d.heterostructure.density_per_m2},
+                  {"density_of_states_per_J_m2", f.density_of_states_per_J_m2},
+                  {"fermi_energy_J", f.fermi_energy_J},
+                  {"fermi_wavelength_m", f.fermi_wavelength_m},
+                  {"fermi_velocity_m_per_s", f.fermi_velocity_m_per_s},
+                  {"field_T", f.field_T},
+                  {"filling", d.conditions.filling.ToString()},
+                  {"filling_at_field", f.filling},
+                  {"field_given", d.conditions.field_given},
+                  {"magnetic_length_m", f.magnetic_length_m},
+                  {"cyclotron_energy_J", f.cyclotron_energy_J},
+                  {"thermal_energy_J", f.thermal_energy_J},
+                  {"temperature_K", d.conditions.temperature_K},
+                  {"gate_capacitance_F_per_m2", f.gate_capacitance_F_per_m2},
+                  {"density_per_gate_volt_per_m2", f.density_per_gate_volt_per_m2},
+                  {"depletion_voltage_plate_V", f.depletion_voltage_plate_V},
+                  {"depletion_voltage_V", f.depletion_voltage_V}};
+  derived["mean_free_path_m"] = f.mean_free_path_m ? json(*f.mean_free_path_m) : json(nullptr);
+  derived["transport_lifetime_s"] = f.transport_lifetime_s ? json(*f.transport_lifetime_s) : json(nullptr);
+  j["derived"] = derived;
+  json ch = json::array();
+  for (const Channel& c : d.channels) {
+    json x = {{"conductance_e2_per_h", c.conductance.ToString()}, {"charge_e", c.charge_e}};
+    x["exchange_pi"] = c.exchange_pi ? json(*c.exchange_pi) : json(nullptr);
+    x["scaling"] = c.scaling ? json(*c.scaling) : json(nullptr);
+    x["note"] = c.note;
+    ch.push_back(x);
+  }
+  j["channels"] = ch;
+  j["channels_from_design"] = d.channels_given;
+  j["mesa"] = polygon_json(d.mesa.outline);
+  j["mesa"]["etch_depletion_m"] = d.mesa.etch_depletion_m;
+  json contacts = json::array();
+  for (const Contact& c : d.contacts) {
+    json x = polygon_json(c.outline);
+    x["name"] = c.name;
+    contacts.push_back(x);
+  }
+  j["contacts"] = contacts;
+  json gates = json::array();
+  for (const Gate& g : d.gates) {
+    json x = polygon_json(g.outline);
+    x["name"] = g.name;
+    x["voltage_V"] = g.voltage_V;
+    gates.push_back(x);
+  }
+  j["gates"] = gates;
+  json ks = json::array();
+  for (const Constriction& k : d.constrictions) {
+    json x = {{"name", k.name}, {"sides", {k.first, k.second}}, {"transmission", k.transmission}};
+    x["regime"] = k.regime ? json(ToString(*k.regime)) : json(nullptr);
+    x["gap_m"] = nullptr;
+    x["bare_pinch_off_V"] = nullptr;
+    for (const ConstrictionGap& g : r.constrictions)
+      if (g.name == k.name) {
+        x["gap_m"] = g.gap_m;
+        x["gap_ends_m"] = {{g.on_first.x, g.on_first.y}, {g.on_second.x, g.on_second.y}};
+        if (g.bare_pinch_off_V) x["bare_pinch_off_V"] = *g.bare_pinch_off_V;
+      }
+    ks.push_back(x);
+  }
+  j["constrictions"] = ks;
+  json wiring = json::object();
+  for (const Wiring& w : d.wiring) {
+    json x = {{"role", ToString(w.role)}};
+    if (w.role == Role::kSource) x[w.bias_is_current ? "bias_A" : "bias_V"] = w.bias;
+    if (w.amplifier)
+      x["amplifier"] = {{"load_Ohm", w.amplifier->load_Ohm},
+                        {"voltage_noise_V_per_rtHz", w.amplifier->voltage_noise_V_per_rtHz},
+                        {"current_noise_A_per_rtHz", w.amplifier->current_noise_A_per_rtHz},
+                        {"bandwidth_Hz", w.amplifier->bandwidth_Hz},
+                        {"integration_s", w.amplifier->integration_s}};
+    wiring[w.contact] = x;
+  }
+  j["wiring"] = wiring;
+  j["notes"] = d.notes;
+  json errors = json::array(), warnings = json::array();
+  for (const Finding& x : r.findings)
+    (x.severity == Severity::kError ? errors : warnings)
+        .push_back({{"code", x.code}, {"message", x.message}, {"where", location_json(x.where)}});
+  j["errors"] = errors;
+  j["warnings"] = warnings;
+  j["ok"] = r.ok();
+  return j.dump(2) + "\n";
+}
+
+}  // namespace
+
+int RunCheck(const CheckArgs& args) {
+  Design d;
+  try {
+    d = LoadDesign(args.design_path);
+  } catch (const DesignError& e) {
+    std::cerr << "hallway: design error: " << e.what() << "\n";
+    return kExitDesignError;
+  }
+  const CheckResult r = CheckDesign(d);
+  std::cout << render_text(d, r);
+  if (!args.json_path.empty()) {
+    try {
+      WriteFileAtomically(args.json_path, render_json(d, r), {args.design_path});
+    } catch (const OutputError& e) {
+      std::cerr << "hallway: output error: " << e.what() << "\n";
+      return kExitOutputError;
+    }
+  }
+  if (!r.ok()) {
+    for (const Finding& x : r.findings)
+      if (x.severity == Severity::kError) std::cerr << "hallway: design error: " << x.where.ToString() << ": " << x.message << "\n";
+    return kExitDesignError;
+  }
+  return kExitOk;
+}
+
+}  // namespace hallway::cli

@@ -1,0 +1,41 @@
+// The `hallway` executable: parses the command line and dispatches to a subcommand.
+#include <CLI/CLI.hpp>
+#include <exception>
+#include <iostream>
+
+#include "commands.hpp"
+#include "output.hpp"
+
+#ifndef HALLWAY_VERSION
+#define HALLWAY_VERSION "unknown"
+#endif
+
+int main(int argc, char** argv) {
+  using namespace hallway::cli;
+  CLI::App app{"hallway: layout checks, edge transport and noise estimates for quantum Hall devices"};
+  app.set_version_flag("--version", std::string("hallway ") + HALLWAY_VERSION);
+  app.require_subcommand(1);
+
+  CheckArgs check;
+  auto* c = app.add_subcommand("check", "Read a design, derive the wafer figures and check layout and wiring");
+  c->add_option("design", check.design_path, "Design file (YAML)")->required();
+  c->add_option("--json", check.json_path, "Also write the results as JSON to this file");
+
+  try {
+    app.parse(argc, argv);
+  } catch (const CLI::CallForHelp& e) {
+    return app.exit(e);
+  } catch (const CLI::CallForVersion& e) {
+    return app.exit(e);
+  } catch (const CLI::ParseError& e) {
+    app.exit(e);  // prints the message
+    return kExitUsage;
+  }
+  try {
+    if (*c) return RunCheck(check);
+  } catch (const std::exception& e) {
+    std::cerr << "hallway: internal error: " << e.what() << "\n";
+    return kExitInternal;
+  }
+  return kExitUsage;
+}

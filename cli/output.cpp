@@ -1,0 +1,51 @@
+// Atomic output files; see output.hpp.
+#include "output.hpp"
+
+#include <unistd.h>
+
+#include <cerrno>
+#include <cstdio>
+#include <cstring>
+#include <filesystem>
+#include <random>
+
+namespace hallway::cli {
+
+namespace fs = std::filesystem;
+
+void WriteFileAtomically(const std::string& path, const std::string& text, const std::vector<std::string>& inputs) {
+  if (path.empty()) throw OutputError("no output file name given");
+  std::error_code ec;
+  const fs::path target = fs::weakly_canonical(fs::absolute(path), ec);
+  for (const std::string& in : inputs) {
+    std::error_code ec2;
+    if (fs::exists(in, ec2) && fs::exists(path, ec2) && fs::equivalent(in, path, ec2))
+      throw OutputError("refusing to write over the input file " + in);
+    if (!ec && fs::weakly_canonical(fs::absolute(in), ec2) == target)
+      throw OutputError("refusing to write over the input file " + in);
+  }
+  if (fs::is_directory(path, ec)) throw OutputError(path + " is a folder, not a file");
+  const fs::path dir = fs::absolute(path).parent_path();
+  if (!fs::is_directory(dir, ec)) throw OutputError("the folder " + dir.string() + " does not exist");
+  std::random_device rd;
+  std::string tmp_name(".");
+  tmp_name.append(fs::path(path).filename().string()).append(".tmp").append(std::to_string(rd() % 1000000));
+  const fs::path tmp = dir / tmp_name;
+  FILE* f = std::fopen(tmp.c_str(), "wb");
+  if (!f) throw OutputError("cannot create " + tmp.string() + ": " + std::strerror(errno));
+  const bool wrote = std::fwrite(text.data(), 1, text.size(), f) == text.size();
+  const bool flushed = std::fflush(f) == 0 && ::fsync(fileno(f)) == 0;
+  const bool closed = std::fclose(f) == 0;
+  if (!wrote || !flushed || !closed) {
+    fs::remove(tmp, ec);
+    throw OutputError("cannot write " + path + ": " + std::strerror(errno));
+  }
+  fs::rename(tmp, path, ec);
+  if (ec) {
+    std::error_code ec3;
+    fs::remove(tmp, ec3);
+    throw OutputError("cannot move the finished file into place at " + path + ": " + ec.message());
+  }
+}
+
+}  // namespace hallway::cli

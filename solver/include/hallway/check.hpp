@@ -1,0 +1,58 @@
+// hallway/check.hpp: geometric and wiring consistency of a loaded design (`hallway check`).
+//
+// Errors make the design unusable for the solvers (a short between gates, a contact that misses
+// the mesa, a constriction whose gates do not face each other across the 2DEG). Warnings are legal
+// but suspicious. Each finding names the objects involved and where they were written.
+#pragma once
+
+#include <string>
+#include <vector>
+
+#include "hallway/design.hpp"
+#include "hallway/heterostructure.hpp"
+
+namespace hallway {
+
+enum class Severity { kError, kWarning };
+std::string ToString(Severity s);
+
+struct Finding {
+  Severity severity = Severity::kWarning;
+  std::string code;      // stable short identifier, e.g. "gate-overlap"
+  std::string message;
+  SourceLocation where;  // the first object involved
+};
+
+struct ConstrictionGap {
+  std::string name;
+  std::string first, second;
+  double gap_m = 0.0;                       // shortest distance between the two outlines
+  geometry::Point on_first, on_second;      // where it is attained
+  std::optional<double> bare_pinch_off_V;   // split gates only (physics.md 1.4 (i), infinite fingers)
+  double most_positive_gate_V = 0.0;        // of the gates that form it
+};
+
+struct CheckOptions {
+  // Forward bias above which a Schottky gate on GaAs starts to conduct (common practice: the barrier
+  // is about 0.7-0.8 V; conduction sets in from about +0.5 V).
+  double forward_bias_warning_V = 0.5;
+  // A gap wider than this many 2DEG depths is unlikely to pinch off at moderate voltage.
+  double wide_gap_in_depths = 10.0;
+  // A source bias above this fraction of the cyclotron energy (over e) risks breaking down the
+  // quantum Hall state (common practice).
+  double bias_fraction_of_cyclotron_gap = 0.1;
+  bool IsValid(std::string* why) const;
+};
+
+struct CheckResult {
+  HeterostructureFigures figures;
+  std::vector<ConstrictionGap> constrictions;
+  std::vector<Finding> findings;  // errors first, then warnings, each in design order
+  bool ok() const;                // no errors
+  int error_count() const;
+  int warning_count() const;
+};
+
+CheckResult CheckDesign(const Design& design, const CheckOptions& options = {});
+
+}  // namespace hallway

@@ -1,0 +1,147 @@
+// hallway/design.hpp: a device design as the solvers see it, in SI units.
+//
+// Produced by LoadDesign() (design_loader.hpp) from a design file, format version 1. Every object
+// keeps where it was written (file, line, column, key path) so that later stages can point at it.
+#pragma once
+
+#include <optional>
+#include <string>
+#include <vector>
+
+#include "hallway/geometry/polygon.hpp"
+
+namespace hallway {
+
+// Where something was written in a design file. Lines and columns count from 1.
+struct SourceLocation {
+  std::string file;
+  int line = 0;
+  int column = 0;
+  std::string key_path;  // e.g. "gates[1].voltage"
+  std::string ToString() const;  // "file:line:column: key_path"
+};
+
+// A positive rational p/q in lowest terms: bulk filling factors and channel conductances (e^2/h).
+struct Fraction {
+  long num = 0;
+  long den = 1;
+  double value() const { return static_cast<double>(num) / static_cast<double>(den); }
+  bool is_integer() const { return den == 1; }
+  std::string ToString() const;  // "2", "1/3"
+  friend bool operator==(const Fraction&, const Fraction&) = default;
+};
+Fraction MakeFraction(long num, long den);  // reduces; den > 0
+Fraction operator+(Fraction a, Fraction b);
+
+enum class SurfaceModel { kPinned, kFrozen };
+std::string ToString(SurfaceModel m);
+std::optional<SurfaceModel> SurfaceModelFromString(const std::string& s);
+
+struct Heterostructure {
+  double depth_m = 0.0;             // 2DEG below the surface
+  double density_per_m2 = 0.0;      // ungated sheet density n_s
+  std::optional<double> mobility_m2_per_Vs;
+  double permittivity = 12.9;       // relative, epsilon_r
+  double effective_mass = 0.067;    // m*/m_e
+  SurfaceModel surface = SurfaceModel::kPinned;
+};
+
+struct Conditions {
+  double temperature_K = 0.0;
+  double field_T = 0.0;             // signed, +z from the 2DEG towards the surface
+  Fraction filling;                 // bulk plateau used by the solvers
+  bool field_given = false;         // true: `field:` was given and `filling` is the nearest plateau
+  double filling_from_field = 0.0;  // n h / (e |B|) when field_given
+};
+
+// One edge channel at the bulk filling, outermost first.
+struct Channel {
+  Fraction conductance;                 // in e^2/h
+  double charge_e = 1.0;                // quasiparticle charge e*/e in weak backscattering
+  std::optional<double> scaling;        // scaling dimension delta (collider formulas)
+  std::optional<double> exchange_pi;    // exchange phase theta / pi
+  std::string note;                     // caveat attached to the default (empty if none)
+};
+
+struct Mesa {
+  geometry::Polygon outline;
+  double etch_depletion_m = 0.0;
+  bool etch_depletion_given = false;
+  SourceLocation where;
+};
+
+struct Contact {
+  std::string name;
+  geometry::Polygon outline;
+  SourceLocation where;
+};
+
+struct Gate {
+  std::string name;
+  double voltage_V = 0.0;
+  geometry::Polygon outline;
+  SourceLocation where;
+};
+
+enum class Regime { kWeak, kStrong };
+std::string ToString(Regime r);
+std::optional<Regime> RegimeFromString(const std::string& s);
+
+// The reserved name that lets a constriction be formed between a gate and the etched mesa edge.
+inline constexpr const char* kMesaName = "mesa";
+
+struct Constriction {
+  std::string name;
+  std::string first, second;           // gate names, or kMesaName for one of them
+  std::vector<double> transmission;    // per channel, outermost first, each in [0, 1]
+  std::optional<Regime> regime;
+  SourceLocation where;
+};
+
+enum class Role { kSource, kGround, kAmplifier, kFloat };
+std::string ToString(Role r);
+std::optional<Role> RoleFromString(const std::string& s);
+
+// The amplifier chain at an amplifier contact (physics.md section 8).
+struct Amplifier {
+  double load_Ohm = 0.0;
+  double voltage_noise_V_per_rtHz = 0.0;
+  double current_noise_A_per_rtHz = 0.0;
+  double bandwidth_Hz = 0.0;
+  double integration_s = 0.0;
+};
+
+struct Wiring {
+  std::string contact;
+  Role role = Role::kGround;
+  // Sources only: a voltage (bias_is_current false, volts) or a current (amperes, into the device).
+  double bias = 0.0;
+  bool bias_is_current = false;
+  std::optional<Amplifier> amplifier;  // amplifier contacts: the shared block with overrides applied
+  SourceLocation where;
+};
+
+struct Design {
+  int format_version = 1;
+  std::string path;         // the design file as given
+  std::string name;
+  double unit_m = 1e-6;     // the file's outline unit in metres
+  std::string unit_name;    // "um"
+  Heterostructure heterostructure;
+  Conditions conditions;
+  Mesa mesa;
+  std::vector<Contact> contacts;      // file order
+  std::vector<Gate> gates;            // file order
+  std::vector<Constriction> constrictions;
+  std::vector<Wiring> wiring;         // in the order of `contacts`
+  std::optional<Amplifier> amplifier; // the shared block, if given
+  std::vector<Channel> channels;      // defaults for the filling, or the file's `channels:`
+  bool channels_given = false;
+  std::vector<std::string> notes;     // facts the loader decided and the user should know
+
+  const Contact* FindContact(const std::string& n) const;
+  const Gate* FindGate(const std::string& n) const;
+  const Wiring* FindWiring(const std::string& contact) const;
+};
+
+}  // namespace hallway

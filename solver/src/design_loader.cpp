@@ -1,0 +1,607 @@
+// Design file reader, format version 1; see design_loader.hpp and README.md ("Design files").
+#include "hallway/design_loader.hpp"
+
+#include <yaml-cpp/yaml.h>
+
+#include <algorithm>
+#include <charconv>
+#include <cmath>
+#include <fstream>
+#include <map>
+#include <set>
+#include <sstream>
+
+#include "hallway/channels.hpp"
+#include "hallway/constants.hpp"
+#include "hallway/units.hpp"
+
+namespace hallway {
+
+DesignError::DesignError(SourceLocation where, const std::string& message)
+    : std::runtime_error(where.ToString() + ": " + message), where_(std::move(where)), message_(message) {}
+
+namespace {
+
+using units::Kind;
+
+// A YAML node together with where it is and what it is called.
+struct Value {
+  YAML::Node node;
+  std::string path;
+};
+
+class Reader {
+ public:
+  explicit Reader(std::string file) : file_(std::move(file)) {}
+
+  SourceLocation where(const Value& v) const {
+    const YAML::Mark m = v.node.Mark();
+    // yaml-cpp counts from 0; an absent node has mark -1.
+    return {file_, m.line >= 0 ? m.line + 1 : 0, m.column >= 0 ? m.column + 1 : 0, v.path};
+  }
+  [[noreturn]] void fail(const Value& v, const std::string& msg) const { throw DesignError(where(v), msg); }
+
+  // The entries of a mapping: unknown and duplicate keys are errors.
+  struct Map {
+    Value self;
+    std::vector<std::pair<std::string, Value>> entries;
+    std::optional<Value> get(const std::string& key) const {
+      for (const auto& [k, v] : entries)
+        if (k == key) return v;
+      return std::nullopt;
+    }
+  };
+
+  Map map(const Value& v, std::initializer_list<const char*> allowed) const {
+    if (!v.node.IsMap()) fail(v, "expected a mapping of keys to values here");
+    Map out{v, {}};
+    std::set<std::string> seen;
+    for (auto it = v.node.begin(); it != v.node.end(); ++it) {
+      const Value key{it->first, v.path};
+      if (!it->first.IsScalar()) fail(key, "keys must be plain words");
+      const std::string k = it->first.Scalar();
+      const std::string child = v.path.empty() ? k : v.path + "." + k;
+      if (std::find_if(allowed.begin(), allowed.end(), [&](const char* a) { return k == a; }) == allowed.end()) {
+        std::string list;
+        for (const char* a : allowed) list += std::string(list.empty() ? "" : ", ") + a;
+        fail(Value{it->first, child}, "unknown key '" + k + "' (allowed here: " + list + ")");
+      }
+      if (!seen.insert(k).second) fail(Value{it->first, child}, "key '" + k + "' is given twice");
+      out.entries.push_back({k, Value{it->second, child}});
+    }
+    return out;
+  }
+
+  Value require(const Map& m, const std::string& key) const {
+    auto v = m.get(key);
+    if (!v) fail(m.self, "missing key '" + key + "'");
+    if (v->node.IsNull()) fail(*v, "'" + key + "' has no value");
+    return *v;
+  }
+
+  std::string scalar(const Value& v, const std::string& what) const {
+    if (!v.node.IsScalar()) fail(v, "expected " + what + " here, not a " + (v.node.IsMap() ? "mapping" : v.node.IsSequence() ? "list" : "empty value"));
+    return v.node.Scalar();
+  }
+
+  double quantity(const Value& v, Kind kind) const {
+    const std::string text = scalar(v, "a " + units::ToString(kind) + " with its unit, e.g. '" + units::ExampleFor(kind) + "'");
+    try {
+      return units::Parse(text, kind);
+    } catch (const units::UnitError& e) {
+      fail(v, e.what());
+    }
+  }
+
+  double number(const Value& v) const {
+    const std::string text = scalar(v, "a plain number");
+    double x = 0.0;
+    const char* b = text.data();
+    const char* e = b + text.size();
+    if (b != e && *b == '+') ++b;
+    auto [ptr, ec] = std::from_chars(b, e, x);
+    if (ec != std::errc() || ptr != e || !std::isfinite(x)) fail(v, "expected a plain number, got '" + text + "'");
+    return x;
+  }
+
+  long integer(const Value& v) const {
+    const std::string text = scalar(v, "a whole number");
+    long x = 0;
+    auto [ptr, ec] = std::from_chars(text.data(), text.data() + text.size(), x);
+    if (ec != std::errc() || ptr != text.data() + text.size()) fail(v, "expected a whole number, got '" + text + "'");
+    return x;
+  }
+
+  // "2", "1/3", "2/5": a positive fraction.
+  Fraction fraction(const Value& v) const {
+    const std::string text = scalar(v, "a whole number or a fraction such as \"1/3\"");
+    long p = 0, q = 1;
+    const char* b = text.data();
+    const char* e = b + text.size();
+    auto [ptr, ec] = std::from_chars(b, e, p);
+    bool ok = ec == std::errc();
+    if (ok && ptr != e) {
+      ok = *ptr == '/';
+      if (ok) {
+        auto [ptr2, ec2] = std::from_chars(ptr + 1, e, q);
+        ok = ec2 == std::errc() && ptr2 == e;
+      }
+    }
+    if (!ok) fail(v, "expected a whole number or a fraction such as \"1/3\", got '" + text + "'");
+    if (p <= 0 || q <= 0 || p > 1000 || q > 1000) fail(v, "the value must be a positive fraction p/q with p, q ≤ 1000");
+    return MakeFraction(p, q);
+  }
+
+  std::vector<Value> list(const Value& v, const std::string& what) const {
+    if (!v.node.IsSequence()) fail(v, "expected a list of " + what);
+    std::vector<Value> out;
+    std::size_t k = 0;
+    for (const auto& item : v.node) out.push_back({item, v.path + "[" + std::to_string(k++) + "]"});
+    return out;
+  }
+
+  geometry::Polygon outline(const Value& v, double unit_m) const {
+    geometry::Polygon p;
+    const auto pts = list(v, "[x, y] points");
+    if (pts.size() < 3) fail(v, "an outline needs at least 3 points, got " + std::to_string(pts.size()));
+    if (pts.size() > 100000) fail(v, "an outline may have at most 100000 points");
+    for (const Value& pt : pts) {
+      const auto xy = list(pt, "two coordinates [x, y]");
+      if (xy.size() != 2) fail(pt, "a point is [x, y]: exactly two plain numbers in the file's `units`");
+      const double x = number(xy[0]) * unit_m, y = number(xy[1]) * unit_m;
+      if (!(std::abs(x) <= kMaxCoordinate_m) || !(std::abs(y) <= kMaxCoordinate_m))
+        fail(pt, "coordinate lies more than 10 cm from the origin; check `units`");
+      p.vertices.push_back({x, y});
+    }
+    const auto defect = geometry::find_defect(p);
+    if (defect != geometry::PolygonDefect::kNone) fail(v, "the outline is not a simple polygon: " + geometry::ToString(defect));
+    geometry::normalise(p);
+    return p;
+  }
+
+  std::string name(const Value& v) const {
+    const std::string s = scalar(v, "a name");
+    const bool ok = !s.empty() && s.size() <= 64 &&
+                    std::all_of(s.begin(), s.end(), [](char c) {
+                      return std::isalnum(static_cast<unsigned char>(c)) || c == '_' || c == '-' || c == '.';
+                    }) && std::isalpha(static_cast<unsigned char>(s[0]));
+    if (!ok) fail(v, "names start with a letter and use letters, digits, '_', '-' or '.' (at most 64), got '" + s + "'");
+    if (s == kMesaName) fail(v, "'mesa' is reserved for constrictions formed against the mesa edge");
+    return s;
+  }
+
+  const std::string& file() const { return file_; }
+
+ private:
+  std::string file_;
+};
+
+void range(const Reader& r, const Value& v, double x, double lo, double hi, const std::string& what) {
+  if (!(x >= lo && x <= hi))
+    r.fail(v, what + " must lie between " + units::FormatSI(lo, "") + " and " + units::FormatSI(hi, "") +
+                  " (SI units); got " + units::FormatSI(x, ""));
+}
+
+Amplifier read_amplifier(const Reader& r, const Reader::Map& m, const std::optional<Amplifier>& base) {
+  Amplifier a = base.value_or(Amplifier{});
+  struct Field {
+    const char* key;
+    Kind kind;
+    double Amplifier::*member;
+    bool may_be_zero;
+  };
+  const Field fields[] = {{"load", Kind::kResistance, &Amplifier::load_Ohm, false},
+                          {"voltage_noise", Kind::kVoltageNoise, &Amplifier::voltage_noise_V_per_rtHz, true},
+                          {"current_noise", Kind::kCurrentNoise, &Amplifier::current_noise_A_per_rtHz, true},
+                          {"bandwidth", Kind::kFrequency, &Amplifier::bandwidth_Hz, false},
+                          {"integration", Kind::kTime, &Amplifier::integration_s, false}};
+  for (const Field& f : fields) {
+    auto v = m.get(f.key);
+    if (!v) {
+      if (!base) r.fail(m.self, std::string("missing key '") + f.key + "' (example: " + f.key + ": " +
+                                     units::ExampleFor(f.kind) + ")");
+      continue;
+    }
+    const double x = r.quantity(*v, f.kind);
+    if (f.may_be_zero ? !(x >= 0.0) : !(x > 0.0))
+      r.fail(*v, std::string(f.key) + (f.may_be_zero ? " must not be negative" : " must be positive"));
+    a.*(f.member) = x;
+  }
+  return a;
+}
+
+// Refuse pathological nesting before yaml-cpp recurses into it.
+void check_nesting(const std::string& text, const std::string& path) {
+  int depth = 0, line = 1, col = 0;
+  bool in_single = false, in_double = false, comment = false;
+  for (char c : text) {
+    ++col;
+    if (c == '\n') {
+      ++line;
+      col = 0;
+      comment = false;
+      continue;
+    }
+    if (comment) continue;
+    if (in_double) {
+      if (c == '"') in_double = false;
+      continue;
+    }
+    if (in_single) {
+      if (c == '\'') in_single = false;
+      continue;
+    }
+    if (c == '#') comment = true;
+    else if (c == '"') in_double = true;
+    else if (c == '\'') in_single = true;
+    else if (c == '[' || c == '{') {
+      if (++depth > kMaxNestingDepth)
+        throw DesignError({path, line, col, ""}, "lists or mappings nested deeper than " +
+                                                     std::to_string(kMaxNestingDepth) + " levels");
+    } else if ((c == ']' || c == '}') && depth > 0) {
+      --depth;
+    }
+  }
+}
+
+Wiring read_wiring(const Reader& r, const std::string& contact, const Value& v, const std::optional<Amplifier>& shared) {
+  Wiring w;
+  w.contact = contact;
+  w.where = r.where(v);
+  std::string role_text;
+  std::optional<Value> bias_value;
+  std::string bias_text;
+  std::optional<Reader::Map> overrides;
+  if (v.node.IsMap()) {
+    auto m = r.map(v, {"role", "bias", "load", "voltage_noise", "current_noise", "bandwidth", "integration"});
+    role_text = r.scalar(r.require(m, "role"), "a role");
+    if (auto b = m.get("bias")) {
+      bias_value = *b;
+      bias_text = r.scalar(*b, "a voltage or current");
+    }
+    overrides = m;
+  } else {
+    const std::string text = r.scalar(v, "a role: source <bias>, ground, amplifier or float");
+    const auto sp = text.find(' ');
+    role_text = text.substr(0, sp);
+    if (sp != std::string::npos) {
+      bias_text = text.substr(sp + 1);
+      bias_value = v;
+    }
+  }
+  const auto role = RoleFromString(role_text);
+  if (!role) r.fail(v, "unknown role '" + role_text + "' (roles: source <bias>, ground, amplifier, float)");
+  w.role = *role;
+  if (w.role == Role::kSource) {
+    if (!bias_value) r.fail(v, "a source needs its bias, e.g. 'source 10 uV' or 'source 2 nA'");
+    units::Quantity q;
+    try {
+      q = units::ParseQuantity(bias_text);
+    } catch (const units::UnitError& e) {
+      r.fail(*bias_value, e.what());
+    }
+    if (q.dimension == units::DimensionOf(Kind::kVoltage)) {
+      w.bias = q.value_si;
+      w.bias_is_current = false;
+      if (!(std::abs(w.bias) <= 0.1)) r.fail(*bias_value, "a source bias beyond 100 mV is outside the quantum Hall regime");
+    } else if (q.dimension == units::DimensionOf(Kind::kCurrent)) {
+      w.bias = q.value_si;
+      w.bias_is_current = true;
+      if (!(std::abs(w.bias) <= 1e-6)) r.fail(*bias_value, "a source current beyond 1 uA is outside the quantum Hall regime");
+    } else {
+      r.fail(*bias_value, "a source bias is a voltage ('10 uV') or a current ('2 nA'), got '" + bias_text + "'");
+    }
+  } else if (bias_value) {
+    r.fail(*bias_value, "only a source takes a bias; '" + role_text + "' takes none");
+  }
+  if (w.role == Role::kAmplifier) {
+    if (!shared && !overrides)
+      r.fail(v, "an amplifier contact needs the `amplifier:` block (load, voltage_noise, current_noise, bandwidth, integration)");
+    if (overrides) {
+      Reader::Map only_amp{overrides->self, {}};
+      for (const auto& e : overrides->entries)
+        if (e.first != "role" && e.first != "bias") only_amp.entries.push_back(e);
+      w.amplifier = read_amplifier(r, only_amp, shared);
+    } else {
+      w.amplifier = shared;
+    }
+  } else if (overrides && overrides->entries.size() > 1 + (bias_value ? 1 : 0)) {
+    r.fail(v, "amplifier settings are only for amplifier contacts");
+  }
+  return w;
+}
+
+}  // namespace
+
+Design LoadDesignFromString(const std::string& text, const std::string& path) {
+  check_nesting(text, path);
+  YAML::Node root;
+  try {
+    root = YAML::Load(text);
+  } catch (const YAML::Exception& e) {
+    throw DesignError({path, e.mark.line + 1, e.mark.column + 1, ""}, "YAML syntax: " + e.msg);
+  }
+  const Reader r(path);
+  if (!root.IsDefined() || root.IsNull()) throw DesignError({path, 1, 1, ""}, "the design file is empty");
+  const Value top{root, ""};
+  const auto m = r.map(top, {"hallway", "name", "units", "heterostructure", "conditions", "mesa", "contacts",
+                             "gates", "constrictions", "wiring", "amplifier", "channels"});
+  Design d;
+  d.path = path;
+
+  // Format version.
+  {
+    const Value v = r.require(m, "hallway");
+    d.format_version = static_cast<int>(r.integer(v));
+    if (d.format_version != 1) r.fail(v, "this hallway reads design format 1, the file says " + std::to_string(d.format_version));
+  }
+  if (auto v = m.get("name")) d.name = r.scalar(*v, "free text");
+
+  // Outline unit.
+  {
+    const Value v = r.require(m, "units");
+    d.unit_name = r.scalar(v, "nm, um or mm");
+    if (d.unit_name == "nm") d.unit_m = 1e-9;
+    else if (d.unit_name == "um" || d.unit_name == "\xC2\xB5m" || d.unit_name == "\xCE\xBCm") d.unit_m = 1e-6;
+    else if (d.unit_name == "mm") d.unit_m = 1e-3;
+    else r.fail(v, "units must be nm, um or mm, got '" + d.unit_name + "'");
+  }
+
+  // Heterostructure.
+  {
+    const auto h = r.map(r.require(m, "heterostructure"),
+                         {"depth", "density", "mobility", "permittivity", "effective_mass", "surface"});
+    auto& hs = d.heterostructure;
+    const Value depth = r.require(h, "depth");
+    hs.depth_m = r.quantity(depth, Kind::kLength);
+    range(r, depth, hs.depth_m, 1e-9, 10e-6, "depth");
+    const Value dens = r.require(h, "density");
+    hs.density_per_m2 = r.quantity(dens, Kind::kSheetDensity);
+    range(r, dens, hs.density_per_m2, 1e13, 1e17, "density");
+    if (auto v = h.get("mobility")) {
+      hs.mobility_m2_per_Vs = r.quantity(*v, Kind::kMobility);
+      range(r, *v, *hs.mobility_m2_per_Vs, 1e-4, 1e5, "mobility");
+    }
+    if (auto v = h.get("permittivity")) {
+      hs.permittivity = r.number(*v);
+      range(r, *v, hs.permittivity, 1.0, 100.0, "permittivity");
+    }
+    if (auto v = h.get("effective_mass")) {
+      hs.effective_mass = r.number(*v);
+      range(r, *v, hs.effective_mass, 1e-3, 10.0, "effective_mass");
+    }
+    if (auto v = h.get("surface")) {
+      const auto s = SurfaceModelFromString(r.scalar(*v, "pinned or frozen"));
+      if (!s) r.fail(*v, "surface must be 'pinned' or 'frozen'");
+      hs.surface = *s;
+    }
+  }
+
+  // Conditions: temperature and exactly one of filling / field.
+  std::optional<Value> filling_value;
+  {
+    const auto c = r.map(r.require(m, "conditions"), {"temperature", "filling", "field"});
+    auto& cd = d.conditions;
+    const Value t = r.require(c, "temperature");
+    cd.temperature_K = r.quantity(t, Kind::kTemperature);
+    if (!(cd.temperature_K > 0.0)) r.fail(t, "temperature must be above absolute zero");
+    if (cd.temperature_K > 300.0) r.fail(t, "temperature above 300 K: no quantum Hall effect to design for");
+    const auto fill = c.get("filling");
+    const auto field = c.get("field");
+    if (fill && field) r.fail(*field, "give either `filling` or `field`, not both (the other is derived)");
+    if (!fill && !field) r.fail(c.self, "give the bulk `filling` (e.g. 2 or \"1/3\") or the `field` (e.g. 4.75 T)");
+    const double n = d.heterostructure.density_per_m2;
+    if (fill) {
+      filling_value = *fill;
+      cd.filling = r.fraction(*fill);
+      // B = n h / (e nu), positive by convention.
+      cd.field_T = n * constants::kPlanck_Js / (constants::kElementaryCharge_C * cd.filling.value());
+      if (cd.field_T > 100.0) r.fail(*fill, "this filling needs a field above 100 T at this density");
+    } else {
+      filling_value = *field;
+      cd.field_given = true;
+      cd.field_T = r.quantity(*field, Kind::kField);
+      if (cd.field_T == 0.0) r.fail(*field, "a zero field has no quantum Hall edges; give a signed field such as 4.75 T");
+      if (std::abs(cd.field_T) > 100.0) r.fail(*field, "fields beyond 100 T are not supported");
+      cd.filling_from_field = n * constants::kPlanck_Js / (constants::kElementaryCharge_C * std::abs(cd.field_T));
+      const auto match = NearestPlateau(cd.filling_from_field, kPlateauTolerance);
+      if (!match) {
+        char buf[160];
+        std::snprintf(buf, sizeof buf,
+                      "at this field and density the bulk filling is %.3f, not within %.0f%% of a supported "
+                      "plateau; adjust the field or give `filling:`",
+                      cd.filling_from_field, 100 * kPlateauTolerance);
+        r.fail(*field, buf);
+      }
+      cd.filling = match->filling;
+      char buf[200];
+      std::snprintf(buf, sizeof buf, "field %.4g T gives bulk filling %.3f; using the nearest plateau nu = %s",
+                    cd.field_T, cd.filling_from_field, cd.filling.ToString().c_str());
+      d.notes.push_back(buf);
+    }
+  }
+
+  // Channels: the file's list, or the defaults for the filling.
+  if (auto cv = m.get("channels")) {
+    d.channels_given = true;
+    Fraction sum{0, 1};
+    for (const Value& item : r.list(*cv, "channels")) {
+      const auto cm = r.map(item, {"conductance", "charge", "scaling", "exchange"});
+      Channel ch;
+      ch.conductance = r.fraction(r.require(cm, "conductance"));
+      ch.charge_e = ch.conductance.is_integer() ? 1.0 : ch.conductance.value();
+      if (auto v = cm.get("charge")) {
+        const Fraction q = r.fraction(*v);
+        ch.charge_e = q.value();
+        if (ch.charge_e > 1.0) r.fail(*v, "a quasiparticle charge is at most one electron charge");
+      }
+      if (auto v = cm.get("scaling")) ch.scaling = r.fraction(*v).value();
+      if (auto v = cm.get("exchange")) {
+        ch.exchange_pi = r.fraction(*v).value();
+        if (*ch.exchange_pi > 1.0) r.fail(*v, "the exchange phase is given in units of pi and lies in (0, 1]");
+      }
+      sum = sum + ch.conductance;
+      d.channels.push_back(ch);
+    }
+    if (d.channels.empty()) r.fail(*cv, "`channels:` lists no channel");
+    if (!(sum == d.conditions.filling))
+      r.fail(*cv, "the channel conductances add up to " + sum.ToString() + " but the bulk filling is " +
+                      d.conditions.filling.ToString());
+  } else {
+    auto def = DefaultChannels(d.conditions.filling);
+    if (!def)
+      r.fail(*filling_value, "hallway has no default edge channels for filling " + d.conditions.filling.ToString() +
+                                 "; list them under `channels:` (each with conductance in e^2/h, and charge, "
+                                 "scaling and exchange where known)");
+    d.channels = *def;
+  }
+
+  // Mesa.
+  {
+    const Value mv = r.require(m, "mesa");
+    const auto mm = r.map(mv, {"outline", "etch_depletion"});
+    d.mesa.where = r.where(mv);
+    d.mesa.outline = r.outline(r.require(mm, "outline"), d.unit_m);
+    if (auto v = mm.get("etch_depletion")) {
+      d.mesa.etch_depletion_m = r.quantity(*v, Kind::kLength);
+      d.mesa.etch_depletion_given = true;
+      range(r, *v, d.mesa.etch_depletion_m, 0.0, 10e-6, "etch_depletion");
+    } else {
+      d.notes.push_back("mesa.etch_depletion not given: the etched edge is taken to deplete nothing beyond itself");
+    }
+  }
+
+  std::map<std::string, std::string> taken;  // name -> what it names
+  auto claim = [&](const Value& v, const std::string& n, const std::string& what) {
+    auto [it, fresh] = taken.emplace(n, what);
+    if (!fresh) r.fail(v, "the name '" + n + "' is already used by a " + it->second);
+  };
+
+  // Contacts.
+  for (const Value& item : r.list(r.require(m, "contacts"), "ohmic contacts")) {
+    const auto cm = r.map(item, {"name", "outline"});
+    Contact c;
+    const Value nv = r.require(cm, "name");
+    c.name = r.name(nv);
+    claim(nv, c.name, "contact");
+    c.where = r.where(item);
+    c.where.key_path = item.path + " (" + c.name + ")";
+    c.outline = r.outline(r.require(cm, "outline"), d.unit_m);
+    d.contacts.push_back(std::move(c));
+  }
+  if (d.contacts.empty()) r.fail(m.self, "a design needs at least one ohmic contact");
+
+  // Gates (optional: an ungated Hall bar has none).
+  if (auto gv = m.get("gates"); gv && !gv->node.IsNull()) {
+    for (const Value& item : r.list(*gv, "gates")) {
+      const auto gm = r.map(item, {"name", "voltage", "outline"});
+      Gate g;
+      const Value nv = r.require(gm, "name");
+      g.name = r.name(nv);
+      claim(nv, g.name, "gate");
+      g.where = r.where(item);
+      g.where.key_path = item.path + " (" + g.name + ")";
+      const Value vv = r.require(gm, "voltage");
+      g.voltage_V = r.quantity(vv, Kind::kVoltage);
+      range(r, vv, g.voltage_V, -20.0, 20.0, "a gate voltage");
+      g.outline = r.outline(r.require(gm, "outline"), d.unit_m);
+      d.gates.push_back(std::move(g));
+    }
+  }
+
+  // Constrictions.
+  if (auto kv = m.get("constrictions"); kv && !kv->node.IsNull()) {
+    for (const Value& item : r.list(*kv, "constrictions")) {
+      const auto km = r.map(item, {"name", "gates", "transmission", "regime"});
+      Constriction k;
+      const Value nv = r.require(km, "name");
+      k.name = r.name(nv);
+      claim(nv, k.name, "constriction");
+      k.where = r.where(item);
+      k.where.key_path = item.path + " (" + k.name + ")";
+      const Value gv = r.require(km, "gates");
+      const auto gl = r.list(gv, "two gate names");
+      if (gl.size() != 2) r.fail(gv, "a constriction is formed by exactly two gates (or a gate and `mesa`)");
+      std::string names[2];
+      for (int i = 0; i < 2; ++i) {
+        names[i] = r.scalar(gl[static_cast<std::size_t>(i)], "a gate name");
+        if (names[i] != kMesaName && !d.FindGate(names[i]))
+          r.fail(gl[static_cast<std::size_t>(i)], "no gate named '" + names[i] + "'" +
+                                                      (d.FindContact(names[i]) ? " ('" + names[i] + "' is a contact)" : ""));
+      }
+      if (names[0] == names[1]) r.fail(gv, "a constriction needs two different gates");
+      k.first = names[0];
+      k.second = names[1];
+      const Value tv = r.require(km, "transmission");
+      std::vector<Value> tvals;
+      if (tv.node.IsSequence()) tvals = r.list(tv, "transmissions");
+      else {
+        if (d.channels.size() != 1)
+          r.fail(tv, "filling " + d.conditions.filling.ToString() + " has " + std::to_string(d.channels.size()) +
+                         " edge channels: give one transmission per channel as a list, outermost first");
+        tvals.push_back(tv);
+      }
+      if (tvals.size() != d.channels.size())
+        r.fail(tv, "expected " + std::to_string(d.channels.size()) + " transmissions (one per edge channel, outermost first), got " +
+                       std::to_string(tvals.size()));
+      for (const Value& t : tvals) {
+        const double x = r.number(t);
+        if (!(x >= 0.0 && x <= 1.0)) r.fail(t, "a transmission is a probability between 0 and 1");
+        k.transmission.push_back(x);
+      }
+      if (auto rv = km.get("regime")) {
+        const auto reg = RegimeFromString(r.scalar(*rv, "weak or strong"));
+        if (!reg) r.fail(*rv, "regime must be 'weak' or 'strong'");
+        k.regime = *reg;
+      }
+      d.constrictions.push_back(std::move(k));
+    }
+  }
+
+  // Amplifier block.
+  if (auto av = m.get("amplifier"))
+    d.amplifier = read_amplifier(r, r.map(*av, {"load", "voltage_noise", "current_noise", "bandwidth", "integration"}),
+                                 std::nullopt);
+
+  // Wiring: every contact exactly once.
+  {
+    const Value wv = r.require(m, "wiring");
+    const auto wm = [&] {
+      if (!wv.node.IsMap()) r.fail(wv, "expected a mapping of contact names to roles");
+      Reader::Map out{wv, {}};
+      std::set<std::string> seen;
+      for (auto it = wv.node.begin(); it != wv.node.end(); ++it) {
+        const std::string k = it->first.IsScalar() ? it->first.Scalar() : "";
+        const Value key{it->first, "wiring." + k};
+        if (!d.FindContact(k))
+          r.fail(key, "no contact named '" + k + "'" + (d.FindGate(k) ? " ('" + k + "' is a gate)" : ""));
+        if (!seen.insert(k).second) r.fail(key, "contact '" + k + "' is wired twice");
+        out.entries.push_back({k, Value{it->second, "wiring." + k}});
+      }
+      return out;
+    }();
+    for (const Contact& c : d.contacts) {
+      auto v = wm.get(c.name);
+      if (!v) r.fail(wv, "contact '" + c.name + "' has no role; give it one of source <bias>, ground, amplifier, float");
+      d.wiring.push_back(read_wiring(r, c.name, *v, d.amplifier));
+    }
+  }
+  return d;
+}
+
+Design LoadDesign(const std::string& path) {
+  std::ifstream in(path, std::ios::binary);
+  if (!in) throw DesignError({path, 0, 0, ""}, "cannot open the design file");
+  in.seekg(0, std::ios::end);
+  const auto size = in.tellg();
+  if (size < 0) throw DesignError({path, 0, 0, ""}, "cannot read the design file");
+  if (static_cast<std::size_t>(size) > kMaxDesignBytes)
+    throw DesignError({path, 0, 0, ""}, "the design file is larger than 8 MiB; that is not a hand-written design");
+  in.seekg(0);
+  std::string text(static_cast<std::size_t>(size), '\0');
+  in.read(text.data(), size);
+  if (!in) throw DesignError({path, 0, 0, ""}, "cannot read the design file");
+  return LoadDesignFromString(text, path);
+}
+
+}  // namespace hallway

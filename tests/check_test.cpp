@@ -1,0 +1,134 @@
+// Geometry and wiring checks on whole designs: each failure names the objects involved.
+#include "hallway/check.hpp"
+
+#include <gtest/gtest.h>
+
+#include <algorithm>
+
+#include "hallway/design_loader.hpp"
+#include "test_support.hpp"
+
+namespace hallway {
+namespace {
+
+using test::kBase;
+using test::replace;
+
+CheckResult check(const std::string& text) { return CheckDesign(LoadDesignFromString(text, "t.yaml")); }
+
+const Finding* find(const CheckResult& r, const std::string& code) {
+  auto it = std::find_if(r.findings.begin(), r.findings.end(), [&](const Finding& f) { return f.code == code; });
+  return it == r.findings.end() ? nullptr : &*it;
+}
+
+TEST(Check, DefaultOptionsAreValid) {
+  std::string why;
+  EXPECT_TRUE(CheckOptions{}.IsValid(&why)) << why;
+  CheckOptions bad;
+  bad.wide_gap_in_depths = -1;
+  EXPECT_FALSE(bad.IsValid(&why));
+  EXPECT_NE(why.find("wide_gap_in_depths"), std::string::npos);
+}
+
+TEST(Check, BaseDesignPassesAndMeasuresTheGap) {
+  const CheckResult r = check(kBase);
+  EXPECT_TRUE(r.ok());
+  EXPECT_EQ(r.error_count(), 0);
+  ASSERT_EQ(r.constrictions.size(), 1u);
+  // QL tip (10.5, -0.15) um and QR tip (10.5, 0.15) um: 300 nm apart.
+  EXPECT_NEAR(r.constrictions[0].gap_m, 300e-9, 1e-15);
+  ASSERT_TRUE(r.constrictions[0].bare_pinch_off_V);
+  EXPECT_LT(*r.constrictions[0].bare_pinch_off_V, r.figures.depletion_voltage_V);
+}
+
+TEST(Check, OverlappingGatesAreAShort) {
+  const CheckResult r = check(replace(kBase, "[[10,14],[10,0.4],[10.5,0.15],[11,0.4],[11,14]]",
+                                      "[[10,14],[10,-1],[10.5,-1.2],[11,-1],[11,14]]"));
+  const Finding* f = find(r, "gate-short");
+  ASSERT_NE(f, nullptr);
+  EXPECT_EQ(f->severity, Severity::kError);
+  EXPECT_NE(f->message.find("QL and QR"), std::string::npos) << f->message;
+  EXPECT_EQ(f->where.line, 17);
+  EXPECT_FALSE(r.ok());
+}
+
+TEST(Check, TouchingGatesAreAShort) {
+  // QR's tip moved down onto QL's tip vertex (10.5, -0.15): boundaries touch at one point.
+  const CheckResult r = check(replace(kBase, "[10.5,0.15]", "[10.5,-0.15]"));
+  EXPECT_NE(find(r, "gate-short"), nullptr);
+}
+
+TEST(Check, ContactOffTheMesa) {
+  const CheckResult r = check(replace(kBase, "[[58,-6],[70,-6],[70,6],[58,6]]", "[[62,-6],[70,-6],[70,6],[62,6]]"));
+  const Finding* f = find(r, "contact-off-mesa");
+  ASSERT_NE(f, nullptr);
+  EXPECT_NE(f->message.find("contact E"), std::string::npos);
+}
+
+TEST(Check, ContactWhollyInsideTheMesa) {
+  const CheckResult r = check(replace(kBase, "[[58,-6],[70,-6],[70,6],[58,6]]", "[[50,-6],[55,-6],[55,6],[50,6]]"));
+  EXPECT_NE(find(r, "contact-inside-mesa"), nullptr);
+}
+
+TEST(Check, GateOnAnOhmicContact) {
+  const CheckResult r = check(replace(kBase, "[[-70,-6],[-58,-6],[-58,6],[-70,6]]", "[[-70,-6],[10.2,-6],[10.2,-5],[-70,-5]]"));
+  const Finding* f = find(r, "gate-on-contact");
+  ASSERT_NE(f, nullptr);
+  EXPECT_NE(f->message.find("QL"), std::string::npos);
+  EXPECT_NE(f->message.find("W"), std::string::npos);
+}
+
+TEST(Check, GatesThatDoNotFaceEachOtherOverTheMesa) {
+  // Both gates moved beyond the mesa's right end: their gap lies off the 2DEG.
+  std::string t = replace(kBase, "[[10,-14],[11,-14],[11,-0.4],[10.5,-0.15],[10,-0.4]]",
+                          "[[80,-14],[81,-14],[81,-0.4],[80.5,-0.15],[80,-0.4]]");
+  t = replace(t, "[[10,14],[10,0.4],[10.5,0.15],[11,0.4],[11,14]]", "[[80,14],[80,0.4],[80.5,0.15],[81,0.4],[81,14]]");
+  const CheckResult r = check(t);
+  EXPECT_NE(find(r, "constriction-off-mesa"), nullptr);
+  EXPECT_NE(find(r, "gate-off-mesa"), nullptr);
+}
+
+TEST(Check, ConstrictionBetweenAGateAndTheMesaEdge) {
+  // QL removed from the constriction; QR alone against the mesa's bottom edge at y = -10 um, its
+  // tip at y = 0.15 um: the gap is 10.15 um (and is wide).
+  const CheckResult r = check(replace(kBase, "gates: [QL, QR]", "gates: [mesa, QR]"));
+  ASSERT_EQ(r.constrictions.size(), 1u);
+  EXPECT_NEAR(r.constrictions[0].gap_m, 10.15e-6, 1e-12);
+  EXPECT_FALSE(r.constrictions[0].bare_pinch_off_V);
+  EXPECT_NE(find(r, "constriction-wide"), nullptr);
+}
+
+TEST(Check, ForwardBiasedGateWarns) {
+  const CheckResult r = check(replace(kBase, "voltage: -0.9 V, outline: [[10,14]", "voltage: 0.7 V, outline: [[10,14]"));
+  const Finding* f = find(r, "gate-forward-bias");
+  ASSERT_NE(f, nullptr);
+  EXPECT_EQ(f->severity, Severity::kWarning);
+  EXPECT_NE(find(r, "constriction-gates-weak"), nullptr);
+}
+
+TEST(Check, HighBiasWarnsOfBreakdown) {
+  // hbar w_c at nu = 2, n = 2.3e15 m^-2 is 8.22 meV; a tenth of it is 0.82 mV.
+  const CheckResult r = check(replace(kBase, "W: source 10 uV", "W: source 2 mV"));
+  EXPECT_NE(find(r, "bias-high"), nullptr);
+  EXPECT_EQ(find(check(kBase), "bias-high"), nullptr);
+}
+
+TEST(Check, CurrentSourceWithoutReturnPath) {
+  std::string t = replace(kBase, "W: source 10 uV", "W: source 1 nA");
+  t = replace(t, "E: amplifier", "E: float");
+  const CheckResult r = check(t);
+  EXPECT_NE(find(r, "no-return"), nullptr);
+  EXPECT_FALSE(r.ok());
+}
+
+TEST(Check, ErrorsAreListedBeforeWarnings) {
+  std::string t = replace(kBase, "W: source 10 uV", "W: source 2 mV");  // warning
+  t = replace(t, "[[58,-6],[70,-6],[70,6],[58,6]]", "[[62,-6],[70,-6],[70,6],[62,6]]");  // error
+  const CheckResult r = check(t);
+  ASSERT_GE(r.findings.size(), 2u);
+  EXPECT_EQ(r.findings.front().severity, Severity::kError);
+  EXPECT_EQ(r.findings.back().severity, Severity::kWarning);
+}
+
+}  // namespace
+}  // namespace hallway

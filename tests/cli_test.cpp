@@ -1,0 +1,142 @@
+// The `hallway` executable end to end: demo designs pass, invalid designs fail with the right exit
+// code and a message that names file, line and key, JSON output is complete or absent.
+#include <gtest/gtest.h>
+#include <sys/wait.h>
+#include <unistd.h>
+
+#include <cstdio>
+#include <filesystem>
+#include <fstream>
+#include <nlohmann/json.hpp>
+#include <sstream>
+
+#include "test_support.hpp"
+
+namespace hallway {
+namespace {
+
+namespace fs = std::filesystem;
+
+struct CommandRun {
+  int exit_code = -1;
+  std::string output;  // stdout and stderr together
+};
+
+CommandRun hallway(const std::string& args) {
+  const std::string cmd = std::string("'") + HALLWAY_EXE + "' " + args + " 2>&1";
+  CommandRun r;
+  FILE* p = popen(cmd.c_str(), "r");
+  if (!p) return r;
+  char buf[4096];
+  std::size_t n;
+  while ((n = fread(buf, 1, sizeof buf, p)) > 0) r.output.append(buf, n);
+  const int status = pclose(p);
+  r.exit_code = WIFEXITED(status) ? WEXITSTATUS(status) : -1;
+  return r;
+}
+
+std::string read(const fs::path& p) {
+  std::ifstream in(p);
+  std::stringstream s;
+  s << in.rdbuf();
+  return s.str();
+}
+
+fs::path scratch(const std::string& name) {
+  const fs::path dir = fs::temp_directory_path() / ("hallway_cli_test_" + std::to_string(::getpid()));
+  fs::create_directories(dir);
+  return dir / name;
+}
+
+TEST(Cli, EveryDemoDesignPassesTheCheck) {
+  int n = 0;
+  for (const auto& entry : fs::directory_iterator(test::SourcePath("designs"))) {
+    if (entry.path().extension() != ".yaml") continue;
+    ++n;
+    const CommandRun r = hallway("check '" + entry.path().string() + "'");
+    EXPECT_EQ(r.exit_code, 0) << entry.path() << "\n" << r.output;
+    EXPECT_NE(r.output.find("check passed"), std::string::npos) << r.output;
+    EXPECT_NE(r.output.find("model estimates"), std::string::npos) << "safety caution missing";
+  }
+  EXPECT_GE(n, 3);
+}
+
+struct InvalidCase {
+  const char* file;
+  const char* line_and_key;  // "file:line:" is checked via this suffix
+  const char* words;
+};
+
+TEST(Cli, InvalidDesignsFailWithFileLineAndKey) {
+  const InvalidCase cases[] = {
+      {"gates_overlap.yaml", ":27:5: gates[0] (QS)", "gates QS and QN overlap or touch"},
+      {"contact_off_mesa.yaml", ":21:5: contacts[1] (E)", "contact E does not overlap the mesa"},
+      {"bare_number.yaml", ":7:10: heterostructure.depth", "needs a unit"},
+      {"unwired_contact.yaml", ":34:3: wiring", "contact 'SE' has no role"},
+      {"self_intersecting_gate.yaml", ":27:42: gates[0].outline", "crosses or touches itself"},
+      {"transmission_count.yaml", ":32:19: constrictions[0].transmission", "expected 2 transmissions"},
+  };
+  for (const auto& c : cases) {
+    const std::string path = test::SourcePath(std::string("designs/invalid/") + c.file);
+    const CommandRun r = hallway("check '" + path + "'");
+    EXPECT_EQ(r.exit_code, 1) << c.file << "\n" << r.output;
+    EXPECT_NE(r.output.find(path + c.line_and_key), std::string::npos) << c.file << "\n" << r.output;
+    EXPECT_NE(r.output.find(c.words), std::string::npos) << c.file << "\n" << r.output;
+  }
+}
+
+TEST(Cli, JsonHoldsTheDerivedFiguresAndTheWiring) {
+  const fs::path out = scratch("bar.json");
+  fs::remove(out);
+  const CommandRun r = hallway("check '" + test::SourcePath("designs/01_hallbar_qpc.yaml") + "' --json '" + out.string() + "'");
+  ASSERT_EQ(r.exit_code, 0) << r.output;
+  const auto j = nlohmann::json::parse(read(out));
+  EXPECT_TRUE(j["ok"].get<bool>());
+  EXPECT_EQ(j["derived"]["filling"], "2");
+  EXPECT_TRUE(test::NearRel(j["derived"]["depletion_voltage_V"].get<double>(), -0.3147, 1e-3));
+  EXPECT_EQ(j["wiring"]["W"]["role"], "source");
+  EXPECT_DOUBLE_EQ(j["wiring"]["W"]["bias_V"].get<double>(), 1e-5);
+  EXPECT_EQ(j["constrictions"][0]["name"], "Q");
+  EXPECT_NEAR(j["constrictions"][0]["gap_m"].get<double>(), 300e-9, 1e-15);
+  EXPECT_EQ(j["contacts"].size(), 6u);
+}
+
+TEST(Cli, NoJsonIsWrittenForADesignThatDoesNotLoad) {
+  const fs::path out = scratch("bad.json");
+  fs::remove(out);
+  const CommandRun r = hallway("check '" + test::SourcePath("designs/invalid/bare_number.yaml") + "' --json '" + out.string() + "'");
+  EXPECT_EQ(r.exit_code, 1);
+  EXPECT_FALSE(fs::exists(out));
+}
+
+TEST(Cli, NeverWritesOverItsInput) {
+  const fs::path copy = scratch("own_input.yaml");
+  fs::copy_file(test::SourcePath("designs/01_hallbar_qpc.yaml"), copy, fs::copy_options::overwrite_existing);
+  const std::string before = read(copy);
+  const CommandRun r = hallway("check '" + copy.string() + "' --json '" + copy.string() + "'");
+  EXPECT_EQ(r.exit_code, 3) << r.output;
+  EXPECT_NE(r.output.find("refusing to write over the input"), std::string::npos) << r.output;
+  EXPECT_EQ(read(copy), before);
+}
+
+TEST(Cli, OutputIntoAMissingFolderIsAnOutputError) {
+  const CommandRun r = hallway("check '" + test::SourcePath("designs/01_hallbar_qpc.yaml") + "' --json /nonexistent/dir/x.json");
+  EXPECT_EQ(r.exit_code, 3) << r.output;
+}
+
+TEST(Cli, UsageErrorsExitWithTwo) {
+  EXPECT_EQ(hallway("").exit_code, 2);
+  EXPECT_EQ(hallway("check").exit_code, 2);
+  EXPECT_EQ(hallway("check a.yaml --no-such-option").exit_code, 2);
+  EXPECT_EQ(hallway("frobnicate").exit_code, 2);
+  EXPECT_EQ(hallway("--help").exit_code, 0);
+}
+
+TEST(Cli, MissingDesignFileIsADesignError) {
+  const CommandRun r = hallway("check /nonexistent/design.yaml");
+  EXPECT_EQ(r.exit_code, 1);
+  EXPECT_NE(r.output.find("cannot open"), std::string::npos) << r.output;
+}
+
+}  // namespace
+}  // namespace hallway

@@ -1,0 +1,204 @@
+// Design loader: what a valid file yields in SI, and that every error names file, line, column and key.
+#include <gtest/gtest.h>
+
+#include <string>
+
+#include "hallway/design_loader.hpp"
+#include "test_support.hpp"
+
+namespace hallway {
+namespace {
+
+using test::NearRel;
+using test::kBase;
+using test::replace;
+
+// Loads `text` and expects a DesignError at `line` whose message holds every one of `words`.
+void ExpectError(const std::string& text, int line, const std::string& key, std::initializer_list<std::string> words) {
+  try {
+    LoadDesignFromString(text, "t.yaml");
+    ADD_FAILURE() << "no error raised";
+  } catch (const DesignError& e) {
+    const std::string msg = e.what();
+    EXPECT_EQ(e.where().file, "t.yaml");
+    if (line > 0) {
+      EXPECT_EQ(e.where().line, line) << msg;
+    }
+    EXPECT_GT(e.where().column, 0) << msg;
+    EXPECT_NE(msg.find(key), std::string::npos) << "key '" << key << "' missing from: " << msg;
+    for (const auto& w : words) EXPECT_NE(msg.find(w), std::string::npos) << "'" << w << "' missing from: " << msg;
+    EXPECT_EQ(msg.rfind("t.yaml:", 0), 0u) << msg;
+  }
+}
+
+TEST(Loader, ValidDesignIsConvertedToSI) {
+  const Design d = LoadDesignFromString(kBase, "t.yaml");
+  EXPECT_EQ(d.name, "loader test bar");
+  EXPECT_TRUE(NearRel(d.heterostructure.depth_m, 95e-9, 1e-14));
+  EXPECT_TRUE(NearRel(d.heterostructure.density_per_m2, 2.3e15, 1e-14));
+  EXPECT_TRUE(NearRel(*d.heterostructure.mobility_m2_per_Vs, 250.0, 1e-14));
+  EXPECT_TRUE(NearRel(d.conditions.temperature_K, 0.015, 1e-14));
+  EXPECT_EQ(d.conditions.filling, MakeFraction(2, 1));
+  EXPECT_GT(d.conditions.field_T, 0.0);  // a field derived from the filling is positive
+  ASSERT_EQ(d.contacts.size(), 2u);
+  EXPECT_EQ(d.contacts[0].name, "W");
+  EXPECT_TRUE(NearRel(d.contacts[0].outline.vertices[0].x, -70e-6, 1e-14));
+  ASSERT_EQ(d.gates.size(), 2u);
+  EXPECT_DOUBLE_EQ(d.gates[0].voltage_V, -0.9);
+  EXPECT_GT(geometry::signed_area(d.gates[1].outline), 0.0);  // clockwise in the file, normalised
+  ASSERT_EQ(d.constrictions.size(), 1u);
+  EXPECT_EQ(d.constrictions[0].transmission, (std::vector<double>{1.0, 0.4}));
+  ASSERT_EQ(d.wiring.size(), 2u);
+  EXPECT_EQ(d.wiring[0].role, Role::kSource);
+  EXPECT_DOUBLE_EQ(d.wiring[0].bias, 1e-5);
+  EXPECT_FALSE(d.wiring[0].bias_is_current);
+  ASSERT_TRUE(d.wiring[1].amplifier);
+  EXPECT_DOUBLE_EQ(d.wiring[1].amplifier->integration_s, 1200.0);
+  EXPECT_EQ(d.channels.size(), 2u);
+}
+
+TEST(Loader, FieldGivesNearestPlateauAndSaysSo) {
+  // n = 2.3e15 m^-2: nu = 2 at B = n h / 2e = 4.7560 T; 4.8 T gives nu = 1.9817, within 5 % of 2.
+  const Design d = LoadDesignFromString(replace(kBase, "filling: 2", "field: -4.8 T"), "t.yaml");
+  EXPECT_EQ(d.conditions.filling, MakeFraction(2, 1));
+  EXPECT_DOUBLE_EQ(d.conditions.field_T, -4.8);
+  EXPECT_TRUE(NearRel(d.conditions.filling_from_field, 1.98168, 1e-4));
+  ASSERT_FALSE(d.notes.empty());
+  EXPECT_NE(d.notes[0].find("nearest plateau"), std::string::npos);
+}
+
+TEST(Loader, FieldFarFromAnyPlateauIsAnError) {
+  ExpectError(replace(kBase, "filling: 2", "field: 3.8 T"), 10, "conditions.field", {"not within", "plateau"});
+}
+
+TEST(Loader, FractionalFillingWithCurrentSource) {
+  std::string t = replace(kBase, "filling: 2", "filling: 1/3");
+  t = replace(t, "transmission: [1, 0.4]", "transmission: 0.9\n    regime: weak");
+  t = replace(t, "W: source 10 uV", "W: source 2 nA");
+  const Design d = LoadDesignFromString(t, "t.yaml");
+  EXPECT_EQ(d.conditions.filling, MakeFraction(1, 3));
+  EXPECT_EQ(d.channels.size(), 1u);
+  EXPECT_EQ(*d.constrictions[0].regime, Regime::kWeak);
+  EXPECT_TRUE(d.wiring[0].bias_is_current);
+  EXPECT_DOUBLE_EQ(d.wiring[0].bias, 2e-9);
+}
+
+TEST(Loader, ChannelsOverrideMustAddUpToTheFilling) {
+  std::string t = replace(kBase, "amplifier:\n  load", "channels:\n  - {conductance: 1}\n  - {conductance: 1}\namplifier:\n  load");
+  EXPECT_EQ(LoadDesignFromString(t, "t.yaml").channels.size(), 2u);
+  t = replace(kBase, "amplifier:\n  load", "channels:\n  - {conductance: 1}\n  - {conductance: 1/3}\namplifier:\n  load");
+  ExpectError(t, 27, "channels", {"add up to 4/3", "bulk filling is 2"});
+}
+
+TEST(Loader, BareNumberWhereAUnitIsRequired) {
+  ExpectError(replace(kBase, "depth: 95 nm", "depth: 95"), 5, "heterostructure.depth", {"needs a unit", "95 nm"});
+}
+
+TEST(Loader, WrongUnitNamesTheExpectedQuantity) {
+  ExpectError(replace(kBase, "temperature: 15 mK", "temperature: 15 mV"), 9, "conditions.temperature",
+              {"expected a temperature"});
+}
+
+TEST(Loader, UnknownKeyListsTheAllowedOnes) {
+  ExpectError(replace(kBase, "  mobility: 2.5e6 cm^2/Vs", "  mobilty: 2.5e6 cm^2/Vs"), 7, "heterostructure.mobilty",
+              {"unknown key 'mobilty'", "mobility"});
+}
+
+TEST(Loader, DuplicateKeyIsAnError) {
+  ExpectError(replace(kBase, "  depth: 95 nm\n", "  depth: 95 nm\n  depth: 90 nm\n"), 6, "heterostructure.depth",
+              {"given twice"});
+}
+
+TEST(Loader, WrongTypeIsAnError) {
+  ExpectError(replace(kBase, "depth: 95 nm", "depth: [95, nm]"), 5, "heterostructure.depth", {"not a list"});
+}
+
+TEST(Loader, DuplicateNamesAcrossObjects) {
+  ExpectError(replace(kBase, "name: QR", "name: W"), 18, "gates[1].name", {"already used by a contact"});
+}
+
+TEST(Loader, UnknownGateInConstriction) {
+  ExpectError(replace(kBase, "gates: [QL, QR]", "gates: [QL, QX]"), 21, "constrictions[0].gates[1]", {"no gate named 'QX'"});
+}
+
+TEST(Loader, WrongNumberOfChannelTransmissions) {
+  ExpectError(replace(kBase, "transmission: [1, 0.4]", "transmission: [1, 0.4, 0.2]"), 22, "constrictions[0].transmission",
+              {"expected 2 transmissions"});
+  ExpectError(replace(kBase, "transmission: [1, 0.4]", "transmission: 0.4"), 22, "constrictions[0].transmission",
+              {"2 edge channels"});
+}
+
+TEST(Loader, TransmissionOutsideUnitInterval) {
+  ExpectError(replace(kBase, "transmission: [1, 0.4]", "transmission: [1.2, 0.4]"), 22, "constrictions[0].transmission[0]",
+              {"between 0 and 1"});
+}
+
+TEST(Loader, UnknownContactInWiring) {
+  ExpectError(replace(kBase, "  E: amplifier", "  E: amplifier\n  N: ground"), 26, "wiring.N", {"no contact named 'N'"});
+}
+
+TEST(Loader, UnwiredContact) {
+  ExpectError(replace(kBase, "  E: amplifier\n", ""), 24, "wiring", {"contact 'E' has no role"});
+}
+
+TEST(Loader, SourceWithoutBiasOrWithWrongBias) {
+  ExpectError(replace(kBase, "W: source 10 uV", "W: source"), 24, "wiring.W", {"needs its bias"});
+  ExpectError(replace(kBase, "W: source 10 uV", "W: source 10 uK"), 24, "wiring.W", {"voltage", "current"});
+  ExpectError(replace(kBase, "W: source 10 uV", "W: ground 10 uV"), 24, "wiring.W", {"only a source takes a bias"});
+}
+
+TEST(Loader, AmplifierOverridePerContact) {
+  const std::string t = replace(kBase, "E: amplifier", "E: {role: amplifier, load: 100 kOhm}");
+  const Design d = LoadDesignFromString(t, "t.yaml");
+  ASSERT_TRUE(d.wiring[1].amplifier);
+  EXPECT_DOUBLE_EQ(d.wiring[1].amplifier->load_Ohm, 1e5);
+  EXPECT_DOUBLE_EQ(d.wiring[1].amplifier->bandwidth_Hz, 2e5);  // from the shared block
+}
+
+TEST(Loader, SelfIntersectingOutline) {
+  ExpectError(replace(kBase, "outline: [[-60,-10],[60,-10],[60,10],[-60,10]]", "outline: [[-60,-10],[60,10],[60,-10],[-60,5]]"),
+              12, "mesa.outline", {"crosses or touches itself"});
+}
+
+TEST(Loader, AbsurdCoordinates) {
+  ExpectError(replace(kBase, "[[58,-6],[70,-6]", "[[58,-6],[1e30,-6]"), 15, "contacts[1].outline[1]", {"10 cm"});
+}
+
+TEST(Loader, NegativeTemperatureAndDensity) {
+  ExpectError(replace(kBase, "temperature: 15 mK", "temperature: -15 mK"), 9, "conditions.temperature", {"absolute zero"});
+  ExpectError(replace(kBase, "density: 2.3e11 cm^-2", "density: -2.3e11 cm^-2"), 6, "heterostructure.density", {"between"});
+}
+
+TEST(Loader, FillingAndFieldTogether) {
+  ExpectError(replace(kBase, "filling: 2", "filling: 2\n  field: 4.7 T"), 11, "conditions.field", {"not both"});
+}
+
+TEST(Loader, UnsupportedFillingExplainsChannels) {
+  std::string t = replace(kBase, "filling: 2", "filling: 3/7");
+  ExpectError(t, 10, "conditions.filling", {"no default edge channels", "channels:"});
+}
+
+TEST(Loader, YamlSyntaxErrorHasLineAndColumn) {
+  ExpectError(replace(kBase, "  depth: 95 nm", "  depth: [95 nm"), 0, "", {"YAML syntax"});
+}
+
+TEST(Loader, TabIndentationIsASyntaxError) {
+  ExpectError(replace(kBase, "  depth: 95 nm", "\tdepth: 95 nm"), 0, "", {"YAML syntax"});
+}
+
+TEST(Loader, DeepNestingIsRefusedBeforeParsing) {
+  ExpectError(kBase + "extra: " + std::string(200, '[') + std::string(200, ']') + "\n", 32, "", {"nested deeper"});
+}
+
+TEST(Loader, EmptyFile) { ExpectError("", 1, "", {"empty"}); }
+
+TEST(Loader, UnsupportedFormatVersion) {
+  ExpectError(replace(kBase, "hallway: 1", "hallway: 2"), 1, "hallway", {"format 1"});
+}
+
+TEST(Loader, MissingFileIsADesignError) {
+  EXPECT_THROW(LoadDesign("/nonexistent/hallway/design.yaml"), DesignError);
+}
+
+}  // namespace
+}  // namespace hallway

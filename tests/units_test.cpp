@@ -1,0 +1,107 @@
+// Unit parsing: every unit a lab writes in a design file, and the errors for what is not a unit.
+#include "hallway/units.hpp"
+
+#include <gtest/gtest.h>
+
+#include "test_support.hpp"
+
+namespace hallway::units {
+namespace {
+
+using test::NearRel;
+
+TEST(Units, PrefixedLengthsAreConvertedToMetres) {
+  EXPECT_TRUE(NearRel(Parse("95 nm", Kind::kLength), 95e-9, 1e-15));
+  EXPECT_TRUE(NearRel(Parse("1.5 um", Kind::kLength), 1.5e-6, 1e-15));
+  EXPECT_TRUE(NearRel(Parse("1.5 \xC2\xB5m", Kind::kLength), 1.5e-6, 1e-15));  // micro sign
+  EXPECT_TRUE(NearRel(Parse("1.5 \xCE\xBCm", Kind::kLength), 1.5e-6, 1e-15));  // Greek mu
+  EXPECT_TRUE(NearRel(Parse("2 mm", Kind::kLength), 2e-3, 1e-15));
+  EXPECT_TRUE(NearRel(Parse("3 cm", Kind::kLength), 3e-2, 1e-15));
+}
+
+TEST(Units, SheetDensityInInverseSquareCentimetres) {
+  // 1 cm^-2 = 1e4 m^-2 (definition of the centimetre).
+  EXPECT_TRUE(NearRel(Parse("2.3e11 cm^-2", Kind::kSheetDensity), 2.3e15, 1e-14));
+  EXPECT_TRUE(NearRel(Parse("2.5e15 m^-2", Kind::kSheetDensity), 2.5e15, 1e-14));
+}
+
+TEST(Units, MobilityInLabUnits) {
+  // 1 cm^2/Vs = 1e-4 m^2/(V s).
+  EXPECT_TRUE(NearRel(Parse("2.5e6 cm^2/Vs", Kind::kMobility), 250.0, 1e-14));
+  EXPECT_TRUE(NearRel(Parse("2.5e6 cm^2/V s", Kind::kMobility), 250.0, 1e-14));
+  EXPECT_TRUE(NearRel(Parse("250 m^2/Vs", Kind::kMobility), 250.0, 1e-14));
+}
+
+TEST(Units, ElectricalQuantities) {
+  EXPECT_TRUE(NearRel(Parse("-0.8 V", Kind::kVoltage), -0.8, 1e-15));
+  EXPECT_TRUE(NearRel(Parse("10 uV", Kind::kVoltage), 1e-5, 1e-15));
+  EXPECT_TRUE(NearRel(Parse("2 nA", Kind::kCurrent), 2e-9, 1e-15));
+  EXPECT_TRUE(NearRel(Parse("10 kOhm", Kind::kResistance), 1e4, 1e-15));
+  EXPECT_TRUE(NearRel(Parse("1.2 MOhm", Kind::kResistance), 1.2e6, 1e-15));
+  EXPECT_TRUE(NearRel(Parse("10 k\xCE\xA9", Kind::kResistance), 1e4, 1e-15));
+  EXPECT_TRUE(NearRel(Parse("4.75 T", Kind::kField), 4.75, 1e-15));
+  EXPECT_TRUE(NearRel(Parse("-250 mT", Kind::kField), -0.25, 1e-15));
+  EXPECT_TRUE(NearRel(Parse("2 fF", Kind::kCapacitance), 2e-15, 1e-15));
+}
+
+TEST(Units, NoiseDensitiesWithRootHertz) {
+  EXPECT_TRUE(NearRel(Parse("0.25 nV/rtHz", Kind::kVoltageNoise), 0.25e-9, 1e-15));
+  EXPECT_TRUE(NearRel(Parse("0.25 nV/sqrt(Hz)", Kind::kVoltageNoise), 0.25e-9, 1e-15));
+  EXPECT_TRUE(NearRel(Parse("5 fA/rtHz", Kind::kCurrentNoise), 5e-15, 1e-15));
+}
+
+TEST(Units, TemperatureTimeFrequencyEnergy) {
+  EXPECT_TRUE(NearRel(Parse("15 mK", Kind::kTemperature), 0.015, 1e-15));
+  EXPECT_TRUE(NearRel(Parse("20 min", Kind::kTime), 1200.0, 1e-15));
+  EXPECT_TRUE(NearRel(Parse("2 h", Kind::kTime), 7200.0, 1e-15));
+  EXPECT_TRUE(NearRel(Parse("3 ms", Kind::kTime), 3e-3, 1e-15));
+  EXPECT_TRUE(NearRel(Parse("200 kHz", Kind::kFrequency), 2e5, 1e-15));
+  // 1 eV = 1.602176634e-19 J exactly (2019 SI).
+  EXPECT_TRUE(NearRel(Parse("1 meV", Kind::kEnergy), 1.602176634e-22, 1e-15));
+}
+
+TEST(Units, BareNumberWhereAUnitIsRequiredIsAnError) {
+  try {
+    Parse("95", Kind::kLength);
+    FAIL() << "no error";
+  } catch (const UnitError& e) {
+    EXPECT_NE(std::string(e.what()).find("needs a unit"), std::string::npos) << e.what();
+    EXPECT_NE(std::string(e.what()).find("95 nm"), std::string::npos) << e.what();
+  }
+}
+
+TEST(Units, WrongDimensionNamesWhatWasExpected) {
+  try {
+    Parse("-0.8 mA", Kind::kVoltage);
+    FAIL() << "no error";
+  } catch (const UnitError& e) {
+    EXPECT_NE(std::string(e.what()).find("expected a voltage"), std::string::npos) << e.what();
+  }
+}
+
+TEST(Units, MalformedUnitsAreRejected) {
+  EXPECT_THROW(Parse("95 nmm", Kind::kLength), UnitError);
+  EXPECT_THROW(Parse("95 parsec", Kind::kLength), UnitError);
+  EXPECT_THROW(Parse("2.3e11 cm-2", Kind::kSheetDensity), UnitError);
+  EXPECT_THROW(Parse("2.3e11 cm^", Kind::kSheetDensity), UnitError);
+  EXPECT_THROW(Parse("1 m/s/s", Kind::kLength), UnitError);
+  EXPECT_THROW(Parse("nm", Kind::kLength), UnitError);
+  EXPECT_THROW(Parse("", Kind::kLength), UnitError);
+  EXPECT_THROW(Parse("1e400 nm", Kind::kLength), UnitError);
+  EXPECT_THROW(Parse("3 cV", Kind::kVoltage), UnitError);  // centi- only for the metre
+}
+
+TEST(Units, PlainNumbersForDimensionlessKeys) {
+  EXPECT_DOUBLE_EQ(Parse("12.9", Kind::kDimensionless), 12.9);
+  EXPECT_THROW(Parse("12.9 V", Kind::kDimensionless), UnitError);
+}
+
+TEST(Units, FormatSIPicksAPrefix) {
+  EXPECT_EQ(FormatSI(95e-9, "m"), "95 nm");
+  EXPECT_EQ(FormatSI(-0.3245, "V"), "-324.5 mV");
+  EXPECT_EQ(FormatSI(1e4, "Ohm"), "10 kOhm");
+  EXPECT_EQ(FormatSI(0.0, "A"), "0 A");
+}
+
+}  // namespace
+}  // namespace hallway::units
