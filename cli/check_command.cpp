@@ -20,7 +20,9 @@ namespace {
 using units::FormatSI;
 constexpr double kMeV = 1e-3 * constants::kElementaryCharge_C;
 
-std::string ev(double joule) { return FormatSI(joule / constants::kElementaryCharge_C, "eV"); }
+std::string ev(double joule) {
+  return FormatSI(joule / constants::kElementaryCharge_C, "eV");
+}
 
 void row(std::string& out, const std::string& label, const std::string& value) {
   out += fmt::format("  {:<36} {}\n", label, value);
@@ -70,20 +72,24 @@ std::string render_text(const Design& d, const CheckResult& r) {
   out += "\nWafer and field (derived)\n";
   row(out, "2DEG depth", FormatSI(h.depth_m, "m"));
   row(out, "sheet density", fmt::format("{:.4g} m^-2 ({:.4g} cm^-2)", h.density_per_m2, h.density_per_m2 * 1e-4));
-  row(out, "density of states (spin-degenerate)", fmt::format("{:.4g} cm^-2 meV^-1", f.density_of_states_per_J_m2 * 1e-4 * kMeV));
+  row(out, "density of states (spin-degenerate)",
+      fmt::format("{:.4g} cm^-2 meV^-1", f.density_of_states_per_J_m2 * 1e-4 * kMeV));
   row(out, "Fermi energy", ev(f.fermi_energy_J));
   row(out, "Fermi wavelength", FormatSI(f.fermi_wavelength_m, "m"));
   row(out, "Fermi velocity", fmt::format("{:.4g} m/s", f.fermi_velocity_m_per_s));
   row(out, "mean free path", optional_text(f.mean_free_path_m, "m"));
   row(out, "transport lifetime", optional_text(f.transport_lifetime_s, "s"));
   if (d.conditions.field_given)
-    row(out, "field (given)", fmt::format("{:.4g} T -> bulk filling {:.4g}, plateau nu = {}", f.field_T,
-                                          d.conditions.filling_from_field, d.conditions.filling.ToString()));
+    row(out, "field (given)",
+        fmt::format("{:.4g} T -> bulk filling {:.4g}, plateau nu = {}", f.field_T, d.conditions.filling_from_field,
+                    d.conditions.filling.ToString()));
   else
-    row(out, "field for the filling", fmt::format("{:.4g} T at nu = {} (n h / e nu)", f.field_T, d.conditions.filling.ToString()));
+    row(out, "field for the filling",
+        fmt::format("{:.4g} T at nu = {} (n h / e nu)", f.field_T, d.conditions.filling.ToString()));
   row(out, "magnetic length", FormatSI(f.magnetic_length_m, "m"));
   row(out, "cyclotron energy", ev(f.cyclotron_energy_J));
-  row(out, "thermal energy k_B T", ev(f.thermal_energy_J) + fmt::format(" at {}", FormatSI(d.conditions.temperature_K, "K")));
+  row(out, "thermal energy k_B T",
+      ev(f.thermal_energy_J) + fmt::format(" at {}", FormatSI(d.conditions.temperature_K, "K")));
   row(out, "wide-gate capacitance", fmt::format("{:.4g} mF/m^2", f.gate_capacitance_F_per_m2 * 1e3));
   row(out, "density change per gate volt", fmt::format("{:.4g} m^-2/V", f.density_per_gate_volt_per_m2));
   row(out, "wide-gate depletion (plate)", FormatSI(f.depletion_voltage_plate_V, "V"));
@@ -91,15 +97,17 @@ std::string render_text(const Design& d, const CheckResult& r) {
 
   out += fmt::format("\nEdge channels at nu = {} ({})\n", d.conditions.filling.ToString(),
                      d.channels_given ? "from the design's channels:" : "hallway defaults");
-  for (std::size_t k = 0; k < d.channels.size(); ++k) row(out, fmt::format("channel {}", k + 1), channel_text(d.channels[k]));
+  for (std::size_t k = 0; k < d.channels.size(); ++k)
+    row(out, fmt::format("channel {}", k + 1), channel_text(d.channels[k]));
 
   out += "\nLayout\n";
   const auto bb = geometry::bounding_box(d.mesa.outline);
-  row(out, "mesa", fmt::format("{} x {}, area {:.4g} um^2, etch depletion {}", FormatSI(bb.width(), "m"),
-                               FormatSI(bb.height(), "m"), geometry::area(d.mesa.outline) * 1e12,
-                               FormatSI(d.mesa.etch_depletion_m, "m")));
+  row(out, "mesa",
+      fmt::format("{} x {}, area {:.4g} um^2, etch depletion {}", FormatSI(bb.width(), "m"), FormatSI(bb.height(), "m"),
+                  geometry::area(d.mesa.outline) * 1e12, FormatSI(d.mesa.etch_depletion_m, "m")));
   for (const Gate& g : d.gates)
-    row(out, "gate " + g.name, fmt::format("{}, area {:.4g} um^2", FormatSI(g.voltage_V, "V"), geometry::area(g.outline) * 1e12));
+    row(out, "gate " + g.name,
+        fmt::format("{}, area {:.4g} um^2", FormatSI(g.voltage_V, "V"), geometry::area(g.outline) * 1e12));
 
   if (!d.constrictions.empty()) {
     out += "\nConstrictions\n";
@@ -115,7 +123,8 @@ std::string render_text(const Design& d, const CheckResult& r) {
                                                    FormatSI(*g.bare_pinch_off_V, "V"))
                                      : std::string("; gate against the etched edge, no closed-form estimate");
         }
-      row(out, k.name + " (" + k.first + " | " + k.second + ")", fmt::format("gap {}{}; transmission [{}]", gap, pinch, t));
+      row(out, k.name + " (" + k.first + " | " + k.second + ")",
+          fmt::format("gap {}{}; transmission [{}]", gap, pinch, t));
     }
   }
 
@@ -131,8 +140,9 @@ std::string render_text(const Design& d, const CheckResult& r) {
     for (const Finding& x : r.findings)
       out += fmt::format("  {}: {} [{}]\n      at {}\n", ToString(x.severity), x.message, x.code, x.where.ToString());
   }
-  out += "\nAll figures are model estimates. A gate voltage past the leakage or breakdown onset can destroy a\n"
-         "sample; follow your lab's own safety rules for cryostats, magnets and electronics.\n";
+  out +=
+      "\nAll figures are model estimates. A gate voltage past the leakage or breakdown onset can destroy a\n"
+      "sample; follow your lab's own safety rules for cryostats, magnets and electronics.\n";
   out += fmt::format("\n{}: {} error(s), {} warning(s)\n", r.ok() ? "check passed" : "check FAILED", r.error_count(),
                      r.warning_count());
   return out;
@@ -262,7 +272,8 @@ int RunCheck(const CheckArgs& args) {
   }
   if (!r.ok()) {
     for (const Finding& x : r.findings)
-      if (x.severity == Severity::kError) std::cerr << "hallway: design error: " << x.where.ToString() << ": " << x.message << "\n";
+      if (x.severity == Severity::kError)
+        std::cerr << "hallway: design error: " << x.where.ToString() << ": " << x.message << "\n";
     return kExitDesignError;
   }
   return kExitOk;

@@ -14,7 +14,9 @@ namespace {
 using test::kBase;
 using test::replace;
 
-CheckResult check(const std::string& text) { return CheckDesign(LoadDesignFromString(text, "t.yaml")); }
+CheckResult check(const std::string& text) {
+  return CheckDesign(LoadDesignFromString(text, "t.yaml"));
+}
 
 const Finding* find(const CheckResult& r, const std::string& code) {
   auto it = std::find_if(r.findings.begin(), r.findings.end(), [&](const Finding& f) { return f.code == code; });
@@ -71,7 +73,8 @@ TEST(Check, ContactWhollyInsideTheMesa) {
 }
 
 TEST(Check, GateOnAnOhmicContact) {
-  const CheckResult r = check(replace(kBase, "[[-70,-6],[-58,-6],[-58,6],[-70,6]]", "[[-70,-6],[10.2,-6],[10.2,-5],[-70,-5]]"));
+  const CheckResult r =
+      check(replace(kBase, "[[-70,-6],[-58,-6],[-58,6],[-70,6]]", "[[-70,-6],[10.2,-6],[10.2,-5],[-70,-5]]"));
   const Finding* f = find(r, "gate-on-contact");
   ASSERT_NE(f, nullptr);
   EXPECT_NE(f->message.find("QL"), std::string::npos);
@@ -99,7 +102,8 @@ TEST(Check, ConstrictionBetweenAGateAndTheMesaEdge) {
 }
 
 TEST(Check, ForwardBiasedGateWarns) {
-  const CheckResult r = check(replace(kBase, "voltage: -0.9 V, outline: [[10,14]", "voltage: 0.7 V, outline: [[10,14]"));
+  const CheckResult r =
+      check(replace(kBase, "voltage: -0.9 V, outline: [[10,14]", "voltage: 0.7 V, outline: [[10,14]"));
   const Finding* f = find(r, "gate-forward-bias");
   ASSERT_NE(f, nullptr);
   EXPECT_EQ(f->severity, Severity::kWarning);
@@ -122,7 +126,7 @@ TEST(Check, CurrentSourceWithoutReturnPath) {
 }
 
 TEST(Check, ErrorsAreListedBeforeWarnings) {
-  std::string t = replace(kBase, "W: source 10 uV", "W: source 2 mV");  // warning
+  std::string t = replace(kBase, "W: source 10 uV", "W: source 2 mV");                   // warning
   t = replace(t, "[[58,-6],[70,-6],[70,6],[58,6]]", "[[62,-6],[70,-6],[70,6],[62,6]]");  // error
   const CheckResult r = check(t);
   ASSERT_GE(r.findings.size(), 2u);

@@ -88,7 +88,8 @@ TEST(Cli, InvalidDesignsFailWithFileLineAndKey) {
 TEST(Cli, JsonHoldsTheDerivedFiguresAndTheWiring) {
   const fs::path out = scratch("bar.json");
   fs::remove(out);
-  const CommandRun r = hallway("check '" + test::SourcePath("designs/01_hallbar_qpc.yaml") + "' --json '" + out.string() + "'");
+  const CommandRun r =
+      hallway("check '" + test::SourcePath("designs/01_hallbar_qpc.yaml") + "' --json '" + out.string() + "'");
   ASSERT_EQ(r.exit_code, 0) << r.output;
   const auto j = nlohmann::json::parse(read(out));
   EXPECT_TRUE(j["ok"].get<bool>());
@@ -104,7 +105,8 @@ TEST(Cli, JsonHoldsTheDerivedFiguresAndTheWiring) {
 TEST(Cli, NoJsonIsWrittenForADesignThatDoesNotLoad) {
   const fs::path out = scratch("bad.json");
   fs::remove(out);
-  const CommandRun r = hallway("check '" + test::SourcePath("designs/invalid/bare_number.yaml") + "' --json '" + out.string() + "'");
+  const CommandRun r =
+      hallway("check '" + test::SourcePath("designs/invalid/bare_number.yaml") + "' --json '" + out.string() + "'");
   EXPECT_EQ(r.exit_code, 1);
   EXPECT_FALSE(fs::exists(out));
 }
@@ -120,7 +122,8 @@ TEST(Cli, NeverWritesOverItsInput) {
 }
 
 TEST(Cli, OutputIntoAMissingFolderIsAnOutputError) {
-  const CommandRun r = hallway("check '" + test::SourcePath("designs/01_hallbar_qpc.yaml") + "' --json /nonexistent/dir/x.json");
+  const CommandRun r =
+      hallway("check '" + test::SourcePath("designs/01_hallbar_qpc.yaml") + "' --json /nonexistent/dir/x.json");
   EXPECT_EQ(r.exit_code, 3) << r.output;
 }
 

@@ -69,8 +69,10 @@ TEST(Figures, FermiEnergyFromTwoDimensionalDensityOfStates) {
   EXPECT_TRUE(NearRel(f.fermi_wavelength_m, 50.13e-9, 1e-4));
   // Independent route: E_F = hbar^2 k_F^2 / 2 m* with k_F = sqrt(2 pi n) for two spin species.
   const double m = 0.067 * constants::kElectronMass_kg;
-  EXPECT_TRUE(NearRel(f.fermi_energy_J, constants::kHbar_Js * constants::kHbar_Js * f.fermi_wavevector_per_m *
-                                            f.fermi_wavevector_per_m / (2 * m), 1e-12));
+  EXPECT_TRUE(
+      NearRel(f.fermi_energy_J,
+              constants::kHbar_Js * constants::kHbar_Js * f.fermi_wavevector_per_m * f.fermi_wavevector_per_m / (2 * m),
+              1e-12));
 }
 
 TEST(Figures, MeanFreePathFromDrudeMobility) {
@@ -80,8 +82,9 @@ TEST(Figures, MeanFreePathFromDrudeMobility) {
   h.mobility_m2_per_Vs = 100.0;
   const auto f = DeriveFigures(h, 1.0, 0.02);
   ASSERT_TRUE(f.mean_free_path_m);
-  EXPECT_TRUE(NearRel(*f.mean_free_path_m, constants::kHbar_Js * std::sqrt(2 * std::numbers::pi * 3e15) * 100.0 /
-                                               constants::kElementaryCharge_C, 1e-12));
+  EXPECT_TRUE(NearRel(
+      *f.mean_free_path_m,
+      constants::kHbar_Js * std::sqrt(2 * std::numbers::pi * 3e15) * 100.0 / constants::kElementaryCharge_C, 1e-12));
   EXPECT_TRUE(NearRel(*f.mean_free_path_m, 9.0368e-6, 1e-4));
   EXPECT_FALSE(DeriveFigures(gaas(3e15, 90e-9), 1.0, 0.02).mean_free_path_m);
 }

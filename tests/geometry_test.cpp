@@ -12,10 +12,14 @@
 namespace hallway::geometry {
 namespace {
 
-Polygon rect(double x0, double y0, double x1, double y1) { return {{{x0, y0}, {x1, y0}, {x1, y1}, {x0, y1}}}; }
+Polygon rect(double x0, double y0, double x1, double y1) {
+  return {{{x0, y0}, {x1, y0}, {x1, y1}, {x0, y1}}};
+}
 
 // The L-shaped gate of physics.md 1.1 (vertices in nm there; any unit here).
-Polygon l_shape() { return {{{0, 0}, {300, 0}, {300, 100}, {100, 100}, {100, 400}, {0, 400}}}; }
+Polygon l_shape() {
+  return {{{0, 0}, {300, 0}, {300, 100}, {100, 100}, {100, 400}, {0, 400}}};
+}
 
 TEST(Polygon, ShoelaceAreaAgreesWithCgalExactArea) {
   // CGAL's exact kernel (Exact_predicates_exact_constructions) computes the self-intersection of a

@@ -9,8 +9,8 @@
 namespace hallway {
 namespace {
 
-using test::NearRel;
 using test::kBase;
+using test::NearRel;
 using test::replace;
 
 // Loads `text` and expects a DesignError at `line` whose message holds every one of `words`.
@@ -84,9 +84,11 @@ TEST(Loader, FractionalFillingWithCurrentSource) {
 }
 
 TEST(Loader, ChannelsOverrideMustAddUpToTheFilling) {
-  std::string t = replace(kBase, "amplifier:\n  load", "channels:\n  - {conductance: 1}\n  - {conductance: 1}\namplifier:\n  load");
+  std::string t =
+      replace(kBase, "amplifier:\n  load", "channels:\n  - {conductance: 1}\n  - {conductance: 1}\namplifier:\n  load");
   EXPECT_EQ(LoadDesignFromString(t, "t.yaml").channels.size(), 2u);
-  t = replace(kBase, "amplifier:\n  load", "channels:\n  - {conductance: 1}\n  - {conductance: 1/3}\namplifier:\n  load");
+  t = replace(kBase, "amplifier:\n  load",
+              "channels:\n  - {conductance: 1}\n  - {conductance: 1/3}\namplifier:\n  load");
   ExpectError(t, 27, "channels", {"add up to 4/3", "bulk filling is 2"});
 }
 
@@ -118,23 +120,25 @@ TEST(Loader, DuplicateNamesAcrossObjects) {
 }
 
 TEST(Loader, UnknownGateInConstriction) {
-  ExpectError(replace(kBase, "gates: [QL, QR]", "gates: [QL, QX]"), 21, "constrictions[0].gates[1]", {"no gate named 'QX'"});
+  ExpectError(replace(kBase, "gates: [QL, QR]", "gates: [QL, QX]"), 21, "constrictions[0].gates[1]",
+              {"no gate named 'QX'"});
 }
 
 TEST(Loader, WrongNumberOfChannelTransmissions) {
-  ExpectError(replace(kBase, "transmission: [1, 0.4]", "transmission: [1, 0.4, 0.2]"), 22, "constrictions[0].transmission",
-              {"expected 2 transmissions"});
+  ExpectError(replace(kBase, "transmission: [1, 0.4]", "transmission: [1, 0.4, 0.2]"), 22,
+              "constrictions[0].transmission", {"expected 2 transmissions"});
   ExpectError(replace(kBase, "transmission: [1, 0.4]", "transmission: 0.4"), 22, "constrictions[0].transmission",
               {"2 edge channels"});
 }
 
 TEST(Loader, TransmissionOutsideUnitInterval) {
-  ExpectError(replace(kBase, "transmission: [1, 0.4]", "transmission: [1.2, 0.4]"), 22, "constrictions[0].transmission[0]",
-              {"between 0 and 1"});
+  ExpectError(replace(kBase, "transmission: [1, 0.4]", "transmission: [1.2, 0.4]"), 22,
+              "constrictions[0].transmission[0]", {"between 0 and 1"});
 }
 
 TEST(Loader, UnknownContactInWiring) {
-  ExpectError(replace(kBase, "  E: amplifier", "  E: amplifier\n  N: ground"), 26, "wiring.N", {"no contact named 'N'"});
+  ExpectError(replace(kBase, "  E: amplifier", "  E: amplifier\n  N: ground"), 26, "wiring.N",
+              {"no contact named 'N'"});
 }
 
 TEST(Loader, UnwiredContact) {
@@ -156,8 +160,9 @@ TEST(Loader, AmplifierOverridePerContact) {
 }
 
 TEST(Loader, SelfIntersectingOutline) {
-  ExpectError(replace(kBase, "outline: [[-60,-10],[60,-10],[60,10],[-60,10]]", "outline: [[-60,-10],[60,10],[60,-10],[-60,5]]"),
-              12, "mesa.outline", {"crosses or touches itself"});
+  ExpectError(
+      replace(kBase, "outline: [[-60,-10],[60,-10],[60,10],[-60,10]]", "outline: [[-60,-10],[60,10],[60,-10],[-60,5]]"),
+      12, "mesa.outline", {"crosses or touches itself"});
 }
 
 TEST(Loader, AbsurdCoordinates) {
@@ -165,8 +170,10 @@ TEST(Loader, AbsurdCoordinates) {
 }
 
 TEST(Loader, NegativeTemperatureAndDensity) {
-  ExpectError(replace(kBase, "temperature: 15 mK", "temperature: -15 mK"), 9, "conditions.temperature", {"absolute zero"});
-  ExpectError(replace(kBase, "density: 2.3e11 cm^-2", "density: -2.3e11 cm^-2"), 6, "heterostructure.density", {"between"});
+  ExpectError(replace(kBase, "temperature: 15 mK", "temperature: -15 mK"), 9, "conditions.temperature",
+              {"absolute zero"});
+  ExpectError(replace(kBase, "density: 2.3e11 cm^-2", "density: -2.3e11 cm^-2"), 6, "heterostructure.density",
+              {"between"});
 }
 
 TEST(Loader, FillingAndFieldTogether) {
@@ -190,7 +197,9 @@ TEST(Loader, DeepNestingIsRefusedBeforeParsing) {
   ExpectError(kBase + "extra: " + std::string(200, '[') + std::string(200, ']') + "\n", 32, "", {"nested deeper"});
 }
 
-TEST(Loader, EmptyFile) { ExpectError("", 1, "", {"empty"}); }
+TEST(Loader, EmptyFile) {
+  ExpectError("", 1, "", {"empty"});
+}
 
 TEST(Loader, UnsupportedFormatVersion) {
   ExpectError(replace(kBase, "hallway: 1", "hallway: 2"), 1, "hallway", {"format 1"});

@@ -16,7 +16,9 @@ inline ::testing::AssertionResult NearRel(double actual, double expected, double
                                        << err / std::abs(expected) << " > " << rel;
 }
 
-inline std::string SourcePath(const std::string& rel) { return std::string(HALLWAY_SOURCE_DIR) + "/" + rel; }
+inline std::string SourcePath(const std::string& rel) {
+  return std::string(HALLWAY_SOURCE_DIR) + "/" + rel;
+}
 
 // A small valid design; tests replace one line to break it. Line numbers (1-based) matter below.
 inline const std::string kBase = R"(hallway: 1

@@ -24,7 +24,9 @@ double signed_area(const Polygon& p) {
   return twice / 2.0;
 }
 
-double area(const Polygon& p) { return std::abs(signed_area(p)); }
+double area(const Polygon& p) {
+  return std::abs(signed_area(p));
+}
 
 double perimeter(const Polygon& p) {
   const auto& v = p.vertices;
@@ -66,7 +68,9 @@ bool contains(const Polygon& p, Point q) {
   return inside;
 }
 
-double distance(Point a, Point b) { return std::hypot(a.x - b.x, a.y - b.y); }
+double distance(Point a, Point b) {
+  return std::hypot(a.x - b.x, a.y - b.y);
+}
 
 Point closest_on_segment(Point q, Point a, Point b) {
   const double dx = b.x - a.x, dy = b.y - a.y;
@@ -86,7 +90,9 @@ double distance_to_boundary(const Polygon& p, Point q) {
 
 namespace {
 
-double cross(Point o, Point a, Point b) { return (a.x - o.x) * (b.y - o.y) - (a.y - o.y) * (b.x - o.x); }
+double cross(Point o, Point a, Point b) {
+  return (a.x - o.x) * (b.y - o.y) - (a.y - o.y) * (b.x - o.x);
+}
 
 // Proper or improper crossing of two closed segments (floating-point orientation tests; the
 // distance is then reported as 0, which is all callers need).

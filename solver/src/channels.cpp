@@ -6,7 +6,9 @@
 namespace hallway {
 namespace {
 
-Channel integer_channel() { return {MakeFraction(1, 1), 1.0, std::nullopt, std::nullopt, ""}; }
+Channel integer_channel() {
+  return {MakeFraction(1, 1), 1.0, std::nullopt, std::nullopt, ""};
+}
 
 Channel laughlin(long m) {
   const double inv = 1.0 / static_cast<double>(m);

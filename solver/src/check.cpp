@@ -12,7 +12,9 @@
 
 namespace hallway {
 
-std::string ToString(Severity s) { return s == Severity::kError ? "error" : "warning"; }
+std::string ToString(Severity s) {
+  return s == Severity::kError ? "error" : "warning";
+}
 
 bool CheckOptions::IsValid(std::string* why) const {
   auto bad = [&](const char* what) {
@@ -25,12 +27,16 @@ bool CheckOptions::IsValid(std::string* why) const {
   return true;
 }
 
-bool CheckResult::ok() const { return error_count() == 0; }
-int CheckResult::error_count() const {
-  return static_cast<int>(std::count_if(findings.begin(), findings.end(),
-                                        [](const Finding& f) { return f.severity == Severity::kError; }));
+bool CheckResult::ok() const {
+  return error_count() == 0;
 }
-int CheckResult::warning_count() const { return static_cast<int>(findings.size()) - error_count(); }
+int CheckResult::error_count() const {
+  return static_cast<int>(
+      std::count_if(findings.begin(), findings.end(), [](const Finding& f) { return f.severity == Severity::kError; }));
+}
+int CheckResult::warning_count() const {
+  return static_cast<int>(findings.size()) - error_count();
+}
 
 namespace {
 
@@ -59,15 +65,19 @@ CheckResult CheckDesign(const Design& d, const CheckOptions& opt) {
     const double inside = geometry::intersection_area(c.outline, mesa);
     const double outside = geometry::difference_area(c.outline, mesa);
     if (inside <= 0.0)
-      add(Severity::kError, "contact-off-mesa", "contact " + c.name + " does not overlap the mesa: it reaches no 2DEG", c.where);
+      add(Severity::kError, "contact-off-mesa", "contact " + c.name + " does not overlap the mesa: it reaches no 2DEG",
+          c.where);
     else if (outside <= 0.0)
       add(Severity::kError, "contact-inside-mesa",
-          "contact " + c.name + " lies wholly inside the mesa; an ohmic contact must cross the mesa edge so that edge channels enter and leave it",
+          "contact " + c.name +
+              " lies wholly inside the mesa; an ohmic contact must cross the mesa edge so that edge channels enter and "
+              "leave it",
           c.where);
     for (std::size_t j = i + 1; j < d.contacts.size(); ++j)
       if (overlap_or_touch(c.outline, d.contacts[j].outline))
         add(Severity::kError, "contacts-touch",
-            "contacts " + c.name + " and " + d.contacts[j].name + " overlap or touch: they would be one contact", c.where);
+            "contacts " + c.name + " and " + d.contacts[j].name + " overlap or touch: they would be one contact",
+            c.where);
   }
 
   // Gates: shorts to each other or to ohmic contacts, position, voltage.
@@ -81,13 +91,17 @@ CheckResult CheckDesign(const Design& d, const CheckOptions& opt) {
     for (const Contact& c : d.contacts)
       if (overlap_or_touch(g.outline, c.outline))
         add(Severity::kError, "gate-on-contact",
-            "gate " + g.name + " overlaps or touches ohmic contact " + c.name + ": the gate would be shorted to the 2DEG", g.where);
+            "gate " + g.name + " overlaps or touches ohmic contact " + c.name +
+                ": the gate would be shorted to the 2DEG",
+            g.where);
     if (geometry::intersection_area(g.outline, mesa) <= 0.0)
-      add(Severity::kWarning, "gate-off-mesa", "gate " + g.name + " does not cover any of the mesa and has no effect", g.where);
+      add(Severity::kWarning, "gate-off-mesa", "gate " + g.name + " does not cover any of the mesa and has no effect",
+          g.where);
     if (g.voltage_V > opt.forward_bias_warning_V)
       add(Severity::kWarning, "gate-forward-bias",
           "gate " + g.name + " at " + units::FormatSI(g.voltage_V, "V") +
-              " is forward biased: a Schottky gate starts to conduct into the 2DEG from about +0.5 V (common practice) and can be damaged",
+              " is forward biased: a Schottky gate starts to conduct into the 2DEG from about +0.5 V (common practice) "
+              "and can be damaged",
           g.where);
   }
 
@@ -110,7 +124,9 @@ CheckResult CheckDesign(const Design& d, const CheckOptions& opt) {
         if (std::find(touching.begin(), touching.end(), e) == touching.end()) others.push_back(e);
       if (others.empty()) {
         add(Severity::kError, "constriction-no-gap",
-            "constriction " + k.name + ": gate " + g1->name + " reaches every edge of the mesa, so no gap to the mesa edge is left", k.where);
+            "constriction " + k.name + ": gate " + g1->name +
+                " reaches every edge of the mesa, so no gap to the mesa edge is left",
+            k.where);
         continue;
       }
       cp = geometry::closest_boundary_points(g1->outline, mesa, others);
@@ -125,7 +141,8 @@ CheckResult CheckDesign(const Design& d, const CheckOptions& opt) {
     gap.most_positive_gate_V = g1->voltage_V;
     if (!against_mesa) gap.most_positive_gate_V = std::max(g1->voltage_V, d.FindGate(k.second)->voltage_V);
     if (!(cp.distance_m > 0.0)) {
-      add(Severity::kError, "constriction-no-gap", "constriction " + k.name + ": its two sides touch, there is no gap", k.where);
+      add(Severity::kError, "constriction-no-gap", "constriction " + k.name + ": its two sides touch, there is no gap",
+          k.where);
       continue;
     }
     const geometry::Point mid = cp.midpoint();
@@ -149,8 +166,8 @@ CheckResult CheckDesign(const Design& d, const CheckOptions& opt) {
               ", above the wide-gate depletion voltage " + units::FormatSI(vdep, "V") +
               ", so the 2DEG under it is not depleted and some channels pass underneath",
           k.where);
-    const bool fractional = std::any_of(d.channels.begin(), d.channels.end(),
-                                        [](const Channel& c) { return !c.conductance.is_integer(); });
+    const bool fractional =
+        std::any_of(d.channels.begin(), d.channels.end(), [](const Channel& c) { return !c.conductance.is_integer(); });
     if (k.regime && !fractional)
       add(Severity::kWarning, "regime-unused",
           "constriction " + k.name + " sets `regime`, which only matters for fractional edge channels", k.where);
@@ -164,8 +181,10 @@ CheckResult CheckDesign(const Design& d, const CheckOptions& opt) {
     switch (w.role) {
       case Role::kSource:
         ++sources;
-        if (w.bias_is_current) ++current_sources;
-        else ++returns;  // a voltage source holds its contact against the cold ground
+        if (w.bias_is_current)
+          ++current_sources;
+        else
+          ++returns;  // a voltage source holds its contact against the cold ground
         if (!w.bias_is_current && std::abs(w.bias) > opt.bias_fraction_of_cyclotron_gap * cyclotron_V)
           add(Severity::kWarning, "bias-high",
               "source " + w.contact + " at " + units::FormatSI(w.bias, "V") + " exceeds " +
@@ -180,12 +199,15 @@ CheckResult CheckDesign(const Design& d, const CheckOptions& opt) {
   }
   const SourceLocation wiring_where{d.path, d.wiring.empty() ? 0 : d.wiring.front().where.line, 1, "wiring"};
   if (sources == 0)
-    add(Severity::kWarning, "no-source", "no contact is a source: nothing drives a current through the device", wiring_where);
+    add(Severity::kWarning, "no-source", "no contact is a source: nothing drives a current through the device",
+        wiring_where);
   if (current_sources > 0 && returns == 0)
     add(Severity::kError, "no-return",
-        "a current source needs a return path, but no contact is grounded, an amplifier or a voltage source", wiring_where);
+        "a current source needs a return path, but no contact is grounded, an amplifier or a voltage source",
+        wiring_where);
   if (floats == static_cast<int>(d.wiring.size()))
-    add(Severity::kWarning, "all-floating", "every contact floats: the device is not connected to anything", wiring_where);
+    add(Severity::kWarning, "all-floating", "every contact floats: the device is not connected to anything",
+        wiring_where);
 
   // Conditions.
   if (r.figures.thermal_energy_J > 0.1 * r.figures.cyclotron_energy_J)
@@ -193,8 +215,9 @@ CheckResult CheckDesign(const Design& d, const CheckOptions& opt) {
         "k_B T is more than a tenth of the cyclotron energy: integer plateaus will be poorly developed",
         SourceLocation{d.path, 0, 0, "conditions.temperature"});
 
-  std::stable_sort(r.findings.begin(), r.findings.end(),
-                   [](const Finding& a, const Finding& b) { return a.severity == Severity::kError && b.severity != Severity::kError; });
+  std::stable_sort(r.findings.begin(), r.findings.end(), [](const Finding& a, const Finding& b) {
+    return a.severity == Severity::kError && b.severity != Severity::kError;
+  });
   return r;
 }
 

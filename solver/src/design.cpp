@@ -25,20 +25,26 @@ Fraction MakeFraction(long num, long den) {
   return {num / (g == 0 ? 1 : g), den / (g == 0 ? 1 : g)};
 }
 
-Fraction operator+(Fraction a, Fraction b) { return MakeFraction(a.num * b.den + b.num * a.den, a.den * b.den); }
+Fraction operator+(Fraction a, Fraction b) {
+  return MakeFraction(a.num * b.den + b.num * a.den, a.den * b.den);
+}
 
 std::string Fraction::ToString() const {
   return den == 1 ? std::to_string(num) : std::to_string(num) + "/" + std::to_string(den);
 }
 
-std::string ToString(SurfaceModel m) { return m == SurfaceModel::kPinned ? "pinned" : "frozen"; }
+std::string ToString(SurfaceModel m) {
+  return m == SurfaceModel::kPinned ? "pinned" : "frozen";
+}
 std::optional<SurfaceModel> SurfaceModelFromString(const std::string& s) {
   if (s == "pinned") return SurfaceModel::kPinned;
   if (s == "frozen") return SurfaceModel::kFrozen;
   return std::nullopt;
 }
 
-std::string ToString(Regime r) { return r == Regime::kWeak ? "weak" : "strong"; }
+std::string ToString(Regime r) {
+  return r == Regime::kWeak ? "weak" : "strong";
+}
 std::optional<Regime> RegimeFromString(const std::string& s) {
   if (s == "weak") return Regime::kWeak;
   if (s == "strong") return Regime::kStrong;

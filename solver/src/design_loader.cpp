@@ -80,12 +80,17 @@ class Reader {
   }
 
   std::string scalar(const Value& v, const std::string& what) const {
-    if (!v.node.IsScalar()) fail(v, "expected " + what + " here, not a " + (v.node.IsMap() ? "mapping" : v.node.IsSequence() ? "list" : "empty value"));
+    if (!v.node.IsScalar())
+      fail(v, "expected " + what + " here, not a " +
+                  (v.node.IsMap()        ? "mapping"
+                   : v.node.IsSequence() ? "list"
+                                         : "empty value"));
     return v.node.Scalar();
   }
 
   double quantity(const Value& v, Kind kind) const {
-    const std::string text = scalar(v, "a " + units::ToString(kind) + " with its unit, e.g. '" + units::ExampleFor(kind) + "'");
+    const std::string text =
+        scalar(v, "a " + units::ToString(kind) + " with its unit, e.g. '" + units::ExampleFor(kind) + "'");
     try {
       return units::Parse(text, kind);
     } catch (const units::UnitError& e) {
@@ -154,18 +159,19 @@ class Reader {
       p.vertices.push_back({x, y});
     }
     const auto defect = geometry::find_defect(p);
-    if (defect != geometry::PolygonDefect::kNone) fail(v, "the outline is not a simple polygon: " + geometry::ToString(defect));
+    if (defect != geometry::PolygonDefect::kNone)
+      fail(v, "the outline is not a simple polygon: " + geometry::ToString(defect));
     geometry::normalise(p);
     return p;
   }
 
   std::string name(const Value& v) const {
     const std::string s = scalar(v, "a name");
-    const bool ok = !s.empty() && s.size() <= 64 &&
-                    std::all_of(s.begin(), s.end(), [](char c) {
-                      return std::isalnum(static_cast<unsigned char>(c)) || c == '_' || c == '-' || c == '.';
-                    }) && std::isalpha(static_cast<unsigned char>(s[0]));
-    if (!ok) fail(v, "names start with a letter and use letters, digits, '_', '-' or '.' (at most 64), got '" + s + "'");
+    const bool ok = !s.empty() && s.size() <= 64 && std::all_of(s.begin(), s.end(), [](char c) {
+      return std::isalnum(static_cast<unsigned char>(c)) || c == '_' || c == '-' || c == '.';
+    }) && std::isalpha(static_cast<unsigned char>(s[0]));
+    if (!ok)
+      fail(v, "names start with a letter and use letters, digits, '_', '-' or '.' (at most 64), got '" + s + "'");
     if (s == kMesaName) fail(v, "'mesa' is reserved for constrictions formed against the mesa edge");
     return s;
   }
@@ -198,8 +204,9 @@ Amplifier read_amplifier(const Reader& r, const Reader::Map& m, const std::optio
   for (const Field& f : fields) {
     auto v = m.get(f.key);
     if (!v) {
-      if (!base) r.fail(m.self, std::string("missing key '") + f.key + "' (example: " + f.key + ": " +
-                                     units::ExampleFor(f.kind) + ")");
+      if (!base)
+        r.fail(m.self,
+               std::string("missing key '") + f.key + "' (example: " + f.key + ": " + units::ExampleFor(f.kind) + ")");
       continue;
     }
     const double x = r.quantity(*v, f.kind);
@@ -231,20 +238,24 @@ void check_nesting(const std::string& text, const std::string& path) {
       if (c == '\'') in_single = false;
       continue;
     }
-    if (c == '#') comment = true;
-    else if (c == '"') in_double = true;
-    else if (c == '\'') in_single = true;
+    if (c == '#')
+      comment = true;
+    else if (c == '"')
+      in_double = true;
+    else if (c == '\'')
+      in_single = true;
     else if (c == '[' || c == '{') {
       if (++depth > kMaxNestingDepth)
-        throw DesignError({path, line, col, ""}, "lists or mappings nested deeper than " +
-                                                     std::to_string(kMaxNestingDepth) + " levels");
+        throw DesignError({path, line, col, ""},
+                          "lists or mappings nested deeper than " + std::to_string(kMaxNestingDepth) + " levels");
     } else if ((c == ']' || c == '}') && depth > 0) {
       --depth;
     }
   }
 }
 
-Wiring read_wiring(const Reader& r, const std::string& contact, const Value& v, const std::optional<Amplifier>& shared) {
+Wiring read_wiring(const Reader& r, const std::string& contact, const Value& v,
+                   const std::optional<Amplifier>& shared) {
   Wiring w;
   w.contact = contact;
   w.where = r.where(v);
@@ -283,11 +294,13 @@ Wiring read_wiring(const Reader& r, const std::string& contact, const Value& v, 
     if (q.dimension == units::DimensionOf(Kind::kVoltage)) {
       w.bias = q.value_si;
       w.bias_is_current = false;
-      if (!(std::abs(w.bias) <= 0.1)) r.fail(*bias_value, "a source bias beyond 100 mV is outside the quantum Hall regime");
+      if (!(std::abs(w.bias) <= 0.1))
+        r.fail(*bias_value, "a source bias beyond 100 mV is outside the quantum Hall regime");
     } else if (q.dimension == units::DimensionOf(Kind::kCurrent)) {
       w.bias = q.value_si;
       w.bias_is_current = true;
-      if (!(std::abs(w.bias) <= 1e-6)) r.fail(*bias_value, "a source current beyond 1 uA is outside the quantum Hall regime");
+      if (!(std::abs(w.bias) <= 1e-6))
+        r.fail(*bias_value, "a source current beyond 1 uA is outside the quantum Hall regime");
     } else {
       r.fail(*bias_value, "a source bias is a voltage ('10 uV') or a current ('2 nA'), got '" + bias_text + "'");
     }
@@ -296,7 +309,9 @@ Wiring read_wiring(const Reader& r, const std::string& contact, const Value& v, 
   }
   if (w.role == Role::kAmplifier) {
     if (!shared && !overrides)
-      r.fail(v, "an amplifier contact needs the `amplifier:` block (load, voltage_noise, current_noise, bandwidth, integration)");
+      r.fail(v,
+             "an amplifier contact needs the `amplifier:` block (load, voltage_noise, current_noise, bandwidth, "
+             "integration)");
     if (overrides) {
       Reader::Map only_amp{overrides->self, {}};
       for (const auto& e : overrides->entries)
@@ -324,8 +339,8 @@ Design LoadDesignFromString(const std::string& text, const std::string& path) {
   const Reader r(path);
   if (!root.IsDefined() || root.IsNull()) throw DesignError({path, 1, 1, ""}, "the design file is empty");
   const Value top{root, ""};
-  const auto m = r.map(top, {"hallway", "name", "units", "heterostructure", "conditions", "mesa", "contacts",
-                             "gates", "constrictions", "wiring", "amplifier", "channels"});
+  const auto m = r.map(top, {"hallway", "name", "units", "heterostructure", "conditions", "mesa", "contacts", "gates",
+                             "constrictions", "wiring", "amplifier", "channels"});
   Design d;
   d.path = path;
 
@@ -333,7 +348,8 @@ Design LoadDesignFromString(const std::string& text, const std::string& path) {
   {
     const Value v = r.require(m, "hallway");
     d.format_version = static_cast<int>(r.integer(v));
-    if (d.format_version != 1) r.fail(v, "this hallway reads design format 1, the file says " + std::to_string(d.format_version));
+    if (d.format_version != 1)
+      r.fail(v, "this hallway reads design format 1, the file says " + std::to_string(d.format_version));
   }
   if (auto v = m.get("name")) d.name = r.scalar(*v, "free text");
 
@@ -341,10 +357,14 @@ Design LoadDesignFromString(const std::string& text, const std::string& path) {
   {
     const Value v = r.require(m, "units");
     d.unit_name = r.scalar(v, "nm, um or mm");
-    if (d.unit_name == "nm") d.unit_m = 1e-9;
-    else if (d.unit_name == "um" || d.unit_name == "\xC2\xB5m" || d.unit_name == "\xCE\xBCm") d.unit_m = 1e-6;
-    else if (d.unit_name == "mm") d.unit_m = 1e-3;
-    else r.fail(v, "units must be nm, um or mm, got '" + d.unit_name + "'");
+    if (d.unit_name == "nm")
+      d.unit_m = 1e-9;
+    else if (d.unit_name == "um" || d.unit_name == "\xC2\xB5m" || d.unit_name == "\xCE\xBCm")
+      d.unit_m = 1e-6;
+    else if (d.unit_name == "mm")
+      d.unit_m = 1e-3;
+    else
+      r.fail(v, "units must be nm, um or mm, got '" + d.unit_name + "'");
   }
 
   // Heterostructure.
@@ -401,7 +421,8 @@ Design LoadDesignFromString(const std::string& text, const std::string& path) {
       filling_value = *field;
       cd.field_given = true;
       cd.field_T = r.quantity(*field, Kind::kField);
-      if (cd.field_T == 0.0) r.fail(*field, "a zero field has no quantum Hall edges; give a signed field such as 4.75 T");
+      if (cd.field_T == 0.0)
+        r.fail(*field, "a zero field has no quantum Hall edges; give a signed field such as 4.75 T");
       if (std::abs(cd.field_T) > 100.0) r.fail(*field, "fields beyond 100 T are not supported");
       cd.filling_from_field = n * constants::kPlanck_Js / (constants::kElementaryCharge_C * std::abs(cd.field_T));
       const auto match = NearestPlateau(cd.filling_from_field, kPlateauTolerance);
@@ -526,15 +547,17 @@ Design LoadDesignFromString(const std::string& text, const std::string& path) {
       for (int i = 0; i < 2; ++i) {
         names[i] = r.scalar(gl[static_cast<std::size_t>(i)], "a gate name");
         if (names[i] != kMesaName && !d.FindGate(names[i]))
-          r.fail(gl[static_cast<std::size_t>(i)], "no gate named '" + names[i] + "'" +
-                                                      (d.FindContact(names[i]) ? " ('" + names[i] + "' is a contact)" : ""));
+          r.fail(gl[static_cast<std::size_t>(i)],
+                 "no gate named '" + names[i] + "'" +
+                     (d.FindContact(names[i]) ? " ('" + names[i] + "' is a contact)" : ""));
       }
       if (names[0] == names[1]) r.fail(gv, "a constriction needs two different gates");
       k.first = names[0];
       k.second = names[1];
       const Value tv = r.require(km, "transmission");
       std::vector<Value> tvals;
-      if (tv.node.IsSequence()) tvals = r.list(tv, "transmissions");
+      if (tv.node.IsSequence())
+        tvals = r.list(tv, "transmissions");
       else {
         if (d.channels.size() != 1)
           r.fail(tv, "filling " + d.conditions.filling.ToString() + " has " + std::to_string(d.channels.size()) +
@@ -542,8 +565,8 @@ Design LoadDesignFromString(const std::string& text, const std::string& path) {
         tvals.push_back(tv);
       }
       if (tvals.size() != d.channels.size())
-        r.fail(tv, "expected " + std::to_string(d.channels.size()) + " transmissions (one per edge channel, outermost first), got " +
-                       std::to_string(tvals.size()));
+        r.fail(tv, "expected " + std::to_string(d.channels.size()) +
+                       " transmissions (one per edge channel, outermost first), got " + std::to_string(tvals.size()));
       for (const Value& t : tvals) {
         const double x = r.number(t);
         if (!(x >= 0.0 && x <= 1.0)) r.fail(t, "a transmission is a probability between 0 and 1");
@@ -582,7 +605,8 @@ Design LoadDesignFromString(const std::string& text, const std::string& path) {
     }();
     for (const Contact& c : d.contacts) {
       auto v = wm.get(c.name);
-      if (!v) r.fail(wv, "contact '" + c.name + "' has no role; give it one of source <bias>, ground, amplifier, float");
+      if (!v)
+        r.fail(wv, "contact '" + c.name + "' has no role; give it one of source <bias>, ground, amplifier, float");
       d.wiring.push_back(read_wiring(r, c.name, *v, d.amplifier));
     }
   }

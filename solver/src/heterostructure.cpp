@@ -32,8 +32,8 @@ HeterostructureFigures DeriveFigures(const Heterostructure& h, double field_T, d
   const double eps = h.permittivity * kVacuumPermittivity_F_per_m;
   f.gate_capacitance_F_per_m2 = eps / h.depth_m;
   const double e2d = kElementaryCharge_C * kElementaryCharge_C * f.density_of_states_per_J_m2;  // quantum capacitance
-  f.density_per_gate_volt_per_m2 = f.gate_capacitance_F_per_m2 / kElementaryCharge_C /
-                                   (1.0 + f.gate_capacitance_F_per_m2 / e2d);
+  f.density_per_gate_volt_per_m2 =
+      f.gate_capacitance_F_per_m2 / kElementaryCharge_C / (1.0 + f.gate_capacitance_F_per_m2 / e2d);
   f.depletion_voltage_plate_V = -kElementaryCharge_C * n * h.depth_m / eps;
   f.depletion_voltage_V = -kElementaryCharge_C * n * (h.depth_m / eps + 1.0 / e2d);
   return f;

@@ -22,11 +22,11 @@ struct Symbol {
 
 constexpr Dimension kMetre{2, 0, 0, 0, 0};
 constexpr Dimension kSecond{0, 0, 2, 0, 0};
-constexpr Dimension kVolt{4, 2, -6, -2, 0};      // kg m^2 s^-3 A^-1
+constexpr Dimension kVolt{4, 2, -6, -2, 0};  // kg m^2 s^-3 A^-1
 constexpr Dimension kAmpere{0, 0, 0, 2, 0};
-constexpr Dimension kOhm{4, 2, -6, -4, 0};       // kg m^2 s^-3 A^-2
+constexpr Dimension kOhm{4, 2, -6, -4, 0};  // kg m^2 s^-3 A^-2
 constexpr Dimension kSiemens{-4, -2, 6, 4, 0};
-constexpr Dimension kTesla{0, 2, -4, -2, 0};     // kg s^-2 A^-1
+constexpr Dimension kTesla{0, 2, -4, -2, 0};  // kg s^-2 A^-1
 constexpr Dimension kKelvin{0, 0, 0, 0, 2};
 constexpr Dimension kHertz{0, 0, -2, 0, 0};
 constexpr Dimension kRootHertz{0, 0, -1, 0, 0};
@@ -39,34 +39,22 @@ constexpr Dimension kVoltSecond{4, 2, -4, -2, 0};
 constexpr Dimension kNone{};
 
 Dimension add(Dimension a, Dimension b, int times = 1) {
-  return {a.m2 + times * b.m2, a.kg2 + times * b.kg2, a.s2 + times * b.s2, a.A2 + times * b.A2,
-          a.K2 + times * b.K2};
+  return {a.m2 + times * b.m2, a.kg2 + times * b.kg2, a.s2 + times * b.s2, a.A2 + times * b.A2, a.K2 + times * b.K2};
 }
 
 const std::array<Symbol, 22>& symbols() {
   static const std::array<Symbol, 22> table{{
-      {"m", 1.0, kMetre, true},
-      {"s", 1.0, kSecond, true},
-      {"min", 60.0, kSecond, false},
-      {"h", 3600.0, kSecond, false},
-      {"Hz", 1.0, kHertz, true},
-      {"rtHz", 1.0, kRootHertz, false},
-      {"V", 1.0, kVolt, true},
-      {"Vs", 1.0, kVoltSecond, false},
-      {"A", 1.0, kAmpere, true},
-      {"Ohm", 1.0, kOhm, true},
-      {"ohm", 1.0, kOhm, true},
-      {"\xCE\xA9", 1.0, kOhm, true},  // Ω (U+03A9)
-      {"S", 1.0, kSiemens, true},
-      {"T", 1.0, kTesla, true},
-      {"K", 1.0, kKelvin, true},
-      {"eV", constants::kElementaryCharge_C, kJoule, true},
-      {"J", 1.0, kJoule, true},
-      {"W", 1.0, kWatt, true},
-      {"C", 1.0, kCoulomb, true},
-      {"F", 1.0, kFarad, true},
-      {"g", 1e-3, kGram, true},
-      {"\xE2\x84\xA6", 1.0, kOhm, true},  // Ω (U+2126, ohm sign)
+      {"m", 1.0, kMetre, true},      {"s", 1.0, kSecond, true},
+      {"min", 60.0, kSecond, false}, {"h", 3600.0, kSecond, false},
+      {"Hz", 1.0, kHertz, true},     {"rtHz", 1.0, kRootHertz, false},
+      {"V", 1.0, kVolt, true},       {"Vs", 1.0, kVoltSecond, false},
+      {"A", 1.0, kAmpere, true},     {"Ohm", 1.0, kOhm, true},
+      {"ohm", 1.0, kOhm, true},      {"\xCE\xA9", 1.0, kOhm, true},  // Ω (U+03A9)
+      {"S", 1.0, kSiemens, true},    {"T", 1.0, kTesla, true},
+      {"K", 1.0, kKelvin, true},     {"eV", constants::kElementaryCharge_C, kJoule, true},
+      {"J", 1.0, kJoule, true},      {"W", 1.0, kWatt, true},
+      {"C", 1.0, kCoulomb, true},    {"F", 1.0, kFarad, true},
+      {"g", 1e-3, kGram, true},      {"\xE2\x84\xA6", 1.0, kOhm, true},  // Ω (U+2126, ohm sign)
   }};
   return table;
 }
@@ -263,8 +251,10 @@ std::string ToString(const Dimension& d) {
     out += name;
     if (twice != 2) {
       out += '^';
-      if (twice % 2 == 0) out += std::to_string(twice / 2);
-      else out += "(" + std::to_string(twice) + "/2)";
+      if (twice % 2 == 0)
+        out += std::to_string(twice / 2);
+      else
+        out += "(" + std::to_string(twice) + "/2)";
     }
   }
   return out.empty() ? "dimensionless" : out;
@@ -274,8 +264,7 @@ double Parse(std::string_view text, Kind kind) {
   const Quantity q = ParseQuantity(text);
   const Dimension want = DimensionOf(kind);
   if (q.dimension == want) return q.value_si;
-  if (q.dimension == kNone)
-    fail(text, "a " + ToString(kind) + " needs a unit, e.g. '" + ExampleFor(kind) + "'");
+  if (q.dimension == kNone) fail(text, "a " + ToString(kind) + " needs a unit, e.g. '" + ExampleFor(kind) + "'");
   if (want == kNone) fail(text, "expected a plain number without a unit, e.g. '" + ExampleFor(kind) + "'");
   fail(text, "expected a " + ToString(kind) + " such as '" + ExampleFor(kind) + "', but the unit has dimension " +
                  ToString(q.dimension));

@@ -18,7 +18,7 @@ std::string ToString(Severity s);
 
 struct Finding {
   Severity severity = Severity::kWarning;
-  std::string code;      // stable short identifier, e.g. "gate-overlap"
+  std::string code;  // stable short identifier, e.g. "gate-overlap"
   std::string message;
   SourceLocation where;  // the first object involved
 };
@@ -26,10 +26,10 @@ struct Finding {
 struct ConstrictionGap {
   std::string name;
   std::string first, second;
-  double gap_m = 0.0;                       // shortest distance between the two outlines
-  geometry::Point on_first, on_second;      // where it is attained
-  std::optional<double> bare_pinch_off_V;   // split gates only (physics.md 1.4 (i), infinite fingers)
-  double most_positive_gate_V = 0.0;        // of the gates that form it
+  double gap_m = 0.0;                      // shortest distance between the two outlines
+  geometry::Point on_first, on_second;     // where it is attained
+  std::optional<double> bare_pinch_off_V;  // split gates only (physics.md 1.4 (i), infinite fingers)
+  double most_positive_gate_V = 0.0;       // of the gates that form it
 };
 
 struct CheckOptions {

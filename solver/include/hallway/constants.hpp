@@ -9,10 +9,10 @@
 
 namespace hallway::constants {
 
-inline constexpr double kElementaryCharge_C = 1.602176634e-19;    // exact
-inline constexpr double kPlanck_Js = 6.62607015e-34;              // exact
+inline constexpr double kElementaryCharge_C = 1.602176634e-19;  // exact
+inline constexpr double kPlanck_Js = 6.62607015e-34;            // exact
 inline constexpr double kHbar_Js = kPlanck_Js / (2.0 * std::numbers::pi);
-inline constexpr double kBoltzmann_J_per_K = 1.380649e-23;        // exact
+inline constexpr double kBoltzmann_J_per_K = 1.380649e-23;  // exact
 inline constexpr double kVacuumPermittivity_F_per_m = 8.8541878128e-12;
 inline constexpr double kElectronMass_kg = 9.1093837015e-31;
 inline constexpr double kBohrMagneton_J_per_T = 9.2740100783e-24;

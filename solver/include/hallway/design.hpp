@@ -17,7 +17,7 @@ struct SourceLocation {
   std::string file;
   int line = 0;
   int column = 0;
-  std::string key_path;  // e.g. "gates[1].voltage"
+  std::string key_path;          // e.g. "gates[1].voltage"
   std::string ToString() const;  // "file:line:column: key_path"
 };
 
@@ -38,11 +38,11 @@ std::string ToString(SurfaceModel m);
 std::optional<SurfaceModel> SurfaceModelFromString(const std::string& s);
 
 struct Heterostructure {
-  double depth_m = 0.0;             // 2DEG below the surface
-  double density_per_m2 = 0.0;      // ungated sheet density n_s
+  double depth_m = 0.0;         // 2DEG below the surface
+  double density_per_m2 = 0.0;  // ungated sheet density n_s
   std::optional<double> mobility_m2_per_Vs;
-  double permittivity = 12.9;       // relative, epsilon_r
-  double effective_mass = 0.067;    // m*/m_e
+  double permittivity = 12.9;     // relative, epsilon_r
+  double effective_mass = 0.067;  // m*/m_e
   SurfaceModel surface = SurfaceModel::kPinned;
 };
 
@@ -56,11 +56,11 @@ struct Conditions {
 
 // One edge channel at the bulk filling, outermost first.
 struct Channel {
-  Fraction conductance;                 // in e^2/h
-  double charge_e = 1.0;                // quasiparticle charge e*/e in weak backscattering
-  std::optional<double> scaling;        // scaling dimension delta (collider formulas)
-  std::optional<double> exchange_pi;    // exchange phase theta / pi
-  std::string note;                     // caveat attached to the default (empty if none)
+  Fraction conductance;               // in e^2/h
+  double charge_e = 1.0;              // quasiparticle charge e*/e in weak backscattering
+  std::optional<double> scaling;      // scaling dimension delta (collider formulas)
+  std::optional<double> exchange_pi;  // exchange phase theta / pi
+  std::string note;                   // caveat attached to the default (empty if none)
 };
 
 struct Mesa {
@@ -92,8 +92,8 @@ inline constexpr const char* kMesaName = "mesa";
 
 struct Constriction {
   std::string name;
-  std::string first, second;           // gate names, or kMesaName for one of them
-  std::vector<double> transmission;    // per channel, outermost first, each in [0, 1]
+  std::string first, second;         // gate names, or kMesaName for one of them
+  std::vector<double> transmission;  // per channel, outermost first, each in [0, 1]
   std::optional<Regime> regime;
   SourceLocation where;
 };
@@ -123,21 +123,21 @@ struct Wiring {
 
 struct Design {
   int format_version = 1;
-  std::string path;         // the design file as given
+  std::string path;  // the design file as given
   std::string name;
-  double unit_m = 1e-6;     // the file's outline unit in metres
-  std::string unit_name;    // "um"
+  double unit_m = 1e-6;   // the file's outline unit in metres
+  std::string unit_name;  // "um"
   Heterostructure heterostructure;
   Conditions conditions;
   Mesa mesa;
-  std::vector<Contact> contacts;      // file order
-  std::vector<Gate> gates;            // file order
+  std::vector<Contact> contacts;  // file order
+  std::vector<Gate> gates;        // file order
   std::vector<Constriction> constrictions;
-  std::vector<Wiring> wiring;         // in the order of `contacts`
-  std::optional<Amplifier> amplifier; // the shared block, if given
-  std::vector<Channel> channels;      // defaults for the filling, or the file's `channels:`
+  std::vector<Wiring> wiring;          // in the order of `contacts`
+  std::optional<Amplifier> amplifier;  // the shared block, if given
+  std::vector<Channel> channels;       // defaults for the filling, or the file's `channels:`
   bool channels_given = false;
-  std::vector<std::string> notes;     // facts the loader decided and the user should know
+  std::vector<std::string> notes;  // facts the loader decided and the user should know
 
   const Contact* FindContact(const std::string& n) const;
   const Gate* FindGate(const std::string& n) const;

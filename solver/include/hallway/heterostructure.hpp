@@ -31,11 +31,11 @@ struct HeterostructureFigures {
   double filling = 0.0;                        // n h / (e |B|) at that field
   double magnetic_length_m = 0.0;
   double cyclotron_energy_J = 0.0;
-  double thermal_energy_J = 0.0;               // k_B T
+  double thermal_energy_J = 0.0;  // k_B T
   double gate_capacitance_F_per_m2 = 0.0;
-  double density_per_gate_volt_per_m2 = 0.0;   // dn/dV_g = C / (e (1 + C / (e^2 D)))
-  double depletion_voltage_plate_V = 0.0;      // -e n_s d / (eps_r eps_0)
-  double depletion_voltage_V = 0.0;            // with the quantum capacitance
+  double density_per_gate_volt_per_m2 = 0.0;  // dn/dV_g = C / (e (1 + C / (e^2 D)))
+  double depletion_voltage_plate_V = 0.0;     // -e n_s d / (eps_r eps_0)
+  double depletion_voltage_V = 0.0;           // with the quantum capacitance
 };
 
 HeterostructureFigures DeriveFigures(const Heterostructure& h, double field_T, double temperature_K);
