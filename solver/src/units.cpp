@@ -254,7 +254,7 @@ std::string ToString(const Dimension& d) {
       if (twice % 2 == 0)
         out += std::to_string(twice / 2);
       else
-        out += "(" + std::to_string(twice) + "/2)";
+        out.append("(").append(std::to_string(twice)).append("/2)");
     }
   }
   return out.empty() ? "dimensionless" : out;
