@@ -14,3 +14,17 @@ struct CheckArgs {
 int RunCheck(const CheckArgs& args);
 
 }  // namespace hallway::cli
+
+namespace hallway::cli {
+
+struct SolveArgs {
+  std::string design_path;
+  std::string json_path;
+  bool reversed_only = false;
+  std::string four_terminal;  // "I+,I-,V+,V-" contact names, empty: none
+};
+
+// Traces the edge network and solves the wiring plan for the design field and the reversed field.
+int RunSolve(const SolveArgs& args);
+
+}  // namespace hallway::cli

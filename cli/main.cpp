@@ -21,6 +21,13 @@ int main(int argc, char** argv) {
   c->add_option("design", check.design_path, "Design file (YAML)")->required();
   c->add_option("--json", check.json_path, "Also write the results as JSON to this file");
 
+  SolveArgs solve;
+  auto* s = app.add_subcommand("solve", "Trace the edge channels and solve the wiring plan for +B and -B");
+  s->add_option("design", solve.design_path, "Design file (YAML)")->required();
+  s->add_option("--json", solve.json_path, "Also write the results as JSON to this file");
+  s->add_flag("--field-reversed", solve.reversed_only, "Solve only the reversed field -B");
+  s->add_option("--four-terminal", solve.four_terminal, "Print R = (V+ - V-)/I for current I from I+ to I-: I+,I-,V+,V-");
+
   try {
     app.parse(argc, argv);
   } catch (const CLI::CallForHelp& e) {
@@ -33,6 +40,7 @@ int main(int argc, char** argv) {
   }
   try {
     if (*c) return RunCheck(check);
+    if (*s) return RunSolve(solve);
   } catch (const std::exception& e) {
     std::cerr << "hallway: internal error: " << e.what() << "\n";
     return kExitInternal;

@@ -49,6 +49,34 @@ bool overlap_or_touch(const Polygon& a, const Polygon& b) {
 
 }  // namespace
 
+std::optional<geometry::ClosestPair> FindGap(const Design& d, const Constriction& k, std::string* why) {
+  auto fail = [&](const std::string& w) {
+    if (why) *why = w;
+    return std::nullopt;
+  };
+  const bool against_mesa = k.first == kMesaName || k.second == kMesaName;
+  const Gate* g1 = d.FindGate(against_mesa ? (k.first == kMesaName ? k.second : k.first) : k.first);
+  if (!g1) return fail("no gate named " + k.first);
+  geometry::ClosestPair cp;
+  if (against_mesa) {
+    // Measure to the mesa edges the gate does not itself reach (the gate usually crosses one edge
+    // on its way to its bond pad); see docs/design-format.md, `constrictions`.
+    const geometry::Polygon& mesa = d.mesa.outline;
+    const auto touching = geometry::edges_meeting(g1->outline, mesa);
+    std::vector<std::size_t> others;
+    for (std::size_t e = 0; e < mesa.vertices.size(); ++e)
+      if (std::find(touching.begin(), touching.end(), e) == touching.end()) others.push_back(e);
+    if (others.empty()) return fail("gate " + g1->name + " reaches every edge of the mesa, so no gap to the mesa edge is left");
+    cp = geometry::closest_boundary_points(g1->outline, mesa, others);
+  } else {
+    const Gate* g2 = d.FindGate(k.second);
+    if (!g2) return fail("no gate named " + k.second);
+    cp = geometry::closest_boundary_points(g1->outline, g2->outline);
+  }
+  if (!(cp.distance_m > 0.0)) return fail("its two sides touch, there is no gap");
+  return cp;
+}
+
 CheckResult CheckDesign(const Design& d, const CheckOptions& opt) {
   std::string why;
   if (!opt.IsValid(&why)) throw std::invalid_argument("CheckOptions: " + why);
@@ -113,38 +141,18 @@ CheckResult CheckDesign(const Design& d, const CheckOptions& opt) {
     gap.second = k.second;
     const bool against_mesa = k.first == kMesaName || k.second == kMesaName;
     const Gate* g1 = d.FindGate(against_mesa ? (k.first == kMesaName ? k.second : k.first) : k.first);
-    if (!g1) continue;  // the loader guarantees names resolve
-    geometry::ClosestPair cp;
-    if (against_mesa) {
-      // Measure to the mesa edges the gate does not itself reach (the gate usually crosses one edge
-      // on its way to its bond pad); see README, "constrictions against the mesa edge".
-      const auto touching = geometry::edges_meeting(g1->outline, mesa);
-      std::vector<std::size_t> others;
-      for (std::size_t e = 0; e < mesa.vertices.size(); ++e)
-        if (std::find(touching.begin(), touching.end(), e) == touching.end()) others.push_back(e);
-      if (others.empty()) {
-        add(Severity::kError, "constriction-no-gap",
-            "constriction " + k.name + ": gate " + g1->name +
-                " reaches every edge of the mesa, so no gap to the mesa edge is left",
-            k.where);
-        continue;
-      }
-      cp = geometry::closest_boundary_points(g1->outline, mesa, others);
-    } else {
-      const Gate* g2 = d.FindGate(k.second);
-      if (!g2) continue;
-      cp = geometry::closest_boundary_points(g1->outline, g2->outline);
+    std::string why;
+    const auto found = FindGap(d, k, &why);
+    if (!found) {
+      add(Severity::kError, "constriction-no-gap", "constriction " + k.name + ": " + why, k.where);
+      continue;
     }
+    const geometry::ClosestPair cp = *found;
     gap.gap_m = cp.distance_m;
     gap.on_first = cp.on_a;
     gap.on_second = cp.on_b;
     gap.most_positive_gate_V = g1->voltage_V;
     if (!against_mesa) gap.most_positive_gate_V = std::max(g1->voltage_V, d.FindGate(k.second)->voltage_V);
-    if (!(cp.distance_m > 0.0)) {
-      add(Severity::kError, "constriction-no-gap", "constriction " + k.name + ": its two sides touch, there is no gap",
-          k.where);
-      continue;
-    }
     const geometry::Point mid = cp.midpoint();
     if (!geometry::contains(mesa, mid) || geometry::distance_to_boundary(mesa, mid) < 0.25 * cp.distance_m) {
       add(Severity::kError, "constriction-off-mesa",

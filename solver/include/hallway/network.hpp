@@ -1,0 +1,107 @@
+// hallway/network.hpp: where every edge channel runs, from the layout alone.
+//
+// For each channel k (outermost first) hallway builds the region of the 2DEG that carries it:
+//   the mesa eroded by `etch_depletion`,
+//   minus every gate that reflects channel k: a gate at or below the wide-gate depletion voltage
+//     V_dep removes its footprint grown by the bare lateral depletion width
+//     x_e = d cot(pi V_dep / V_g) (physics.md 1.4 (i); for 2 V_dep < V_g <= V_dep the formula puts the
+//     edge inside the footprint and hallway keeps the footprint itself); a weaker gate lowers the
+//     local filling under it to nu (1 - V_g / V_dep) (plate capacitor with quantum capacitance,
+//     physics.md 1.3) and reflects the channels whose cumulative filling (outermost first)
+//     exceeds that, at its footprint;
+//   with each constriction whose sides reflect channel k cut across its gap (a thin slit along the
+//     shortest segment between the two sides; the gap is first re-opened by a corridor, so the
+//     design's transmission decides what passes, and a warning says when the estimate disagrees).
+// Edges follow the boundary of each region with the chirality of physics.md A: for B > 0 the 2DEG
+// is on the electron's right-hand side, i.e. clockwise around the outer boundary seen from above.
+// They are cut where they enter and leave ohmic contacts and where they meet a constriction's slit:
+// the two faces of the slit are the constriction's ports.
+#pragma once
+
+#include <string>
+#include <vector>
+
+#include "hallway/check.hpp"
+#include "hallway/design.hpp"
+#include "hallway/geometry/region.hpp"
+
+namespace hallway {
+
+// Which model placed the channel boundaries.
+inline constexpr const char* kBareBoundaryModel =
+    "bare-potential lateral depletion estimate (physics.md 1.4 (i)); self-consistent boundaries are not used";
+
+struct NetworkOptions {
+  int disc_segments = 32;            // polygon sides of the offset disc (>= 8)
+  double slit_fraction = 0.1;        // slit half-width as a fraction of the gap, in (0, 0.25]
+  bool IsValid(std::string* why) const;
+};
+
+// One end of an edge piece.
+struct EdgeEnd {
+  enum class Kind { kContact, kConstriction };
+  Kind kind = Kind::kContact;
+  int index = 0;  // into Design::contacts or Design::constrictions
+  int face = 0;   // constrictions: 0 = the slit face on the left of the segment from the first side
+                  // to the second, 1 = on its right
+  friend bool operator==(const EdgeEnd&, const EdgeEnd&) = default;
+};
+
+// A stretch of edge channel between two ends, in the direction electrons travel.
+struct EdgePiece {
+  int channel = 0;
+  EdgeEnd from, to;
+  double length_m = 0.0;
+  std::vector<geometry::Point> path;  // polyline from `from` to `to`
+};
+
+// An edge that closes on itself without meeting a contact or a constriction (around an island or
+// a depleted hole that touches nothing).
+struct ClosedEdge {
+  int channel = 0;
+  double length_m = 0.0;
+  double enclosed_area_m2 = 0.0;
+};
+
+// What the region of one channel looks like (direction independent).
+struct ChannelRegion {
+  int channel = 0;
+  geometry::Region region;               // after the slits
+  std::vector<std::string> reflecting;   // gates that remove area for this channel
+  std::vector<std::string> passing;      // gates this channel passes under
+  std::vector<int> slit_constrictions;   // constrictions cut for this channel
+  std::vector<bool> estimate_open;       // per constriction: is the gap open in the bare estimate?
+};
+
+// Direction-independent geometry: build once, trace for +B and -B.
+struct ChannelGeometry {
+  std::vector<ChannelRegion> channels;
+  std::vector<double> lateral_depletion_m;  // per gate (0 for gates above V_dep)
+  std::vector<double> local_filling;        // per gate: nu (1 - V_g / V_dep), clipped at 0
+  std::vector<Finding> findings;
+  std::string model = kBareBoundaryModel;
+  // The slit of constriction c: its centre line from a to b and unit normal n (towards face 0).
+  struct Slit {
+    geometry::Point a, b, n;
+    double half_width_m = 0.0;
+    double ext_a_m = 0.0, ext_b_m = 0.0;  // how far the slit reaches beyond a and beyond b
+    double gap_m = 0.0;
+  };
+  std::vector<Slit> slits;                 // per constriction (gap_m = 0 where none could be made)
+};
+
+ChannelGeometry BuildChannelGeometry(const Design& design, const NetworkOptions& options = {});
+
+struct EdgeNetwork {
+  double field_T = 0.0;  // the field the edges were traced for
+  std::vector<EdgePiece> pieces;
+  std::vector<ClosedEdge> closed;
+  std::vector<Finding> findings;
+};
+
+// Traces the edges of every channel for the field `field_T` (only its sign matters here).
+EdgeNetwork TraceEdges(const Design& design, const ChannelGeometry& geometry, double field_T);
+
+std::string DescribeEnd(const Design& design, const EdgeEnd& end);  // "W", "Q/face 0"
+
+}  // namespace hallway

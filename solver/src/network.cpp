@@ -1,0 +1,370 @@
+// Channel regions and edge tracing; the model is described in network.hpp.
+#include "hallway/network.hpp"
+
+#include <algorithm>
+#include <cmath>
+#include <cstdio>
+#include <numbers>
+#include <stdexcept>
+
+#include "hallway/geometry/point_index.hpp"
+#include "hallway/heterostructure.hpp"
+#include "hallway/units.hpp"
+
+namespace hallway {
+
+using geometry::Point;
+using geometry::Polygon;
+using geometry::Region;
+
+bool NetworkOptions::IsValid(std::string* why) const {
+  auto bad = [&](const char* w) {
+    if (why) *why = w;
+    return false;
+  };
+  if (disc_segments < 8 || disc_segments > 1024) return bad("disc_segments must lie in [8, 1024]");
+  if (!(slit_fraction > 0.0 && slit_fraction <= 0.25)) return bad("slit_fraction must lie in (0, 0.25]");
+  return true;
+}
+
+std::string DescribeEnd(const Design& d, const EdgeEnd& e) {
+  if (e.kind == EdgeEnd::Kind::kContact) return d.contacts.at(static_cast<std::size_t>(e.index)).name;
+  return d.constrictions.at(static_cast<std::size_t>(e.index)).name + "/face " + std::to_string(e.face);
+}
+
+namespace {
+
+Point add(Point a, Point b, double s = 1.0) { return {a.x + s * b.x, a.y + s * b.y}; }
+
+// Rectangle along the segment [a - u*ext_a, b + u*ext_b] with half-width h.
+Polygon strip(Point a, Point b, Point u, Point n, double ext_a, double ext_b, double h) {
+  const Point p0 = add(a, u, -ext_a), p1 = add(b, u, ext_b);
+  return {{add(p0, n, -h), add(p1, n, -h), add(p1, n, h), add(p0, n, h)}};
+}
+
+std::string fmt_g(double x) {
+  char buf[32];
+  std::snprintf(buf, sizeof buf, "%.3g", x);
+  return buf;
+}
+
+}  // namespace
+
+ChannelGeometry BuildChannelGeometry(const Design& d, const NetworkOptions& opt) {
+  std::string why;
+  if (!opt.IsValid(&why)) throw std::invalid_argument("NetworkOptions: " + why);
+  ChannelGeometry g;
+  const HeterostructureFigures fig = DeriveFigures(d.heterostructure, d.conditions.field_T, d.conditions.temperature_K);
+  const double vdep = fig.depletion_voltage_V;
+  const double depth = d.heterostructure.depth_m;
+  const double nu = d.conditions.filling.value();
+  auto warn = [&](std::string code, std::string msg, const SourceLocation& where) {
+    g.findings.push_back({Severity::kWarning, std::move(code), std::move(msg), where});
+  };
+
+  // Gates: what each removes.
+  std::vector<Region> depleted(d.gates.size());
+  for (std::size_t i = 0; i < d.gates.size(); ++i) {
+    const Gate& gate = d.gates[i];
+    double xe = 0.0;
+    if (gate.voltage_V <= vdep) {
+      if (gate.voltage_V < 2.0 * vdep) xe = depth / std::tan(std::numbers::pi * vdep / gate.voltage_V);
+      depleted[i] = Region(gate.outline).Offset(xe, opt.disc_segments);
+      g.local_filling.push_back(0.0);
+    } else {
+      g.local_filling.push_back(std::max(0.0, nu * (1.0 - gate.voltage_V / vdep)));
+    }
+    g.lateral_depletion_m.push_back(xe);
+  }
+  auto reflects = [&](std::size_t gate, double cumulative) {
+    return d.gates[gate].voltage_V <= vdep || cumulative > g.local_filling[gate] + 1e-9;
+  };
+  auto gate_index = [&](const std::string& name) -> int {
+    for (std::size_t i = 0; i < d.gates.size(); ++i)
+      if (d.gates[i].name == name) return static_cast<int>(i);
+    return -1;
+  };
+
+  const Region mesa(d.mesa.outline);
+  const Region base = mesa.Offset(-d.mesa.etch_depletion_m, opt.disc_segments);
+  if (base.empty())
+    g.findings.push_back({Severity::kError, "mesa-etched-away",
+                          "the etch depletion (" + units::FormatSI(d.mesa.etch_depletion_m, "m") +
+                              ") leaves no 2DEG in the mesa",
+                          d.mesa.where});
+
+  // Slits across every constriction's gap.
+  for (const Constriction& k : d.constrictions) {
+    ChannelGeometry::Slit s;
+    if (const auto cp = FindGap(d, k, nullptr)) {
+      s.a = cp->on_a;
+      s.b = cp->on_b;
+      s.gap_m = cp->distance_m;
+      const Point u{(s.b.x - s.a.x) / s.gap_m, (s.b.y - s.a.y) / s.gap_m};
+      s.n = {-u.y, u.x};
+      s.half_width_m = opt.slit_fraction * s.gap_m;
+      // Reach through the grown depletion into each side, so the slit always cuts the channel.
+      const int ga = gate_index(k.first), gb = gate_index(k.second);
+      s.ext_a_m = (ga >= 0 ? g.lateral_depletion_m[static_cast<std::size_t>(ga)] : 0.0) + 0.5 * s.gap_m;
+      s.ext_b_m = (gb >= 0 ? g.lateral_depletion_m[static_cast<std::size_t>(gb)] : d.mesa.etch_depletion_m) + 0.5 * s.gap_m;
+    }
+    g.slits.push_back(s);
+  }
+
+  Fraction cumulative{0, 1};
+  for (std::size_t ch = 0; ch < d.channels.size(); ++ch) {
+    cumulative = cumulative + d.channels[ch].conductance;
+    const double c = cumulative.value();
+    ChannelRegion cr;
+    cr.channel = static_cast<int>(ch);
+    Region r = base;
+    for (std::size_t i = 0; i < d.gates.size(); ++i) {
+      if (!reflects(i, c)) {
+        cr.passing.push_back(d.gates[i].name);
+        continue;
+      }
+      cr.reflecting.push_back(d.gates[i].name);
+      r = r.Difference(d.gates[i].voltage_V <= vdep ? depleted[i] : Region(d.gates[i].outline));
+    }
+    const Region bare = r;
+    for (std::size_t ki = 0; ki < d.constrictions.size(); ++ki) {
+      const Constriction& k = d.constrictions[ki];
+      const ChannelGeometry::Slit& s = g.slits[ki];
+      const double t = k.transmission[ch];
+      if (s.gap_m <= 0.0) {
+        cr.estimate_open.push_back(false);
+        continue;
+      }
+      const Point mid{(s.a.x + s.b.x) / 2, (s.a.y + s.b.y) / 2};
+      const bool open = bare.ContainsInterior(mid);
+      cr.estimate_open.push_back(open);
+      const int ga = gate_index(k.first), gb = gate_index(k.second);
+      const bool side_a = ga < 0 || reflects(static_cast<std::size_t>(ga), c);
+      const bool side_b = gb < 0 || reflects(static_cast<std::size_t>(gb), c);
+      const std::string chname = "channel " + std::to_string(ch + 1);
+      if (!side_a && !side_b) {
+        if (t < 1.0)
+          warn("constriction-passed-under",
+               "constriction " + k.name + ": " + chname + " passes under both its gates (their local filling is above " +
+                   fmt_g(c) + "), but the design gives transmission " + fmt_g(t) +
+                   "; this channel ignores the constriction",
+               k.where);
+        continue;
+      }
+      if (!open && t > 0.0)
+        warn("estimate-closes",
+             "constriction " + k.name + ": the depletion estimate closes the gap for " + chname +
+                 ", but the design gives transmission " + fmt_g(t) + "; the design's value is used",
+             k.where);
+      if (open && t == 0.0)
+        warn("estimate-opens",
+             "constriction " + k.name + ": the depletion estimate leaves the gap open for " + chname +
+                 ", but the design gives transmission 0; the design's value is used",
+             k.where);
+      const Point u{s.n.y, -s.n.x};
+      const double h = s.half_width_m;
+      const Region corridor = Region(strip(s.a, s.b, u, s.n, 0.0, 0.0, 2.0 * h)).Intersection(mesa);
+      const Region slit(strip(s.a, s.b, u, s.n, s.ext_a_m, s.ext_b_m, h));
+      r = r.Union(corridor).Difference(slit);
+      cr.slit_constrictions.push_back(static_cast<int>(ki));
+    }
+    cr.region = std::move(r);
+    if (cr.region.empty())
+      warn("channel-nowhere", "channel " + std::to_string(ch + 1) + " has no region: the gates remove all of it",
+           d.mesa.where);
+    g.channels.push_back(std::move(cr));
+  }
+  return g;
+}
+
+namespace {
+
+struct Tag {
+  enum Kind { kFree, kContact, kFace } kind = kFree;
+  int index = 0;
+  int face = 0;
+  bool operator==(const Tag& o) const { return kind == o.kind && index == o.index && face == o.face; }
+};
+
+struct Face {
+  int constriction;
+  int face;
+  Point p0, p1;  // the face segment
+};
+
+struct Run {
+  Tag tag;
+  double length = 0.0;
+  std::vector<Point> pts;  // start point, then every vertex up to and including the end
+};
+
+// Parameters t in (0, 1) where segment [p, q] crosses segment [a, b].
+void crossings(Point p, Point q, Point a, Point b, std::vector<double>& ts) {
+  const double rx = q.x - p.x, ry = q.y - p.y, sx = b.x - a.x, sy = b.y - a.y;
+  const double den = rx * sy - ry * sx;
+  if (den == 0.0) return;
+  const double t = ((a.x - p.x) * sy - (a.y - p.y) * sx) / den;
+  const double u = ((a.x - p.x) * ry - (a.y - p.y) * rx) / den;
+  if (t > 0.0 && t < 1.0 && u >= 0.0 && u <= 1.0) ts.push_back(t);
+}
+
+class Tracer {
+ public:
+  Tracer(const Design& d, const ChannelGeometry& g) : d_(d) {
+    std::vector<Point> samples;
+    for (std::size_t k = 0; k < g.slits.size(); ++k) {
+      const auto& s = g.slits[k];
+      if (s.gap_m <= 0.0) continue;
+      const Point u{s.n.y, -s.n.x};
+      for (int f = 0; f < 2; ++f) {
+        const double side = f == 0 ? s.half_width_m : -s.half_width_m;
+        Face face{static_cast<int>(k), f, add(add(s.a, u, -s.ext_a_m), s.n, side), add(add(s.b, u, s.ext_b_m), s.n, side)};
+        const double len = geometry::distance(face.p0, face.p1);
+        const int n = std::max(2, static_cast<int>(std::ceil(len / (0.5 * s.half_width_m))));
+        for (int i = 0; i <= n; ++i) {
+          const double t = static_cast<double>(i) / n;
+          samples.push_back({face.p0.x + t * (face.p1.x - face.p0.x), face.p0.y + t * (face.p1.y - face.p0.y)});
+          sample_face_.push_back(faces_.size());
+        }
+        sample_radius_ = std::max(sample_radius_, len / n);
+        faces_.push_back(face);
+        tolerance_ = std::max(tolerance_, 1e-6 * s.half_width_m);
+      }
+    }
+    if (!samples.empty()) index_ = std::make_unique<geometry::PointIndex>(std::move(samples));
+  }
+
+  void Ring(const Polygon& ring_ccw_or_cw, bool reverse, int channel, EdgeNetwork& out) const {
+    std::vector<Point> v = ring_ccw_or_cw.vertices;
+    if (reverse) std::reverse(v.begin(), v.end());
+    // Split every edge where it crosses a contact outline, and tag each piece.
+    std::vector<Run> subs;
+    const std::size_t n = v.size();
+    for (std::size_t i = 0; i < n; ++i) {
+      const Point p = v[i], q = v[(i + 1) % n];
+      std::vector<double> ts{0.0, 1.0};
+      for (const Contact& c : d_.contacts) {
+        const auto& cv = c.outline.vertices;
+        for (std::size_t j = 0; j < cv.size(); ++j) crossings(p, q, cv[j], cv[(j + 1) % cv.size()], ts);
+      }
+      std::sort(ts.begin(), ts.end());
+      for (std::size_t j = 0; j + 1 < ts.size(); ++j) {
+        const Point a{p.x + ts[j] * (q.x - p.x), p.y + ts[j] * (q.y - p.y)};
+        const Point b{p.x + ts[j + 1] * (q.x - p.x), p.y + ts[j + 1] * (q.y - p.y)};
+        const double len = geometry::distance(a, b);
+        if (len <= 0.0) continue;
+        subs.push_back({classify(a, b), len, {a, b}});
+      }
+    }
+    if (subs.empty()) return;
+    // Merge neighbours with the same tag into runs (cyclically).
+    std::vector<Run> runs;
+    for (const Run& s : subs) {
+      if (!runs.empty() && runs.back().tag == s.tag) {
+        runs.back().length += s.length;
+        runs.back().pts.push_back(s.pts[1]);
+      } else {
+        runs.push_back(s);
+      }
+    }
+    if (runs.size() > 1 && runs.front().tag == runs.back().tag) {
+      Run& last = runs.back();
+      last.length += runs.front().length;
+      last.pts.insert(last.pts.end(), runs.front().pts.begin() + 1, runs.front().pts.end());
+      runs.erase(runs.begin());
+    }
+    const auto first = std::find_if(runs.begin(), runs.end(), [](const Run& r) { return r.tag.kind != Tag::kFree; });
+    if (first == runs.end()) {
+      double length = 0.0;
+      for (const Run& r : runs) length += r.length;
+      out.closed.push_back({channel, length, geometry::area(Polygon{v})});
+      return;
+    }
+    std::rotate(runs.begin(), first, runs.end());
+    EdgePiece piece;
+    piece.channel = channel;
+    piece.from = end_of(runs[0].tag);
+    piece.path = {runs[0].pts.back()};
+    for (std::size_t i = 1; i <= runs.size(); ++i) {
+      const Run& r = runs[i % runs.size()];
+      if (r.tag.kind == Tag::kFree) {
+        piece.length_m += r.length;
+        piece.path.insert(piece.path.end(), r.pts.begin() + 1, r.pts.end());
+        continue;
+      }
+      piece.to = end_of(r.tag);
+      out.pieces.push_back(piece);
+      piece = EdgePiece{};
+      piece.channel = channel;
+      piece.from = end_of(r.tag);
+      piece.path = {r.pts.back()};
+    }
+  }
+
+ private:
+  Tag classify(Point a, Point b) const {
+    const Point m{(a.x + b.x) / 2, (a.y + b.y) / 2};
+    if (index_) {
+      for (std::size_t s : index_->Within(m, sample_radius_)) {
+        const Face& f = faces_[sample_face_[s]];
+        const Point c = geometry::closest_on_segment(m, f.p0, f.p1);
+        if (geometry::distance(c, m) <= tolerance_ &&
+            geometry::distance(geometry::closest_on_segment(a, f.p0, f.p1), a) <= tolerance_)
+          return {Tag::kFace, f.constriction, f.face};
+      }
+    }
+    for (std::size_t i = 0; i < d_.contacts.size(); ++i)
+      if (geometry::contains(d_.contacts[i].outline, m)) return {Tag::kContact, static_cast<int>(i), 0};
+    return {};
+  }
+
+  static EdgeEnd end_of(const Tag& t) {
+    return {t.kind == Tag::kContact ? EdgeEnd::Kind::kContact : EdgeEnd::Kind::kConstriction, t.index, t.face};
+  }
+
+  const Design& d_;
+  std::vector<Face> faces_;
+  std::vector<std::size_t> sample_face_;
+  std::unique_ptr<geometry::PointIndex> index_;
+  double sample_radius_ = 0.0;
+  double tolerance_ = 0.0;
+};
+
+}  // namespace
+
+EdgeNetwork TraceEdges(const Design& d, const ChannelGeometry& g, double field_T) {
+  if (field_T == 0.0) throw std::invalid_argument("TraceEdges: the field must not be zero");
+  EdgeNetwork net;
+  net.field_T = field_T;
+  const Tracer tracer(d, g);
+  // Pieces come counter-clockwise (outer) and clockwise (holes); for B > 0 electrons go the other way.
+  const bool reverse = field_T > 0.0;
+  for (const ChannelRegion& cr : g.channels) {
+    for (const auto& piece : cr.region.Pieces()) {
+      tracer.Ring(piece.outer, reverse, cr.channel, net);
+      for (const Polygon& h : piece.holes) tracer.Ring(h, reverse, cr.channel, net);
+    }
+    // Every slit face must be met exactly once by this channel's edges.
+    for (int k : cr.slit_constrictions) {
+      for (int f = 0; f < 2; ++f) {
+        int ins = 0, outs = 0;
+        for (const EdgePiece& p : net.pieces) {
+          if (p.channel != cr.channel) continue;
+          const EdgeEnd e{EdgeEnd::Kind::kConstriction, k, f};
+          ins += p.to == e;
+          outs += p.from == e;
+        }
+        if (ins != 1 || outs != 1)
+          net.findings.push_back(
+              {Severity::kError, "ports-not-found",
+               "constriction " + d.constrictions[static_cast<std::size_t>(k)].name + ": channel " +
+                   std::to_string(cr.channel + 1) + " meets face " + std::to_string(f) + " of its gap " +
+                   std::to_string(ins) + " times instead of once; the layout around the gap is too irregular to trace",
+               d.constrictions[static_cast<std::size_t>(k)].where});
+      }
+    }
+  }
+  return net;
+}
+
+}  // namespace hallway

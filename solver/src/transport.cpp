@@ -1,0 +1,395 @@
+// Landauer–Büttiker transport of the edge network; see transport.hpp.
+#include "hallway/transport.hpp"
+
+#include <Eigen/Dense>
+#include <cmath>
+#include <functional>
+#include <stdexcept>
+
+#include "hallway/constants.hpp"
+
+namespace hallway {
+namespace {
+
+constexpr double kTiny = 1e-12;  // probabilities below this are numerical zero
+
+struct ChannelChain {
+  std::vector<int> pieces;                  // network piece index of each state
+  Eigen::MatrixXd P;                        // state -> state
+  Eigen::MatrixXd R;                        // state -> contact
+  Eigen::MatrixXd absorb;                   // state -> contact, solved
+  Eigen::MatrixXd flux;                     // state x source-contact: current fraction along the state
+  std::vector<std::vector<int>> emitted_by; // per contact: states it emits
+};
+
+int find_piece(const std::vector<int>& states, const std::vector<EdgePiece>& all, const EdgeEnd& from) {
+  for (std::size_t s = 0; s < states.size(); ++s)
+    if (all[static_cast<std::size_t>(states[s])].from == from) return static_cast<int>(s);
+  return -1;
+}
+
+ChannelChain build_chain(const Design& d, const EdgeNetwork& net, int channel) {
+  ChannelChain c;
+  for (std::size_t p = 0; p < net.pieces.size(); ++p)
+    if (net.pieces[p].channel == channel) c.pieces.push_back(static_cast<int>(p));
+  const int n = static_cast<int>(c.pieces.size());
+  const int nc = static_cast<int>(d.contacts.size());
+  c.P = Eigen::MatrixXd::Zero(n, n);
+  c.R = Eigen::MatrixXd::Zero(n, nc);
+  c.emitted_by.assign(static_cast<std::size_t>(nc), {});
+  for (int s = 0; s < n; ++s) {
+    const EdgePiece& p = net.pieces[static_cast<std::size_t>(c.pieces[static_cast<std::size_t>(s)])];
+    if (p.from.kind == EdgeEnd::Kind::kContact) c.emitted_by[static_cast<std::size_t>(p.from.index)].push_back(s);
+    if (p.to.kind == EdgeEnd::Kind::kContact) {
+      c.R(s, p.to.index) = 1.0;
+      continue;
+    }
+    const double t = d.constrictions[static_cast<std::size_t>(p.to.index)].transmission[static_cast<std::size_t>(channel)];
+    const int back = find_piece(c.pieces, net.pieces, {EdgeEnd::Kind::kConstriction, p.to.index, p.to.face});
+    const int across = find_piece(c.pieces, net.pieces, {EdgeEnd::Kind::kConstriction, p.to.index, 1 - p.to.face});
+    if (back < 0 || across < 0) throw std::runtime_error("edge network has a constriction port without an outgoing edge");
+    c.P(s, back) += 1.0 - t;
+    c.P(s, across) += t;
+  }
+  // Solve on the states that current from a contact can reach; closed loops that no contact feeds
+  // carry nothing and would make I - P singular.
+  std::vector<char> reach(static_cast<std::size_t>(n), 0);
+  std::vector<int> stack;
+  for (const auto& e : c.emitted_by)
+    for (int s : e) stack.push_back(s);
+  while (!stack.empty()) {
+    const int s = stack.back();
+    stack.pop_back();
+    if (reach[static_cast<std::size_t>(s)]) continue;
+    reach[static_cast<std::size_t>(s)] = 1;
+    for (int q = 0; q < n; ++q)
+      if (c.P(s, q) > 0.0) stack.push_back(q);
+  }
+  std::vector<int> idx;
+  for (int s = 0; s < n; ++s)
+    if (reach[static_cast<std::size_t>(s)]) idx.push_back(s);
+  const int m = static_cast<int>(idx.size());
+  Eigen::MatrixXd A = Eigen::MatrixXd::Identity(m, m);
+  Eigen::MatrixXd Rr(m, nc);
+  for (int a = 0; a < m; ++a) {
+    for (int b = 0; b < m; ++b) A(a, b) -= c.P(idx[static_cast<std::size_t>(a)], idx[static_cast<std::size_t>(b)]);
+    Rr.row(a) = c.R.row(idx[static_cast<std::size_t>(a)]);
+  }
+  c.absorb = Eigen::MatrixXd::Zero(n, nc);
+  c.flux = Eigen::MatrixXd::Zero(n, nc);
+  if (m == 0) return c;
+  const Eigen::FullPivLU<Eigen::MatrixXd> lu(A);
+  if (!lu.isInvertible()) throw std::runtime_error("edge network: current can circulate without reaching a contact");
+  const Eigen::MatrixXd X = lu.solve(Rr);
+  // Flux: f = s + P^T f for the emission vector s of each contact.
+  Eigen::MatrixXd S = Eigen::MatrixXd::Zero(m, nc);
+  for (int j = 0; j < nc; ++j)
+    for (int s : c.emitted_by[static_cast<std::size_t>(j)]) {
+      const auto at = std::find(idx.begin(), idx.end(), s);
+      S(static_cast<int>(at - idx.begin()), j) = 1.0;
+    }
+  const Eigen::MatrixXd F = A.transpose().fullPivLu().solve(S);
+  for (int a = 0; a < m; ++a) {
+    c.absorb.row(idx[static_cast<std::size_t>(a)]) = X.row(a);
+    c.flux.row(idx[static_cast<std::size_t>(a)]) = F.row(a);
+  }
+  return c;
+}
+
+}  // namespace
+
+Matrix ConductanceFromTransmissions(const std::vector<Matrix>& t, const std::vector<std::vector<double>>& m,
+                                    const std::vector<double>& g) {
+  const std::size_t n = m.empty() ? 0 : m.front().size();
+  Matrix G(n, std::vector<double>(n, 0.0));
+  for (std::size_t k = 0; k < t.size(); ++k)
+    for (std::size_t i = 0; i < n; ++i)
+      for (std::size_t j = 0; j < n; ++j)
+        G[i][j] += constants::kConductanceQuantum_S * g[k] * ((i == j ? m[k][i] : 0.0) - t[k][i][j]);
+  return G;
+}
+
+double FourTerminalResistance(const Matrix& G, int m, int n, int k, int l) {
+  const int size = static_cast<int>(G.size());
+  for (int x : {m, n, k, l})
+    if (x < 0 || x >= size) throw std::invalid_argument("FourTerminalResistance: contact index out of range");
+  if (m == n) throw std::invalid_argument("FourTerminalResistance: current contacts must differ");
+  // Ground n, inject 1 A at m, every other contact floats: solve G' V' = e_m without row/column n.
+  Eigen::MatrixXd A(size - 1, size - 1);
+  Eigen::VectorXd b = Eigen::VectorXd::Zero(size - 1);
+  auto red = [n](int i) { return i < n ? i : i - 1; };
+  for (int i = 0; i < size; ++i) {
+    if (i == n) continue;
+    for (int j = 0; j < size; ++j)
+      if (j != n) A(red(i), red(j)) = G[static_cast<std::size_t>(i)][static_cast<std::size_t>(j)];
+  }
+  b(red(m)) = 1.0;
+  const Eigen::FullPivLU<Eigen::MatrixXd> lu(A);
+  if (!lu.isInvertible()) throw std::runtime_error("the voltages are undetermined: some contacts are not connected");
+  const Eigen::VectorXd v = lu.solve(b);
+  auto volt = [&](int i) { return i == n ? 0.0 : v(red(i)); };
+  return volt(k) - volt(l);
+}
+
+TransportResult SolveTransport(const Design& d, const EdgeNetwork& net) {
+  TransportResult r;
+  r.field_T = net.field_T;
+  const int nc = static_cast<int>(d.contacts.size());
+  const int nk = static_cast<int>(d.channels.size());
+  auto add = [&](Severity s, std::string code, std::string msg, const SourceLocation& where) {
+    r.findings.push_back({s, std::move(code), std::move(msg), where});
+  };
+  for (const Finding& f : net.findings)
+    if (f.severity == Severity::kError) throw std::runtime_error("SolveTransport: the edge network has errors: " + f.message);
+
+  std::vector<ChannelChain> chains;
+  std::vector<double> g;
+  for (int k = 0; k < nk; ++k) {
+    chains.push_back(build_chain(d, net, k));
+    g.push_back(d.channels[static_cast<std::size_t>(k)].conductance.value());
+    Matrix t(static_cast<std::size_t>(nc), std::vector<double>(static_cast<std::size_t>(nc), 0.0));
+    std::vector<double> m(static_cast<std::size_t>(nc), 0.0);
+    for (int j = 0; j < nc; ++j)
+      for (int s : chains.back().emitted_by[static_cast<std::size_t>(j)]) {
+        m[static_cast<std::size_t>(j)] += 1.0;
+        for (int i = 0; i < nc; ++i) t[static_cast<std::size_t>(i)][static_cast<std::size_t>(j)] += chains.back().absorb(s, i);
+      }
+    r.transmission.push_back(std::move(t));
+    r.emitted.push_back(std::move(m));
+  }
+  r.conductance_S = ConductanceFromTransmissions(r.transmission, r.emitted, g);
+  const Matrix& G = r.conductance_S;
+
+  // Wiring: voltages fixed at voltage sources, grounds and amplifiers; currents fixed elsewhere.
+  std::vector<char> known(static_cast<std::size_t>(nc), 0);
+  std::vector<double> v(static_cast<std::size_t>(nc), 0.0), i_fixed(static_cast<std::size_t>(nc), 0.0);
+  for (int j = 0; j < nc; ++j) {
+    const Wiring& w = d.wiring[static_cast<std::size_t>(j)];
+    if (w.role == Role::kSource && !w.bias_is_current) {
+      known[static_cast<std::size_t>(j)] = 1;
+      v[static_cast<std::size_t>(j)] = w.bias;
+    } else if (w.role == Role::kGround || w.role == Role::kAmplifier) {
+      known[static_cast<std::size_t>(j)] = 1;
+    } else if (w.role == Role::kSource) {
+      i_fixed[static_cast<std::size_t>(j)] = w.bias;
+    }
+  }
+  // Unknown contacts coupled (through G) to no known one have undetermined voltages.
+  std::vector<char> determined = known;
+  for (bool changed = true; changed;) {
+    changed = false;
+    for (int a = 0; a < nc; ++a) {
+      if (determined[static_cast<std::size_t>(a)]) continue;
+      for (int b = 0; b < nc; ++b)
+        if (determined[static_cast<std::size_t>(b)] &&
+            (std::abs(G[static_cast<std::size_t>(a)][static_cast<std::size_t>(b)]) > 0.0 ||
+             std::abs(G[static_cast<std::size_t>(b)][static_cast<std::size_t>(a)]) > 0.0)) {
+          determined[static_cast<std::size_t>(a)] = 1;
+          changed = true;
+          break;
+        }
+    }
+  }
+  std::vector<int> unknown;
+  for (int j = 0; j < nc; ++j) {
+    if (known[static_cast<std::size_t>(j)]) continue;
+    if (determined[static_cast<std::size_t>(j)]) {
+      unknown.push_back(j);
+      continue;
+    }
+    const Wiring& w = d.wiring[static_cast<std::size_t>(j)];
+    if (w.role == Role::kSource)
+      add(Severity::kError, "current-nowhere",
+          "current source " + w.contact + " is not connected through any edge to a grounded contact or a voltage source",
+          w.where);
+    else
+      add(Severity::kWarning, "float-undetermined",
+          "floating contact " + w.contact + " is connected to nothing that sets its potential; its voltage is undetermined",
+          w.where);
+  }
+  if (!unknown.empty()) {
+    const int u = static_cast<int>(unknown.size());
+    Eigen::MatrixXd A(u, u);
+    Eigen::VectorXd b(u);
+    for (int a = 0; a < u; ++a) {
+      const auto ia = static_cast<std::size_t>(unknown[static_cast<std::size_t>(a)]);
+      b(a) = i_fixed[ia];
+      for (int j = 0; j < nc; ++j)
+        if (known[static_cast<std::size_t>(j)]) b(a) -= G[ia][static_cast<std::size_t>(j)] * v[static_cast<std::size_t>(j)];
+      for (int c = 0; c < u; ++c) A(a, c) = G[ia][static_cast<std::size_t>(unknown[static_cast<std::size_t>(c)])];
+    }
+    const Eigen::FullPivLU<Eigen::MatrixXd> lu(A);
+    if (!lu.isInvertible()) throw std::runtime_error("the wiring leaves the contact voltages undetermined");
+    const Eigen::VectorXd x = lu.solve(b);
+    for (int a = 0; a < u; ++a) v[static_cast<std::size_t>(unknown[static_cast<std::size_t>(a)])] = x(a);
+  }
+  r.current_A.assign(static_cast<std::size_t>(nc), 0.0);
+  for (int a = 0; a < nc; ++a) {
+    r.voltage_V.push_back(determined[static_cast<std::size_t>(a)] ? std::optional<double>(v[static_cast<std::size_t>(a)])
+                                                                  : std::nullopt);
+    for (int b = 0; b < nc; ++b)
+      if (determined[static_cast<std::size_t>(b)])
+        r.current_A[static_cast<std::size_t>(a)] += G[static_cast<std::size_t>(a)][static_cast<std::size_t>(b)] * v[static_cast<std::size_t>(b)];
+  }
+  for (int j = 0; j < nc; ++j) {
+    if (d.wiring[static_cast<std::size_t>(j)].role != Role::kSource) continue;
+    TransportResult::SourceResistance s{j, std::nullopt};
+    const double i = r.current_A[static_cast<std::size_t>(j)];
+    if (std::abs(i) > 1e-30 && r.voltage_V[static_cast<std::size_t>(j)]) s.resistance_Ohm = *r.voltage_V[static_cast<std::size_t>(j)] / i;
+    r.sources.push_back(s);
+  }
+
+  // Routes from every source, per channel.
+  for (int k = 0; k < nk; ++k) {
+    const ChannelChain& c = chains[static_cast<std::size_t>(k)];
+    for (int j = 0; j < nc; ++j) {
+      if (d.wiring[static_cast<std::size_t>(j)].role != Role::kSource || c.emitted_by[static_cast<std::size_t>(j)].empty()) continue;
+      Route route;
+      route.source = j;
+      route.channel = k;
+      const double mj = r.emitted[static_cast<std::size_t>(k)][static_cast<std::size_t>(j)];
+      route.reaching.assign(static_cast<std::size_t>(nc), 0.0);
+      route.via.assign(static_cast<std::size_t>(nc), {});
+      for (int i = 0; i < nc; ++i) route.reaching[static_cast<std::size_t>(i)] = r.transmission[static_cast<std::size_t>(k)][static_cast<std::size_t>(i)][static_cast<std::size_t>(j)] / mj;
+      for (std::size_t s = 0; s < c.pieces.size(); ++s) {
+        const double f = c.flux(static_cast<int>(s), j) / mj;
+        if (f > kTiny) route.legs.push_back({c.pieces[s], f});
+      }
+      // Constrictions on the way to contact i: fed by the source and feeding i.
+      for (std::size_t q = 0; q < d.constrictions.size(); ++q) {
+        bool fed = false;
+        std::vector<double> feeds(static_cast<std::size_t>(nc), 0.0);
+        for (std::size_t s = 0; s < c.pieces.size(); ++s) {
+          const EdgePiece& p = net.pieces[static_cast<std::size_t>(c.pieces[s])];
+          if (p.to.kind == EdgeEnd::Kind::kConstriction && p.to.index == static_cast<int>(q) && c.flux(static_cast<int>(s), j) > kTiny) fed = true;
+          if (p.from.kind == EdgeEnd::Kind::kConstriction && p.from.index == static_cast<int>(q))
+            for (int i = 0; i < nc; ++i) feeds[static_cast<std::size_t>(i)] += c.absorb(static_cast<int>(s), i);
+        }
+        if (!fed) continue;
+        for (int i = 0; i < nc; ++i)
+          if (feeds[static_cast<std::size_t>(i)] > kTiny && route.reaching[static_cast<std::size_t>(i)] > kTiny)
+            route.via[static_cast<std::size_t>(i)].push_back(static_cast<int>(q));
+      }
+      r.routes.push_back(std::move(route));
+    }
+  }
+
+  // Potentials carried by the edges, and the constrictions that partition a DC current.
+  double vmax = 0.0;
+  for (double x : v) vmax = std::max(vmax, std::abs(x));
+  r.piece_potential_V.assign(net.pieces.size(), 0.0);
+  for (int k = 0; k < nk; ++k) {
+    const ChannelChain& c = chains[static_cast<std::size_t>(k)];
+    for (std::size_t s = 0; s < c.pieces.size(); ++s) {
+      double mu = 0.0;
+      for (int j = 0; j < nc; ++j)
+        if (determined[static_cast<std::size_t>(j)]) mu += c.flux(static_cast<int>(s), j) * v[static_cast<std::size_t>(j)];
+      r.piece_potential_V[static_cast<std::size_t>(c.pieces[s])] = mu;
+    }
+  }
+  for (std::size_t q = 0; q < d.constrictions.size(); ++q)
+    for (int k = 0; k < nk; ++k) {
+      const double t = d.constrictions[q].transmission[static_cast<std::size_t>(k)];
+      if (!(t > kTiny && t < 1.0 - kTiny)) continue;
+      std::optional<double> mu[2];
+      for (std::size_t p = 0; p < net.pieces.size(); ++p) {
+        const EdgePiece& e = net.pieces[p];
+        if (e.channel == k && e.to.kind == EdgeEnd::Kind::kConstriction && e.to.index == static_cast<int>(q))
+          mu[e.to.face] = r.piece_potential_V[p];
+      }
+      if (mu[0] && mu[1] && std::abs(*mu[0] - *mu[1]) > 1e-9 * vmax)
+        r.partitioning.push_back({static_cast<int>(q), k, *mu[0] - *mu[1]});
+    }
+
+  // Wiring warnings.
+  auto total_t = [&](int i, int j) {
+    double s = 0.0;
+    for (int k = 0; k < nk; ++k) s += r.transmission[static_cast<std::size_t>(k)][static_cast<std::size_t>(i)][static_cast<std::size_t>(j)];
+    return s;
+  };
+  auto total_m = [&](int j) {
+    double s = 0.0;
+    for (int k = 0; k < nk; ++k) s += r.emitted[static_cast<std::size_t>(k)][static_cast<std::size_t>(j)];
+    return s;
+  };
+  // Contacts that current from a source reaches, directly or through floating contacts.
+  std::vector<char> fed(static_cast<std::size_t>(nc), 0);
+  for (int j = 0; j < nc; ++j) fed[static_cast<std::size_t>(j)] = d.wiring[static_cast<std::size_t>(j)].role == Role::kSource;
+  for (bool changed = true; changed;) {
+    changed = false;
+    for (int i = 0; i < nc; ++i) {
+      if (fed[static_cast<std::size_t>(i)]) continue;
+      for (int j = 0; j < nc; ++j) {
+        const Role rj = d.wiring[static_cast<std::size_t>(j)].role;
+        if (j != i && fed[static_cast<std::size_t>(j)] && (rj == Role::kSource || rj == Role::kFloat) && total_t(i, j) > kTiny) {
+          fed[static_cast<std::size_t>(i)] = 1;
+          changed = true;
+          break;
+        }
+      }
+    }
+  }
+  // downstream[a][b]: current absorbed at a reaches b, a itself or through floating contacts that re-emit it.
+  std::vector<std::vector<char>> downstream(static_cast<std::size_t>(nc), std::vector<char>(static_cast<std::size_t>(nc), 0));
+  for (int a = 0; a < nc; ++a) {
+    std::vector<int> stack{a};
+    while (!stack.empty()) {
+      const int x = stack.back();
+      stack.pop_back();
+      if (downstream[static_cast<std::size_t>(a)][static_cast<std::size_t>(x)]) continue;
+      downstream[static_cast<std::size_t>(a)][static_cast<std::size_t>(x)] = 1;
+      if (d.wiring[static_cast<std::size_t>(x)].role != Role::kFloat) continue;
+      for (int y = 0; y < nc; ++y)
+        if (y != x && total_t(y, x) > kTiny) stack.push_back(y);
+    }
+  }
+  for (int i = 0; i < nc; ++i) {
+    const Wiring& w = d.wiring[static_cast<std::size_t>(i)];
+    const std::string& name = w.contact;
+    if (total_m(i) == 0.0) {
+      const bool needed = w.role == Role::kSource || w.role == Role::kAmplifier;
+      add(needed ? Severity::kError : Severity::kWarning, "contact-untouched",
+          "no edge channel touches contact " + name + (needed ? " (a " + ToString(w.role) + " must be on an edge)" : ""),
+          d.contacts[static_cast<std::size_t>(i)].where);
+      continue;
+    }
+    double from_others = 0.0;
+    for (int j = 0; j < nc; ++j)
+      if (j != i) from_others += total_t(i, j);
+    if (w.role == Role::kFloat && !fed[static_cast<std::size_t>(i)])
+      add(Severity::kWarning, "float-unset",
+          "floating contact " + name + " receives no current from any source, directly or through other floating contacts: "
+          "its potential is set by no source", w.where);
+    if (w.role == Role::kGround && from_others <= kTiny)
+      add(Severity::kWarning, "ground-idle", "ground " + name + " receives no edge from any other contact", w.where);
+    if (w.role == Role::kSource && total_m(i) - total_t(i, i) <= kTiny)
+      add(Severity::kWarning, "source-returns", "all of the current that source " + name + " emits returns to it", w.where);
+    if (w.role != Role::kAmplifier) continue;
+    bool partitioned = false;
+    for (const auto& site : r.partitioning) {
+      const ChannelChain& c = chains[static_cast<std::size_t>(site.channel)];
+      for (std::size_t s = 0; s < c.pieces.size(); ++s) {
+        const EdgePiece& e = net.pieces[static_cast<std::size_t>(c.pieces[s])];
+        if (e.from.kind != EdgeEnd::Kind::kConstriction || e.from.index != site.constriction) continue;
+        for (int a = 0; a < nc; ++a)
+          if (c.absorb(static_cast<int>(s), a) > kTiny && downstream[static_cast<std::size_t>(a)][static_cast<std::size_t>(i)])
+            partitioned = true;
+      }
+    }
+    if (!partitioned)
+      add(Severity::kWarning, "amplifier-unpartitioned",
+          "amplifier " + name + " sees no partitioned current from any source: its noise would be thermal only", w.where);
+    for (const EdgePiece& p : net.pieces)
+      if (p.to.kind == EdgeEnd::Kind::kContact && p.to.index == i && p.from.kind == EdgeEnd::Kind::kContact &&
+          d.wiring[static_cast<std::size_t>(p.from.index)].role == Role::kSource) {
+        add(Severity::kWarning, "amplifier-direct",
+            "DC current from source " + d.wiring[static_cast<std::size_t>(p.from.index)].contact + " reaches amplifier " + name +
+                " along channel " + std::to_string(p.channel + 1) + " without crossing any constriction",
+            w.where);
+        break;
+      }
+  }
+  return r;
+}
+
+}  // namespace hallway
