@@ -26,7 +26,8 @@ int main(int argc, char** argv) {
   s->add_option("design", solve.design_path, "Design file (YAML)")->required();
   s->add_option("--json", solve.json_path, "Also write the results as JSON to this file");
   s->add_flag("--field-reversed", solve.reversed_only, "Solve only the reversed field -B");
-  s->add_option("--four-terminal", solve.four_terminal, "Print R = (V+ - V-)/I for current I from I+ to I-: I+,I-,V+,V-");
+  s->add_option("--four-terminal", solve.four_terminal,
+                "Print R = (V+ - V-)/I for current I from I+ to I-: I+,I-,V+,V-");
 
   try {
     app.parse(argc, argv);

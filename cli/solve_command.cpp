@@ -18,15 +18,17 @@
 namespace hallway::cli {
 namespace {
 
-using units::FormatSI;
 using nlohmann::json;
+using units::FormatSI;
 
 struct Solved {
   EdgeNetwork network;
   TransportResult transport;
 };
 
-std::string field_text(double b) { return fmt::format("{:+.4g} T", b); }
+std::string field_text(double b) {
+  return fmt::format("{:+.4g} T", b);
+}
 
 void print_matrix(std::string& out, const Design& d, const Matrix& m, double scale, const char* cell) {
   out += fmt::format("  {:>8}", "");
@@ -42,7 +44,9 @@ void print_matrix(std::string& out, const Design& d, const Matrix& m, double sca
   }
 }
 
-std::string volt_text(const std::optional<double>& v) { return v ? FormatSI(*v, "V") : std::string("undetermined"); }
+std::string volt_text(const std::optional<double>& v) {
+  return v ? FormatSI(*v, "V") : std::string("undetermined");
+}
 
 void print_field(std::string& out, const Design& d, const Solved& s) {
   const TransportResult& t = s.transport;
@@ -57,28 +61,32 @@ void print_field(std::string& out, const Design& d, const Solved& s) {
     out += fmt::format("    {:<8} {:<10} {:>14} {:>14}\n", d.contacts[i].name, ToString(d.wiring[i].role),
                        volt_text(t.voltage_V[i]), FormatSI(t.current_A[i], "A"));
   for (const auto& src : t.sources)
-    out += fmt::format("  source {} sees a two-terminal resistance of {}\n", d.contacts[static_cast<std::size_t>(src.contact)].name,
-                       src.resistance_Ohm ? FormatSI(*src.resistance_Ohm, "Ohm") + fmt::format(" ({:.4f} h/e^2)", *src.resistance_Ohm / constants::kVonKlitzing_Ohm)
-                                          : std::string("(no current flows)"));
+    out += fmt::format(
+        "  source {} sees a two-terminal resistance of {}\n", d.contacts[static_cast<std::size_t>(src.contact)].name,
+        src.resistance_Ohm ? FormatSI(*src.resistance_Ohm, "Ohm") +
+                                 fmt::format(" ({:.4f} h/e^2)", *src.resistance_Ohm / constants::kVonKlitzing_Ohm)
+                           : std::string("(no current flows)"));
   out += "  routes (fraction of each source's current per channel; edge lengths along the edge)\n";
   for (const Route& r : t.routes) {
-    out += fmt::format("    from {} on channel {}:", d.contacts[static_cast<std::size_t>(r.source)].name, r.channel + 1);
+    out +=
+        fmt::format("    from {} on channel {}:", d.contacts[static_cast<std::size_t>(r.source)].name, r.channel + 1);
     for (std::size_t i = 0; i < r.reaching.size(); ++i) {
       if (r.reaching[i] <= 1e-12) continue;
       std::string via;
       for (int q : r.via[i]) via += (via.empty() ? "" : ", ") + d.constrictions[static_cast<std::size_t>(q)].name;
-      out += fmt::format(" {} {:.1f}%{}", d.contacts[i].name, 100.0 * r.reaching[i], via.empty() ? "" : " (via " + via + ")");
+      out += fmt::format(" {} {:.1f}%{}", d.contacts[i].name, 100.0 * r.reaching[i],
+                         via.empty() ? "" : " (via " + via + ")");
     }
     out += "\n";
     for (const RouteLeg& leg : r.legs) {
       const EdgePiece& p = s.network.pieces[static_cast<std::size_t>(leg.piece)];
-      out += fmt::format("        {:>14} -> {:<14} {:>10}  carries {:.3f}\n", DescribeEnd(d, p.from), DescribeEnd(d, p.to),
-                         FormatSI(p.length_m, "m"), leg.fraction);
+      out += fmt::format("        {:>14} -> {:<14} {:>10}  carries {:.3f}\n", DescribeEnd(d, p.from),
+                         DescribeEnd(d, p.to), FormatSI(p.length_m, "m"), leg.fraction);
     }
   }
   for (const ClosedEdge& c : s.network.closed)
-    out += fmt::format("  closed edge of channel {} touching no contact: length {}, enclosing {:.4g} um^2\n", c.channel + 1,
-                       FormatSI(c.length_m, "m"), c.enclosed_area_m2 * 1e12);
+    out += fmt::format("  closed edge of channel {} touching no contact: length {}, enclosing {:.4g} um^2\n",
+                       c.channel + 1, FormatSI(c.length_m, "m"), c.enclosed_area_m2 * 1e12);
 }
 
 json field_json(const Design& d, const Solved& s) {
@@ -95,7 +103,8 @@ json field_json(const Design& d, const Solved& s) {
   j["currents_A"] = i;
   json res = json::object();
   for (const auto& src : t.sources)
-    res[d.contacts[static_cast<std::size_t>(src.contact)].name] = src.resistance_Ohm ? json(*src.resistance_Ohm) : json(nullptr);
+    res[d.contacts[static_cast<std::size_t>(src.contact)].name] =
+        src.resistance_Ohm ? json(*src.resistance_Ohm) : json(nullptr);
   j["two_terminal_resistance_Ohm"] = res;
   json routes = json::array();
   for (const Route& r : t.routes) {
@@ -113,15 +122,20 @@ json field_json(const Design& d, const Solved& s) {
     json legs = json::array();
     for (const RouteLeg& leg : r.legs) {
       const EdgePiece& p = s.network.pieces[static_cast<std::size_t>(leg.piece)];
-      legs.push_back({{"from", DescribeEnd(d, p.from)}, {"to", DescribeEnd(d, p.to)}, {"length_m", p.length_m}, {"fraction", leg.fraction}});
+      legs.push_back({{"from", DescribeEnd(d, p.from)},
+                      {"to", DescribeEnd(d, p.to)},
+                      {"length_m", p.length_m},
+                      {"fraction", leg.fraction}});
     }
     x["legs"] = legs;
     routes.push_back(x);
   }
   j["routes"] = routes;
   json w = json::array();
-  for (const Finding& f : s.network.findings) w.push_back({{"code", f.code}, {"severity", ToString(f.severity)}, {"message", f.message}});
-  for (const Finding& f : t.findings) w.push_back({{"code", f.code}, {"severity", ToString(f.severity)}, {"message", f.message}});
+  for (const Finding& f : s.network.findings)
+    w.push_back({{"code", f.code}, {"severity", ToString(f.severity)}, {"message", f.message}});
+  for (const Finding& f : t.findings)
+    w.push_back({{"code", f.code}, {"severity", ToString(f.severity)}, {"message", f.message}});
   j["warnings"] = w;
   return j;
 }
@@ -173,7 +187,8 @@ int RunSolve(const SolveArgs& args) {
   const CheckResult check = CheckDesign(d);
   if (!check.ok()) {
     for (const Finding& f : check.findings)
-      if (f.severity == Severity::kError) std::cerr << "hallway: design error: " << f.where.ToString() << ": " << f.message << "\n";
+      if (f.severity == Severity::kError)
+        std::cerr << "hallway: design error: " << f.where.ToString() << ": " << f.message << "\n";
     std::cerr << "hallway: run `hallway check` for the full list; nothing was solved\n";
     return kExitDesignError;
   }
@@ -197,22 +212,25 @@ int RunSolve(const SolveArgs& args) {
     solved.push_back({std::move(net), std::move(t)});
   }
   if (!errors.empty()) {
-    for (const Finding& f : errors) std::cerr << "hallway: design error: " << f.where.ToString() << ": " << f.message << "\n";
+    for (const Finding& f : errors)
+      std::cerr << "hallway: design error: " << f.where.ToString() << ": " << f.message << "\n";
     return kExitDesignError;
   }
 
   std::string out = fmt::format("hallway solve  {}\n", d.path);
   if (!d.name.empty()) out += fmt::format("  design: {}\n", d.name);
   out += fmt::format("  bulk filling nu = {}, design field {}; {}\n", d.conditions.filling.ToString(),
-                     field_text(d.conditions.field_T), args.reversed_only ? "solving the reversed field only" : "also solving the reversed field");
+                     field_text(d.conditions.field_T),
+                     args.reversed_only ? "solving the reversed field only" : "also solving the reversed field");
   out += fmt::format("  edge boundaries: {}\n", geometry.model);
   out += "\nWhere the channels run\n";
   for (const ChannelRegion& cr : geometry.channels) {
     std::string refl, pass;
     for (const auto& n : cr.reflecting) refl += (refl.empty() ? "" : ", ") + n;
     for (const auto& n : cr.passing) pass += (pass.empty() ? "" : ", ") + n;
-    out += fmt::format("  channel {} ({} e^2/h): reflected by [{}], passes under [{}], area {:.4g} um^2\n", cr.channel + 1,
-                       d.channels[static_cast<std::size_t>(cr.channel)].conductance.ToString(), refl, pass, cr.region.Area() * 1e12);
+    out += fmt::format("  channel {} ({} e^2/h): reflected by [{}], passes under [{}], area {:.4g} um^2\n",
+                       cr.channel + 1, d.channels[static_cast<std::size_t>(cr.channel)].conductance.ToString(), refl,
+                       pass, cr.region.Area() * 1e12);
   }
   for (std::size_t i = 0; i < d.gates.size(); ++i)
     out += fmt::format("  gate {}: lateral depletion {}, local filling under it {:.3g}\n", d.gates[i].name,
@@ -224,8 +242,9 @@ int RunSolve(const SolveArgs& args) {
     const auto& b = solved[1].transport;
     bool any = false;
     for (std::size_t i = 0; i < d.contacts.size(); ++i) {
-      const bool dv = a.voltage_V[i].has_value() != b.voltage_V[i].has_value() ||
-                      (a.voltage_V[i] && std::abs(*a.voltage_V[i] - *b.voltage_V[i]) > 1e-12 * (1e-6 + std::abs(*a.voltage_V[i])));
+      const bool dv =
+          a.voltage_V[i].has_value() != b.voltage_V[i].has_value() ||
+          (a.voltage_V[i] && std::abs(*a.voltage_V[i] - *b.voltage_V[i]) > 1e-12 * (1e-6 + std::abs(*a.voltage_V[i])));
       const bool di = std::abs(a.current_A[i] - b.current_A[i]) > 1e-6 * (1e-15 + std::abs(a.current_A[i]));
       if (dv || di) {
         any = true;
@@ -240,8 +259,8 @@ int RunSolve(const SolveArgs& args) {
     for (const Solved& s : solved) {
       try {
         const double r4 = FourTerminalResistance(s.transport.conductance_S, four[0], four[1], four[2], four[3]);
-        out += fmt::format("  R({}) at B = {}: {} ({:.6f} h/e^2)\n", args.four_terminal, field_text(s.transport.field_T),
-                           FormatSI(r4, "Ohm"), r4 / constants::kVonKlitzing_Ohm);
+        out += fmt::format("  R({}) at B = {}: {} ({:.6f} h/e^2)\n", args.four_terminal,
+                           field_text(s.transport.field_T), FormatSI(r4, "Ohm"), r4 / constants::kVonKlitzing_Ohm);
       } catch (const std::runtime_error& e) {
         out += fmt::format("  R({}) at B = {}: {}\n", args.four_terminal, field_text(s.transport.field_T), e.what());
       }
@@ -250,16 +269,19 @@ int RunSolve(const SolveArgs& args) {
   std::vector<std::string> warnings;
   for (const Finding& f : geometry.findings) warnings.push_back(f.message);
   for (const Solved& s : solved) {
-    for (const Finding& f : s.network.findings) warnings.push_back(fmt::format("[B = {}] {}", field_text(s.transport.field_T), f.message));
-    for (const Finding& f : s.transport.findings) warnings.push_back(fmt::format("[B = {}] {}", field_text(s.transport.field_T), f.message));
+    for (const Finding& f : s.network.findings)
+      warnings.push_back(fmt::format("[B = {}] {}", field_text(s.transport.field_T), f.message));
+    for (const Finding& f : s.transport.findings)
+      warnings.push_back(fmt::format("[B = {}] {}", field_text(s.transport.field_T), f.message));
   }
   for (const Finding& f : check.findings) warnings.insert(warnings.begin(), f.message);
   if (!warnings.empty()) {
     out += "\nWarnings\n";
     for (const auto& w : warnings) out += "  - " + w + "\n";
   }
-  out += "\nAll figures are model estimates. A gate voltage past the leakage or breakdown onset can destroy a\n"
-         "sample; follow your lab's own safety rules for cryostats, magnets and electronics.\n";
+  out +=
+      "\nAll figures are model estimates. A gate voltage past the leakage or breakdown onset can destroy a\n"
+      "sample; follow your lab's own safety rules for cryostats, magnets and electronics.\n";
   std::cout << out;
 
   if (!args.json_path.empty()) {
@@ -272,8 +294,10 @@ int RunSolve(const SolveArgs& args) {
     for (const Contact& c : d.contacts) contacts.push_back(c.name);
     j["contacts"] = contacts;
     json gw = json::array();
-    for (const Finding& f : check.findings) gw.push_back({{"code", f.code}, {"severity", ToString(f.severity)}, {"message", f.message}});
-    for (const Finding& f : geometry.findings) gw.push_back({{"code", f.code}, {"severity", ToString(f.severity)}, {"message", f.message}});
+    for (const Finding& f : check.findings)
+      gw.push_back({{"code", f.code}, {"severity", ToString(f.severity)}, {"message", f.message}});
+    for (const Finding& f : geometry.findings)
+      gw.push_back({{"code", f.code}, {"severity", ToString(f.severity)}, {"message", f.message}});
     for (auto& w : j["warnings"]) gw.push_back(w);
     j["warnings"] = gw;
     if (solved.size() == 2) j["reversed_field"] = field_json(d, solved[1]);

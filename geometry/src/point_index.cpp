@@ -36,8 +36,12 @@ PointIndex::PointIndex(std::vector<Point> points) : impl_(std::make_unique<Impl>
 
 PointIndex::~PointIndex() = default;
 
-std::size_t PointIndex::size() const { return impl_->cloud.pts.size(); }
-const Point& PointIndex::point(std::size_t i) const { return impl_->cloud.pts.at(i); }
+std::size_t PointIndex::size() const {
+  return impl_->cloud.pts.size();
+}
+const Point& PointIndex::point(std::size_t i) const {
+  return impl_->cloud.pts.at(i);
+}
 
 std::size_t PointIndex::Nearest(Point q) const {
   if (size() == 0) throw std::logic_error("PointIndex::Nearest on an empty set");

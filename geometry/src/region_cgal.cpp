@@ -68,7 +68,9 @@ struct Region::Impl {
 };
 
 Region::Region() : impl_(std::make_unique<Impl>()) {}
-Region::Region(const Polygon& p) : Region() { impl_->set.insert(to_cgal(p)); }
+Region::Region(const Polygon& p) : Region() {
+  impl_->set.insert(to_cgal(p));
+}
 Region::Region(const Region& o) : impl_(std::make_unique<Impl>(*o.impl_)) {}
 Region::Region(Region&& o) noexcept = default;
 Region& Region::operator=(const Region& o) {
@@ -78,7 +80,9 @@ Region& Region::operator=(const Region& o) {
 Region& Region::operator=(Region&& o) noexcept = default;
 Region::~Region() = default;
 
-bool Region::empty() const { return impl_->set.is_empty(); }
+bool Region::empty() const {
+  return impl_->set.is_empty();
+}
 
 Region Region::Offset(double r, int segments) const {
   if (segments < 8) throw std::invalid_argument("Region::Offset: segments must be >= 8");
@@ -102,7 +106,9 @@ Region Region::Offset(double r, int segments) const {
     xmax = std::max(xmax, bb.xmax);
     ymax = std::max(ymax, bb.ymax);
   }
-  const Polygon box{{{xmin - 2 * a, ymin - 2 * a}, {xmax + 2 * a, ymin - 2 * a}, {xmax + 2 * a, ymax + 2 * a},
+  const Polygon box{{{xmin - 2 * a, ymin - 2 * a},
+                     {xmax + 2 * a, ymin - 2 * a},
+                     {xmax + 2 * a, ymax + 2 * a},
                      {xmin - 2 * a, ymax + 2 * a}}};
   Set outside;
   outside.insert(to_cgal(box));

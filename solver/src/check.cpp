@@ -66,7 +66,8 @@ std::optional<geometry::ClosestPair> FindGap(const Design& d, const Constriction
     std::vector<std::size_t> others;
     for (std::size_t e = 0; e < mesa.vertices.size(); ++e)
       if (std::find(touching.begin(), touching.end(), e) == touching.end()) others.push_back(e);
-    if (others.empty()) return fail("gate " + g1->name + " reaches every edge of the mesa, so no gap to the mesa edge is left");
+    if (others.empty())
+      return fail("gate " + g1->name + " reaches every edge of the mesa, so no gap to the mesa edge is left");
     cp = geometry::closest_boundary_points(g1->outline, mesa, others);
   } else {
     const Gate* g2 = d.FindGate(k.second);

@@ -34,7 +34,9 @@ std::string DescribeEnd(const Design& d, const EdgeEnd& e) {
 
 namespace {
 
-Point add(Point a, Point b, double s = 1.0) { return {a.x + s * b.x, a.y + s * b.y}; }
+Point add(Point a, Point b, double s = 1.0) {
+  return {a.x + s * b.x, a.y + s * b.y};
+}
 
 // Rectangle along the segment [a - u*ext_a, b + u*ext_b] with half-width h.
 Polygon strip(Point a, Point b, Point u, Point n, double ext_a, double ext_b, double h) {
@@ -88,10 +90,10 @@ ChannelGeometry BuildChannelGeometry(const Design& d, const NetworkOptions& opt)
   const Region mesa(d.mesa.outline);
   const Region base = mesa.Offset(-d.mesa.etch_depletion_m, opt.disc_segments);
   if (base.empty())
-    g.findings.push_back({Severity::kError, "mesa-etched-away",
-                          "the etch depletion (" + units::FormatSI(d.mesa.etch_depletion_m, "m") +
-                              ") leaves no 2DEG in the mesa",
-                          d.mesa.where});
+    g.findings.push_back(
+        {Severity::kError, "mesa-etched-away",
+         "the etch depletion (" + units::FormatSI(d.mesa.etch_depletion_m, "m") + ") leaves no 2DEG in the mesa",
+         d.mesa.where});
 
   // Slits across every constriction's gap.
   for (const Constriction& k : d.constrictions) {
@@ -106,7 +108,8 @@ ChannelGeometry BuildChannelGeometry(const Design& d, const NetworkOptions& opt)
       // Reach through the grown depletion into each side, so the slit always cuts the channel.
       const int ga = gate_index(k.first), gb = gate_index(k.second);
       s.ext_a_m = (ga >= 0 ? g.lateral_depletion_m[static_cast<std::size_t>(ga)] : 0.0) + 0.5 * s.gap_m;
-      s.ext_b_m = (gb >= 0 ? g.lateral_depletion_m[static_cast<std::size_t>(gb)] : d.mesa.etch_depletion_m) + 0.5 * s.gap_m;
+      s.ext_b_m =
+          (gb >= 0 ? g.lateral_depletion_m[static_cast<std::size_t>(gb)] : d.mesa.etch_depletion_m) + 0.5 * s.gap_m;
     }
     g.slits.push_back(s);
   }
@@ -145,9 +148,9 @@ ChannelGeometry BuildChannelGeometry(const Design& d, const NetworkOptions& opt)
       if (!side_a && !side_b) {
         if (t < 1.0)
           warn("constriction-passed-under",
-               "constriction " + k.name + ": " + chname + " passes under both its gates (their local filling is above " +
-                   fmt_g(c) + "), but the design gives transmission " + fmt_g(t) +
-                   "; this channel ignores the constriction",
+               "constriction " + k.name + ": " + chname +
+                   " passes under both its gates (their local filling is above " + fmt_g(c) +
+                   "), but the design gives transmission " + fmt_g(t) + "; this channel ignores the constriction",
                k.where);
         continue;
       }
@@ -218,7 +221,8 @@ class Tracer {
       const Point u{s.n.y, -s.n.x};
       for (int f = 0; f < 2; ++f) {
         const double side = f == 0 ? s.half_width_m : -s.half_width_m;
-        Face face{static_cast<int>(k), f, add(add(s.a, u, -s.ext_a_m), s.n, side), add(add(s.b, u, s.ext_b_m), s.n, side)};
+        Face face{static_cast<int>(k), f, add(add(s.a, u, -s.ext_a_m), s.n, side),
+                  add(add(s.b, u, s.ext_b_m), s.n, side)};
         const double len = geometry::distance(face.p0, face.p1);
         const int n = std::max(2, static_cast<int>(std::ceil(len / (0.5 * s.half_width_m))));
         for (int i = 0; i <= n; ++i) {
@@ -355,12 +359,12 @@ EdgeNetwork TraceEdges(const Design& d, const ChannelGeometry& g, double field_T
           outs += p.from == e;
         }
         if (ins != 1 || outs != 1)
-          net.findings.push_back(
-              {Severity::kError, "ports-not-found",
-               "constriction " + d.constrictions[static_cast<std::size_t>(k)].name + ": channel " +
-                   std::to_string(cr.channel + 1) + " meets face " + std::to_string(f) + " of its gap " +
-                   std::to_string(ins) + " times instead of once; the layout around the gap is too irregular to trace",
-               d.constrictions[static_cast<std::size_t>(k)].where});
+          net.findings.push_back({Severity::kError, "ports-not-found",
+                                  "constriction " + d.constrictions[static_cast<std::size_t>(k)].name + ": channel " +
+                                      std::to_string(cr.channel + 1) + " meets face " + std::to_string(f) +
+                                      " of its gap " + std::to_string(ins) +
+                                      " times instead of once; the layout around the gap is too irregular to trace",
+                                  d.constrictions[static_cast<std::size_t>(k)].where});
       }
     }
   }

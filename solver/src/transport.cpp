@@ -14,12 +14,12 @@ namespace {
 constexpr double kTiny = 1e-12;  // probabilities below this are numerical zero
 
 struct ChannelChain {
-  std::vector<int> pieces;                  // network piece index of each state
-  Eigen::MatrixXd P;                        // state -> state
-  Eigen::MatrixXd R;                        // state -> contact
-  Eigen::MatrixXd absorb;                   // state -> contact, solved
-  Eigen::MatrixXd flux;                     // state x source-contact: current fraction along the state
-  std::vector<std::vector<int>> emitted_by; // per contact: states it emits
+  std::vector<int> pieces;                   // network piece index of each state
+  Eigen::MatrixXd P;                         // state -> state
+  Eigen::MatrixXd R;                         // state -> contact
+  Eigen::MatrixXd absorb;                    // state -> contact, solved
+  Eigen::MatrixXd flux;                      // state x source-contact: current fraction along the state
+  std::vector<std::vector<int>> emitted_by;  // per contact: states it emits
 };
 
 int find_piece(const std::vector<int>& states, const std::vector<EdgePiece>& all, const EdgeEnd& from) {
@@ -44,10 +44,12 @@ ChannelChain build_chain(const Design& d, const EdgeNetwork& net, int channel) {
       c.R(s, p.to.index) = 1.0;
       continue;
     }
-    const double t = d.constrictions[static_cast<std::size_t>(p.to.index)].transmission[static_cast<std::size_t>(channel)];
+    const double t =
+        d.constrictions[static_cast<std::size_t>(p.to.index)].transmission[static_cast<std::size_t>(channel)];
     const int back = find_piece(c.pieces, net.pieces, {EdgeEnd::Kind::kConstriction, p.to.index, p.to.face});
     const int across = find_piece(c.pieces, net.pieces, {EdgeEnd::Kind::kConstriction, p.to.index, 1 - p.to.face});
-    if (back < 0 || across < 0) throw std::runtime_error("edge network has a constriction port without an outgoing edge");
+    if (back < 0 || across < 0)
+      throw std::runtime_error("edge network has a constriction port without an outgoing edge");
     c.P(s, back) += 1.0 - t;
     c.P(s, across) += t;
   }
@@ -140,7 +142,8 @@ TransportResult SolveTransport(const Design& d, const EdgeNetwork& net) {
     r.findings.push_back({s, std::move(code), std::move(msg), where});
   };
   for (const Finding& f : net.findings)
-    if (f.severity == Severity::kError) throw std::runtime_error("SolveTransport: the edge network has errors: " + f.message);
+    if (f.severity == Severity::kError)
+      throw std::runtime_error("SolveTransport: the edge network has errors: " + f.message);
 
   std::vector<ChannelChain> chains;
   std::vector<double> g;
@@ -152,7 +155,8 @@ TransportResult SolveTransport(const Design& d, const EdgeNetwork& net) {
     for (int j = 0; j < nc; ++j)
       for (int s : chains.back().emitted_by[static_cast<std::size_t>(j)]) {
         m[static_cast<std::size_t>(j)] += 1.0;
-        for (int i = 0; i < nc; ++i) t[static_cast<std::size_t>(i)][static_cast<std::size_t>(j)] += chains.back().absorb(s, i);
+        for (int i = 0; i < nc; ++i)
+          t[static_cast<std::size_t>(i)][static_cast<std::size_t>(j)] += chains.back().absorb(s, i);
       }
     r.transmission.push_back(std::move(t));
     r.emitted.push_back(std::move(m));
@@ -200,11 +204,13 @@ TransportResult SolveTransport(const Design& d, const EdgeNetwork& net) {
     const Wiring& w = d.wiring[static_cast<std::size_t>(j)];
     if (w.role == Role::kSource)
       add(Severity::kError, "current-nowhere",
-          "current source " + w.contact + " is not connected through any edge to a grounded contact or a voltage source",
+          "current source " + w.contact +
+              " is not connected through any edge to a grounded contact or a voltage source",
           w.where);
     else
       add(Severity::kWarning, "float-undetermined",
-          "floating contact " + w.contact + " is connected to nothing that sets its potential; its voltage is undetermined",
+          "floating contact " + w.contact +
+              " is connected to nothing that sets its potential; its voltage is undetermined",
           w.where);
   }
   if (!unknown.empty()) {
@@ -215,7 +221,8 @@ TransportResult SolveTransport(const Design& d, const EdgeNetwork& net) {
       const auto ia = static_cast<std::size_t>(unknown[static_cast<std::size_t>(a)]);
       b(a) = i_fixed[ia];
       for (int j = 0; j < nc; ++j)
-        if (known[static_cast<std::size_t>(j)]) b(a) -= G[ia][static_cast<std::size_t>(j)] * v[static_cast<std::size_t>(j)];
+        if (known[static_cast<std::size_t>(j)])
+          b(a) -= G[ia][static_cast<std::size_t>(j)] * v[static_cast<std::size_t>(j)];
       for (int c = 0; c < u; ++c) A(a, c) = G[ia][static_cast<std::size_t>(unknown[static_cast<std::size_t>(c)])];
     }
     const Eigen::FullPivLU<Eigen::MatrixXd> lu(A);
@@ -225,17 +232,19 @@ TransportResult SolveTransport(const Design& d, const EdgeNetwork& net) {
   }
   r.current_A.assign(static_cast<std::size_t>(nc), 0.0);
   for (int a = 0; a < nc; ++a) {
-    r.voltage_V.push_back(determined[static_cast<std::size_t>(a)] ? std::optional<double>(v[static_cast<std::size_t>(a)])
-                                                                  : std::nullopt);
+    r.voltage_V.push_back(
+        determined[static_cast<std::size_t>(a)] ? std::optional<double>(v[static_cast<std::size_t>(a)]) : std::nullopt);
     for (int b = 0; b < nc; ++b)
       if (determined[static_cast<std::size_t>(b)])
-        r.current_A[static_cast<std::size_t>(a)] += G[static_cast<std::size_t>(a)][static_cast<std::size_t>(b)] * v[static_cast<std::size_t>(b)];
+        r.current_A[static_cast<std::size_t>(a)] +=
+            G[static_cast<std::size_t>(a)][static_cast<std::size_t>(b)] * v[static_cast<std::size_t>(b)];
   }
   for (int j = 0; j < nc; ++j) {
     if (d.wiring[static_cast<std::size_t>(j)].role != Role::kSource) continue;
     TransportResult::SourceResistance s{j, std::nullopt};
     const double i = r.current_A[static_cast<std::size_t>(j)];
-    if (std::abs(i) > 1e-30 && r.voltage_V[static_cast<std::size_t>(j)]) s.resistance_Ohm = *r.voltage_V[static_cast<std::size_t>(j)] / i;
+    if (std::abs(i) > 1e-30 && r.voltage_V[static_cast<std::size_t>(j)])
+      s.resistance_Ohm = *r.voltage_V[static_cast<std::size_t>(j)] / i;
     r.sources.push_back(s);
   }
 
@@ -243,14 +252,18 @@ TransportResult SolveTransport(const Design& d, const EdgeNetwork& net) {
   for (int k = 0; k < nk; ++k) {
     const ChannelChain& c = chains[static_cast<std::size_t>(k)];
     for (int j = 0; j < nc; ++j) {
-      if (d.wiring[static_cast<std::size_t>(j)].role != Role::kSource || c.emitted_by[static_cast<std::size_t>(j)].empty()) continue;
+      if (d.wiring[static_cast<std::size_t>(j)].role != Role::kSource ||
+          c.emitted_by[static_cast<std::size_t>(j)].empty())
+        continue;
       Route route;
       route.source = j;
       route.channel = k;
       const double mj = r.emitted[static_cast<std::size_t>(k)][static_cast<std::size_t>(j)];
       route.reaching.assign(static_cast<std::size_t>(nc), 0.0);
       route.via.assign(static_cast<std::size_t>(nc), {});
-      for (int i = 0; i < nc; ++i) route.reaching[static_cast<std::size_t>(i)] = r.transmission[static_cast<std::size_t>(k)][static_cast<std::size_t>(i)][static_cast<std::size_t>(j)] / mj;
+      for (int i = 0; i < nc; ++i)
+        route.reaching[static_cast<std::size_t>(i)] =
+            r.transmission[static_cast<std::size_t>(k)][static_cast<std::size_t>(i)][static_cast<std::size_t>(j)] / mj;
       for (std::size_t s = 0; s < c.pieces.size(); ++s) {
         const double f = c.flux(static_cast<int>(s), j) / mj;
         if (f > kTiny) route.legs.push_back({c.pieces[s], f});
@@ -261,7 +274,9 @@ TransportResult SolveTransport(const Design& d, const EdgeNetwork& net) {
         std::vector<double> feeds(static_cast<std::size_t>(nc), 0.0);
         for (std::size_t s = 0; s < c.pieces.size(); ++s) {
           const EdgePiece& p = net.pieces[static_cast<std::size_t>(c.pieces[s])];
-          if (p.to.kind == EdgeEnd::Kind::kConstriction && p.to.index == static_cast<int>(q) && c.flux(static_cast<int>(s), j) > kTiny) fed = true;
+          if (p.to.kind == EdgeEnd::Kind::kConstriction && p.to.index == static_cast<int>(q) &&
+              c.flux(static_cast<int>(s), j) > kTiny)
+            fed = true;
           if (p.from.kind == EdgeEnd::Kind::kConstriction && p.from.index == static_cast<int>(q))
             for (int i = 0; i < nc; ++i) feeds[static_cast<std::size_t>(i)] += c.absorb(static_cast<int>(s), i);
         }
@@ -283,7 +298,8 @@ TransportResult SolveTransport(const Design& d, const EdgeNetwork& net) {
     for (std::size_t s = 0; s < c.pieces.size(); ++s) {
       double mu = 0.0;
       for (int j = 0; j < nc; ++j)
-        if (determined[static_cast<std::size_t>(j)]) mu += c.flux(static_cast<int>(s), j) * v[static_cast<std::size_t>(j)];
+        if (determined[static_cast<std::size_t>(j)])
+          mu += c.flux(static_cast<int>(s), j) * v[static_cast<std::size_t>(j)];
       r.piece_potential_V[static_cast<std::size_t>(c.pieces[s])] = mu;
     }
   }
@@ -304,7 +320,8 @@ TransportResult SolveTransport(const Design& d, const EdgeNetwork& net) {
   // Wiring warnings.
   auto total_t = [&](int i, int j) {
     double s = 0.0;
-    for (int k = 0; k < nk; ++k) s += r.transmission[static_cast<std::size_t>(k)][static_cast<std::size_t>(i)][static_cast<std::size_t>(j)];
+    for (int k = 0; k < nk; ++k)
+      s += r.transmission[static_cast<std::size_t>(k)][static_cast<std::size_t>(i)][static_cast<std::size_t>(j)];
     return s;
   };
   auto total_m = [&](int j) {
@@ -314,14 +331,16 @@ TransportResult SolveTransport(const Design& d, const EdgeNetwork& net) {
   };
   // Contacts that current from a source reaches, directly or through floating contacts.
   std::vector<char> fed(static_cast<std::size_t>(nc), 0);
-  for (int j = 0; j < nc; ++j) fed[static_cast<std::size_t>(j)] = d.wiring[static_cast<std::size_t>(j)].role == Role::kSource;
+  for (int j = 0; j < nc; ++j)
+    fed[static_cast<std::size_t>(j)] = d.wiring[static_cast<std::size_t>(j)].role == Role::kSource;
   for (bool changed = true; changed;) {
     changed = false;
     for (int i = 0; i < nc; ++i) {
       if (fed[static_cast<std::size_t>(i)]) continue;
       for (int j = 0; j < nc; ++j) {
         const Role rj = d.wiring[static_cast<std::size_t>(j)].role;
-        if (j != i && fed[static_cast<std::size_t>(j)] && (rj == Role::kSource || rj == Role::kFloat) && total_t(i, j) > kTiny) {
+        if (j != i && fed[static_cast<std::size_t>(j)] && (rj == Role::kSource || rj == Role::kFloat) &&
+            total_t(i, j) > kTiny) {
           fed[static_cast<std::size_t>(i)] = 1;
           changed = true;
           break;
@@ -330,7 +349,8 @@ TransportResult SolveTransport(const Design& d, const EdgeNetwork& net) {
     }
   }
   // downstream[a][b]: current absorbed at a reaches b, a itself or through floating contacts that re-emit it.
-  std::vector<std::vector<char>> downstream(static_cast<std::size_t>(nc), std::vector<char>(static_cast<std::size_t>(nc), 0));
+  std::vector<std::vector<char>> downstream(static_cast<std::size_t>(nc),
+                                            std::vector<char>(static_cast<std::size_t>(nc), 0));
   for (int a = 0; a < nc; ++a) {
     std::vector<int> stack{a};
     while (!stack.empty()) {
@@ -349,7 +369,8 @@ TransportResult SolveTransport(const Design& d, const EdgeNetwork& net) {
     if (total_m(i) == 0.0) {
       const bool needed = w.role == Role::kSource || w.role == Role::kAmplifier;
       add(needed ? Severity::kError : Severity::kWarning, "contact-untouched",
-          "no edge channel touches contact " + name + (needed ? " (a " + ToString(w.role) + " must be on an edge)" : ""),
+          "no edge channel touches contact " + name +
+              (needed ? " (a " + ToString(w.role) + " must be on an edge)" : ""),
           d.contacts[static_cast<std::size_t>(i)].where);
       continue;
     }
@@ -358,12 +379,15 @@ TransportResult SolveTransport(const Design& d, const EdgeNetwork& net) {
       if (j != i) from_others += total_t(i, j);
     if (w.role == Role::kFloat && !fed[static_cast<std::size_t>(i)])
       add(Severity::kWarning, "float-unset",
-          "floating contact " + name + " receives no current from any source, directly or through other floating contacts: "
-          "its potential is set by no source", w.where);
+          "floating contact " + name +
+              " receives no current from any source, directly or through other floating contacts: "
+              "its potential is set by no source",
+          w.where);
     if (w.role == Role::kGround && from_others <= kTiny)
       add(Severity::kWarning, "ground-idle", "ground " + name + " receives no edge from any other contact", w.where);
     if (w.role == Role::kSource && total_m(i) - total_t(i, i) <= kTiny)
-      add(Severity::kWarning, "source-returns", "all of the current that source " + name + " emits returns to it", w.where);
+      add(Severity::kWarning, "source-returns", "all of the current that source " + name + " emits returns to it",
+          w.where);
     if (w.role != Role::kAmplifier) continue;
     bool partitioned = false;
     for (const auto& site : r.partitioning) {
@@ -372,19 +396,22 @@ TransportResult SolveTransport(const Design& d, const EdgeNetwork& net) {
         const EdgePiece& e = net.pieces[static_cast<std::size_t>(c.pieces[s])];
         if (e.from.kind != EdgeEnd::Kind::kConstriction || e.from.index != site.constriction) continue;
         for (int a = 0; a < nc; ++a)
-          if (c.absorb(static_cast<int>(s), a) > kTiny && downstream[static_cast<std::size_t>(a)][static_cast<std::size_t>(i)])
+          if (c.absorb(static_cast<int>(s), a) > kTiny &&
+              downstream[static_cast<std::size_t>(a)][static_cast<std::size_t>(i)])
             partitioned = true;
       }
     }
     if (!partitioned)
       add(Severity::kWarning, "amplifier-unpartitioned",
-          "amplifier " + name + " sees no partitioned current from any source: its noise would be thermal only", w.where);
+          "amplifier " + name + " sees no partitioned current from any source: its noise would be thermal only",
+          w.where);
     for (const EdgePiece& p : net.pieces)
       if (p.to.kind == EdgeEnd::Kind::kContact && p.to.index == i && p.from.kind == EdgeEnd::Kind::kContact &&
           d.wiring[static_cast<std::size_t>(p.from.index)].role == Role::kSource) {
         add(Severity::kWarning, "amplifier-direct",
-            "DC current from source " + d.wiring[static_cast<std::size_t>(p.from.index)].contact + " reaches amplifier " + name +
-                " along channel " + std::to_string(p.channel + 1) + " without crossing any constriction",
+            "DC current from source " + d.wiring[static_cast<std::size_t>(p.from.index)].contact +
+                " reaches amplifier " + name + " along channel " + std::to_string(p.channel + 1) +
+                " without crossing any constriction",
             w.where);
         break;
       }

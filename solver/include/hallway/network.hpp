@@ -32,8 +32,8 @@ inline constexpr const char* kBareBoundaryModel =
     "bare-potential lateral depletion estimate (physics.md 1.4 (i)); self-consistent boundaries are not used";
 
 struct NetworkOptions {
-  int disc_segments = 32;            // polygon sides of the offset disc (>= 8)
-  double slit_fraction = 0.1;        // slit half-width as a fraction of the gap, in (0, 0.25]
+  int disc_segments = 32;      // polygon sides of the offset disc (>= 8)
+  double slit_fraction = 0.1;  // slit half-width as a fraction of the gap, in (0, 0.25]
   bool IsValid(std::string* why) const;
 };
 
@@ -66,11 +66,11 @@ struct ClosedEdge {
 // What the region of one channel looks like (direction independent).
 struct ChannelRegion {
   int channel = 0;
-  geometry::Region region;               // after the slits
-  std::vector<std::string> reflecting;   // gates that remove area for this channel
-  std::vector<std::string> passing;      // gates this channel passes under
-  std::vector<int> slit_constrictions;   // constrictions cut for this channel
-  std::vector<bool> estimate_open;       // per constriction: is the gap open in the bare estimate?
+  geometry::Region region;              // after the slits
+  std::vector<std::string> reflecting;  // gates that remove area for this channel
+  std::vector<std::string> passing;     // gates this channel passes under
+  std::vector<int> slit_constrictions;  // constrictions cut for this channel
+  std::vector<bool> estimate_open;      // per constriction: is the gap open in the bare estimate?
 };
 
 // Direction-independent geometry: build once, trace for +B and -B.
@@ -87,7 +87,7 @@ struct ChannelGeometry {
     double ext_a_m = 0.0, ext_b_m = 0.0;  // how far the slit reaches beyond a and beyond b
     double gap_m = 0.0;
   };
-  std::vector<Slit> slits;                 // per constriction (gap_m = 0 where none could be made)
+  std::vector<Slit> slits;  // per constriction (gap_m = 0 where none could be made)
 };
 
 ChannelGeometry BuildChannelGeometry(const Design& design, const NetworkOptions& options = {});

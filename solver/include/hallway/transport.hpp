@@ -26,31 +26,31 @@ using Matrix = std::vector<std::vector<double>>;  // row-major, [row][column]
 
 // Fraction of one source's emitted current of one channel that travels along one edge piece.
 struct RouteLeg {
-  int piece = 0;              // index into EdgeNetwork::pieces
-  double fraction = 0.0;      // current carried, as a fraction of the source's emission in this channel
+  int piece = 0;          // index into EdgeNetwork::pieces
+  double fraction = 0.0;  // current carried, as a fraction of the source's emission in this channel
 };
 
 struct Route {
-  int source = 0;             // contact index
+  int source = 0;  // contact index
   int channel = 0;
-  std::vector<double> reaching;            // per contact: fraction absorbed there (sums to 1)
-  std::vector<std::vector<int>> via;       // per contact: constrictions the current may pass on the way
-  std::vector<RouteLeg> legs;              // every edge piece the source's current travels along
+  std::vector<double> reaching;       // per contact: fraction absorbed there (sums to 1)
+  std::vector<std::vector<int>> via;  // per contact: constrictions the current may pass on the way
+  std::vector<RouteLeg> legs;         // every edge piece the source's current travels along
 };
 
 struct TransportResult {
   double field_T = 0.0;
-  std::vector<Matrix> transmission;        // per channel, T_ij,k (i absorbs, j emits)
-  std::vector<std::vector<double>> emitted;  // per channel, M_jk
-  Matrix conductance_S;                    // G_ij in siemens, contact order of the design
+  std::vector<Matrix> transmission;              // per channel, T_ij,k (i absorbs, j emits)
+  std::vector<std::vector<double>> emitted;      // per channel, M_jk
+  Matrix conductance_S;                          // G_ij in siemens, contact order of the design
   std::vector<std::optional<double>> voltage_V;  // nullopt: undetermined (isolated floating contact)
-  std::vector<double> current_A;           // into the device at each contact
+  std::vector<double> current_A;                 // into the device at each contact
   struct SourceResistance {
     int contact = 0;
     std::optional<double> resistance_Ohm;  // V / I of the source, nullopt when I = 0
   };
   std::vector<SourceResistance> sources;
-  std::vector<Route> routes;               // one per (source, channel) that emits
+  std::vector<Route> routes;  // one per (source, channel) that emits
   // Electrochemical potential carried by each edge piece (index of EdgeNetwork::pieces):
   // mu_p = sum_j F_pj V_j, with F_pj the fraction of the carriers on p that contact j emitted.
   std::vector<double> piece_potential_V;
