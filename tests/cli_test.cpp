@@ -135,6 +135,51 @@ TEST(Cli, UsageErrorsExitWithTwo) {
   EXPECT_EQ(hallway("--help").exit_code, 0);
 }
 
+TEST(Cli, SolveEveryDemoDesignForBothFieldDirections) {
+  for (const char* f : {"designs/01_hallbar_qpc.yaml", "designs/02_two_source_collider.yaml", "designs/03_fabry_perot.yaml"}) {
+    const CommandRun r = hallway(std::string("solve '") + test::SourcePath(f) + "'");
+    EXPECT_EQ(r.exit_code, 0) << f << "\n" << r.output;
+    EXPECT_NE(r.output.find("At B = +"), std::string::npos) << r.output;
+    EXPECT_NE(r.output.find("At B = -"), std::string::npos) << r.output;
+    EXPECT_NE(r.output.find("bare-potential lateral depletion estimate"), std::string::npos) << "model not stated";
+  }
+}
+
+TEST(Cli, SolveJsonHasTheAgreedKeys) {
+  const fs::path out = scratch("solve.json");
+  fs::remove(out);
+  const CommandRun r = hallway("solve '" + test::SourcePath("designs/01_hallbar_qpc.yaml") + "' --json '" + out.string() + "'");
+  ASSERT_EQ(r.exit_code, 0) << r.output;
+  const auto j = nlohmann::json::parse(read(out));
+  for (const char* key : {"contacts", "conductance_S", "voltages_V", "currents_A", "routes", "warnings", "field_T", "filling",
+                          "reversed_field"})
+    EXPECT_TRUE(j.contains(key)) << key;
+  EXPECT_EQ(j["contacts"][0], "W");
+  EXPECT_EQ(j["conductance_S"].size(), 6u);
+  EXPECT_GT(j["field_T"].get<double>(), 0.0);
+  EXPECT_LT(j["reversed_field"]["field_T"].get<double>(), 0.0);
+  // Two-terminal resistance across a constriction of total transmission 1 + 0.4 in a quantum Hall bar:
+  // h/(1.4 e^2) (Beenakker & van Houten, Solid State Physics 44, 1 (1991), R_2t = h/(K e^2) with K -> 1.4).
+  const double r_ohm = j["two_terminal_resistance_Ohm"]["W"].get<double>();
+  EXPECT_TRUE(test::NearRel(r_ohm, 25812.80745 / 1.4, 1e-9));
+}
+
+TEST(Cli, SolveFourTerminalAndReversedFieldOnly) {
+  const std::string design = test::SourcePath("tests/data/network/qpc_nu2_k1.yaml");
+  const CommandRun r = hallway("solve '" + design + "' --field-reversed --four-terminal W,E,NW,NE");
+  EXPECT_EQ(r.exit_code, 0) << r.output;
+  EXPECT_EQ(r.output.find("At B = +"), std::string::npos) << r.output;
+  EXPECT_NE(r.output.find("(0.500000 h/e^2)"), std::string::npos) << r.output;
+  EXPECT_EQ(hallway("solve '" + design + "' --four-terminal W,E,NW").exit_code, 2);
+  EXPECT_EQ(hallway("solve '" + design + "' --four-terminal W,E,NW,XX").exit_code, 2);
+}
+
+TEST(Cli, SolveRefusesADesignWithCheckErrors) {
+  const CommandRun r = hallway("solve '" + test::SourcePath("designs/invalid/gates_overlap.yaml") + "'");
+  EXPECT_EQ(r.exit_code, 1);
+  EXPECT_NE(r.output.find("nothing was solved"), std::string::npos) << r.output;
+}
+
 TEST(Cli, MissingDesignFileIsADesignError) {
   const CommandRun r = hallway("check /nonexistent/design.yaml");
   EXPECT_EQ(r.exit_code, 1);
