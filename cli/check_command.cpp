@@ -140,9 +140,7 @@ std::string render_text(const Design& d, const CheckResult& r) {
     for (const Finding& x : r.findings)
       out += fmt::format("  {}: {} [{}]\n      at {}\n", ToString(x.severity), x.message, x.code, x.where.ToString());
   }
-  out +=
-      "\nAll figures are model estimates. A gate voltage past the leakage or breakdown onset can destroy a\n"
-      "sample; follow your lab's own safety rules for cryostats, magnets and electronics.\n";
+  out += kSafetyCaution;
   out += fmt::format("\n{}: {} error(s), {} warning(s)\n", r.ok() ? "check passed" : "check FAILED", r.error_count(),
                      r.warning_count());
   return out;
@@ -254,12 +252,7 @@ std::string render_json(const Design& d, const CheckResult& r) {
 
 int RunCheck(const CheckArgs& args) {
   Design d;
-  try {
-    d = LoadDesign(args.design_path);
-  } catch (const DesignError& e) {
-    std::cerr << "hallway: design error: " << e.what() << "\n";
-    return kExitDesignError;
-  }
+  if (int code = 0; !LoadOrReport(args.design_path, &d, &code)) return code;
   const CheckResult r = CheckDesign(d);
   std::cout << render_text(d, r);
   if (!args.json_path.empty()) {
@@ -270,12 +263,7 @@ int RunCheck(const CheckArgs& args) {
       return kExitOutputError;
     }
   }
-  if (!r.ok()) {
-    for (const Finding& x : r.findings)
-      if (x.severity == Severity::kError)
-        std::cerr << "hallway: design error: " << x.where.ToString() << ": " << x.message << "\n";
-    return kExitDesignError;
-  }
+  if (ReportErrors(r.findings) > 0) return kExitDesignError;
   return kExitOk;
 }
 

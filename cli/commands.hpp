@@ -28,3 +28,21 @@ struct SolveArgs {
 int RunSolve(const SolveArgs& args);
 
 }  // namespace hallway::cli
+
+namespace hallway::cli {
+
+struct NoiseArgs {
+  std::string design_path;
+  std::string json_path;
+  std::string csv_path;
+  std::string sweep;  // "SA,SB=0:50uV:11"
+  std::string ratio;  // "1,0.5": bias multipliers of the swept contacts
+  bool reversed_only = false;
+  bool phase_given = false;
+  double phase_rad = 0.0;
+  double target_sigmas = 10.0;
+};
+
+int RunNoise(const NoiseArgs& args);
+
+}  // namespace hallway::cli

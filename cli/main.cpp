@@ -29,6 +29,18 @@ int main(int argc, char** argv) {
   s->add_option("--four-terminal", solve.four_terminal,
                 "Print R = (V+ - V-)/I for current I from I+ to I-: I+,I-,V+,V-");
 
+  NoiseArgs noise;
+  auto* n = app.add_subcommand("noise", "Current noise at every contact, amplifier signal-to-noise and colliders");
+  n->add_option("design", noise.design_path, "Design file (YAML)")->required();
+  n->add_option("--json", noise.json_path, "Also write the results as JSON to this file");
+  n->add_option("--sweep", noise.sweep, "Sweep source bias: CONTACTS=FROM:TO:N, e.g. SA,SB=0:50uV:11");
+  n->add_option("--ratio", noise.ratio, "Bias factors of the swept contacts, e.g. 1,0.5 (imbalance)");
+  n->add_option("--csv", noise.csv_path, "Write the sweep as CSV to this file");
+  n->add_flag("--field-reversed", noise.reversed_only, "Solve for the reversed field -B");
+  auto* phase =
+      n->add_option("--phase", noise.phase_rad, "Fix the interferometer loop phase (rad) instead of averaging");
+  n->add_option("--target", noise.target_sigmas, "Signal-to-noise asked of every correlation (default 10)");
+
   try {
     app.parse(argc, argv);
   } catch (const CLI::CallForHelp& e) {
@@ -42,6 +54,10 @@ int main(int argc, char** argv) {
   try {
     if (*c) return RunCheck(check);
     if (*s) return RunSolve(solve);
+    if (*n) {
+      noise.phase_given = phase->count() > 0;
+      return RunNoise(noise);
+    }
   } catch (const std::exception& e) {
     std::cerr << "hallway: internal error: " << e.what() << "\n";
     return kExitInternal;

@@ -7,11 +7,39 @@
 #include <cstdio>
 #include <cstring>
 #include <filesystem>
+#include <iostream>
 #include <random>
+
+#include "hallway/design_loader.hpp"
 
 namespace hallway::cli {
 
 namespace fs = std::filesystem;
+
+const char* const kSafetyCaution =
+    "\nAll figures are model estimates. A gate voltage past the leakage or breakdown onset can destroy a\n"
+    "sample; follow your lab's own safety rules for cryostats, magnets and electronics.\n";
+
+bool LoadOrReport(const std::string& path, Design* design, int* exit_code) {
+  try {
+    *design = LoadDesign(path);
+    return true;
+  } catch (const DesignError& e) {
+    std::cerr << "hallway: design error: " << e.what() << "\n";
+    *exit_code = kExitDesignError;
+    return false;
+  }
+}
+
+int ReportErrors(const std::vector<Finding>& findings) {
+  int n = 0;
+  for (const Finding& f : findings)
+    if (f.severity == Severity::kError) {
+      std::cerr << "hallway: design error: " << f.where.ToString() << ": " << f.message << "\n";
+      ++n;
+    }
+  return n;
+}
 
 void WriteFileAtomically(const std::string& path, const std::string& text, const std::vector<std::string>& inputs) {
   if (path.empty()) throw OutputError("no output file name given");

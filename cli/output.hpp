@@ -5,6 +5,9 @@
 #include <string>
 #include <vector>
 
+#include "hallway/check.hpp"
+#include "hallway/design.hpp"
+
 namespace hallway::cli {
 
 // Exit codes, documented in README.md ("Exit codes").
@@ -20,6 +23,13 @@ class OutputError : public std::runtime_error {
  public:
   using std::runtime_error::runtime_error;
 };
+
+// Loads a design; on a DesignError prints it and returns false with *exit_code set.
+bool LoadOrReport(const std::string& path, Design* design, int* exit_code);
+// Prints the errors among `findings` as design errors; returns how many there were.
+int ReportErrors(const std::vector<Finding>& findings);
+// The caution printed at the end of every report.
+extern const char* const kSafetyCaution;
 
 // Refuses to write over any of `inputs`; writes `text` to a temporary file in the same folder and
 // renames it into place, so readers never see a half-written file. Throws OutputError.

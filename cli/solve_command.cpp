@@ -169,12 +169,7 @@ std::vector<int> parse_four(const Design& d, const std::string& spec, std::strin
 
 int RunSolve(const SolveArgs& args) {
   Design d;
-  try {
-    d = LoadDesign(args.design_path);
-  } catch (const DesignError& e) {
-    std::cerr << "hallway: design error: " << e.what() << "\n";
-    return kExitDesignError;
-  }
+  if (int code = 0; !LoadOrReport(args.design_path, &d, &code)) return code;
   std::vector<int> four;
   if (!args.four_terminal.empty()) {
     std::string why;
@@ -279,9 +274,7 @@ int RunSolve(const SolveArgs& args) {
     out += "\nWarnings\n";
     for (const auto& w : warnings) out += "  - " + w + "\n";
   }
-  out +=
-      "\nAll figures are model estimates. A gate voltage past the leakage or breakdown onset can destroy a\n"
-      "sample; follow your lab's own safety rules for cryostats, magnets and electronics.\n";
+  out += kSafetyCaution;
   std::cout << out;
 
   if (!args.json_path.empty()) {

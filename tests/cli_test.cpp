@@ -136,7 +136,8 @@ TEST(Cli, UsageErrorsExitWithTwo) {
 }
 
 TEST(Cli, SolveEveryDemoDesignForBothFieldDirections) {
-  for (const char* f : {"designs/01_hallbar_qpc.yaml", "designs/02_two_source_collider.yaml", "designs/03_fabry_perot.yaml"}) {
+  for (const char* f :
+       {"designs/01_hallbar_qpc.yaml", "designs/02_two_source_collider.yaml", "designs/03_fabry_perot.yaml"}) {
     const CommandRun r = hallway(std::string("solve '") + test::SourcePath(f) + "'");
     EXPECT_EQ(r.exit_code, 0) << f << "\n" << r.output;
     EXPECT_NE(r.output.find("At B = +"), std::string::npos) << r.output;
@@ -148,11 +149,12 @@ TEST(Cli, SolveEveryDemoDesignForBothFieldDirections) {
 TEST(Cli, SolveJsonHasTheAgreedKeys) {
   const fs::path out = scratch("solve.json");
   fs::remove(out);
-  const CommandRun r = hallway("solve '" + test::SourcePath("designs/01_hallbar_qpc.yaml") + "' --json '" + out.string() + "'");
+  const CommandRun r =
+      hallway("solve '" + test::SourcePath("designs/01_hallbar_qpc.yaml") + "' --json '" + out.string() + "'");
   ASSERT_EQ(r.exit_code, 0) << r.output;
   const auto j = nlohmann::json::parse(read(out));
-  for (const char* key : {"contacts", "conductance_S", "voltages_V", "currents_A", "routes", "warnings", "field_T", "filling",
-                          "reversed_field"})
+  for (const char* key : {"contacts", "conductance_S", "voltages_V", "currents_A", "routes", "warnings", "field_T",
+                          "filling", "reversed_field"})
     EXPECT_TRUE(j.contains(key)) << key;
   EXPECT_EQ(j["contacts"][0], "W");
   EXPECT_EQ(j["conductance_S"].size(), 6u);
@@ -178,6 +180,45 @@ TEST(Cli, SolveRefusesADesignWithCheckErrors) {
   const CommandRun r = hallway("solve '" + test::SourcePath("designs/invalid/gates_overlap.yaml") + "'");
   EXPECT_EQ(r.exit_code, 1);
   EXPECT_NE(r.output.find("nothing was solved"), std::string::npos) << r.output;
+}
+
+TEST(Cli, NoiseJsonHasTheAgreedKeysAndTheCollider) {
+  const fs::path out = scratch("noise.json");
+  fs::remove(out);
+  const CommandRun r =
+      hallway("noise '" + test::SourcePath("designs/02_two_source_collider.yaml") + "' --json '" + out.string() + "'");
+  ASSERT_EQ(r.exit_code, 0) << r.output;
+  EXPECT_NE(r.output.find("P = -2"), std::string::npos) << r.output;
+  const auto j = nlohmann::json::parse(read(out));
+  for (const char* key :
+       {"contacts", "noise_excess_A2_per_Hz", "noise_total_A2_per_Hz", "amplifiers", "colliders", "models"})
+    EXPECT_TRUE(j.contains(key)) << key;
+  EXPECT_EQ(j["noise_excess_A2_per_Hz"].size(), 6u);
+  EXPECT_TRUE(j["amplifiers"].contains("D1"));
+  EXPECT_NEAR(j["colliders"][0]["P"].get<double>(), -2.0, 1e-9);
+}
+
+TEST(Cli, NoiseSweepWritesOneCsvRowPerPoint) {
+  const fs::path csv = scratch("sweep.csv");
+  fs::remove(csv);
+  const CommandRun r = hallway("noise '" + test::SourcePath("designs/02_two_source_collider.yaml") +
+                               "' --sweep SA,SB=0:40uV:5 --ratio 1,0.5 --csv '" + csv.string() + "'");
+  ASSERT_EQ(r.exit_code, 0) << r.output;
+  std::stringstream lines(read(csv));
+  std::string header, line;
+  std::getline(lines, header);
+  EXPECT_NE(header.find("bias_SA_V"), std::string::npos) << header;
+  EXPECT_NE(header.find("S_exc_D1_D2_A2_per_Hz"), std::string::npos) << header;
+  EXPECT_NE(header.find("P_C"), std::string::npos) << header;
+  int rows = 0;
+  while (std::getline(lines, line)) ++rows;
+  EXPECT_EQ(rows, 5);
+  EXPECT_EQ(
+      hallway("noise '" + test::SourcePath("designs/02_two_source_collider.yaml") + "' --sweep D1=0:1uV:3").exit_code,
+      2);
+  EXPECT_EQ(
+      hallway("noise '" + test::SourcePath("designs/02_two_source_collider.yaml") + "' --sweep SA=0:1nA:3").exit_code,
+      2);
 }
 
 TEST(Cli, MissingDesignFileIsADesignError) {

@@ -293,9 +293,13 @@ TransportResult SolveTransport(const Design& d, const EdgeNetwork& net) {
   double vmax = 0.0;
   for (double x : v) vmax = std::max(vmax, std::abs(x));
   r.piece_potential_V.assign(net.pieces.size(), 0.0);
+  r.piece_absorption.assign(net.pieces.size(), std::vector<double>(static_cast<std::size_t>(nc), 0.0));
   for (int k = 0; k < nk; ++k) {
     const ChannelChain& c = chains[static_cast<std::size_t>(k)];
     for (std::size_t s = 0; s < c.pieces.size(); ++s) {
+      for (int i = 0; i < nc; ++i)
+        r.piece_absorption[static_cast<std::size_t>(c.pieces[s])][static_cast<std::size_t>(i)] =
+            c.absorb(static_cast<int>(s), i);
       double mu = 0.0;
       for (int j = 0; j < nc; ++j)
         if (determined[static_cast<std::size_t>(j)])

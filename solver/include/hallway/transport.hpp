@@ -54,6 +54,9 @@ struct TransportResult {
   // Electrochemical potential carried by each edge piece (index of EdgeNetwork::pieces):
   // mu_p = sum_j F_pj V_j, with F_pj the fraction of the carriers on p that contact j emitted.
   std::vector<double> piece_potential_V;
+  // piece_absorption[p][i]: probability that a carrier on piece p ends in contact i (0 for pieces
+  // that no contact feeds).
+  Matrix piece_absorption;
   // Constrictions that partition a DC current: 0 < t < 1 and their two incoming edges carry
   // different potentials, so they make shot noise.
   struct PartitionSite {

@@ -1,0 +1,358 @@
+// `hallway noise`: current noise at every contact, amplifier signal-to-noise, colliders, bias sweeps.
+#include <fmt/core.h>
+
+#include <cmath>
+#include <iostream>
+#include <nlohmann/json.hpp>
+#include <sstream>
+
+#include "commands.hpp"
+#include "hallway/check.hpp"
+#include "hallway/constants.hpp"
+#include "hallway/design_loader.hpp"
+#include "hallway/network.hpp"
+#include "hallway/noise.hpp"
+#include "hallway/transport.hpp"
+#include "hallway/units.hpp"
+#include "output.hpp"
+
+namespace hallway::cli {
+namespace {
+
+using nlohmann::json;
+using units::FormatSI;
+
+struct Sweep {
+  std::vector<int> contacts;
+  std::vector<double> ratio;
+  double from = 0.0, to = 0.0;
+  int points = 0;
+};
+
+std::vector<std::string> split(const std::string& s, char sep) {
+  std::vector<std::string> out;
+  std::stringstream ss(s);
+  std::string item;
+  while (std::getline(ss, item, sep)) out.push_back(item);
+  return out;
+}
+
+// "SA,SB=0:50uV:11" -> contacts, range, points. Returns an empty message on success.
+std::string parse_sweep(const Design& d, const std::string& spec, const std::string& ratio, Sweep* sw) {
+  const auto eq = spec.find('=');
+  if (eq == std::string::npos) return "--sweep takes CONTACTS=FROM:TO:N, e.g. SA,SB=0:50uV:11";
+  bool is_current = false;
+  for (const std::string& name : split(spec.substr(0, eq), ',')) {
+    const Wiring* w = d.FindWiring(name);
+    if (!w) return "--sweep: no contact named '" + name + "'";
+    if (w->role != Role::kSource) return "--sweep: contact " + name + " is not a source";
+    if (!sw->contacts.empty() && w->bias_is_current != is_current) return "--sweep: mix of voltage and current sources";
+    is_current = w->bias_is_current;
+    sw->contacts.push_back(static_cast<int>(w - d.wiring.data()));
+  }
+  const auto parts = split(spec.substr(eq + 1), ':');
+  if (parts.size() != 3) return "--sweep takes CONTACTS=FROM:TO:N";
+  const units::Kind kind = is_current ? units::Kind::kCurrent : units::Kind::kVoltage;
+  try {
+    for (int i = 0; i < 2; ++i) {
+      const units::Quantity q = units::ParseQuantity(parts[static_cast<std::size_t>(i)]);
+      if (q.dimension == units::Dimension{} && q.value_si == 0.0) continue;  // a bare 0 is zero of any unit
+      (i == 0 ? sw->from : sw->to) = units::Parse(parts[static_cast<std::size_t>(i)], kind);
+    }
+  } catch (const units::UnitError& e) {
+    return std::string("--sweep: ") + e.what();
+  }
+  try {
+    sw->points = std::stoi(parts[2]);
+  } catch (...) {
+    return "--sweep: N must be a whole number";
+  }
+  if (sw->points < 1 || sw->points > 10000) return "--sweep: N must lie in [1, 10000]";
+  sw->ratio.assign(sw->contacts.size(), 1.0);
+  if (!ratio.empty()) {
+    const auto r = split(ratio, ',');
+    if (r.size() != sw->contacts.size()) return "--ratio needs one factor per swept contact";
+    for (std::size_t i = 0; i < r.size(); ++i) {
+      try {
+        sw->ratio[i] = std::stod(r[i]);
+      } catch (...) {
+        return "--ratio: '" + r[i] + "' is not a number";
+      }
+      if (!std::isfinite(sw->ratio[i])) return "--ratio: factors must be finite";
+    }
+  }
+  return "";
+}
+
+std::string sci(double x) {
+  return fmt::format("{:.4e}", x);
+}
+std::string opt_time(const std::optional<double>& t) {
+  if (!t) return "no signal";
+  if (*t < 60) return FormatSI(*t, "s");
+  if (*t < 3600) return fmt::format("{:.3g} min", *t / 60);
+  return fmt::format("{:.3g} h", *t / 3600);
+}
+
+void print_matrix(std::string& out, const Design& d, const Matrix& m) {
+  out += fmt::format("    {:>8}", "");
+  for (const Contact& c : d.contacts) out += fmt::format(" {:>11}", c.name);
+  out += "\n";
+  for (std::size_t i = 0; i < m.size(); ++i) {
+    out += fmt::format("    {:>8}", d.contacts[i].name);
+    for (double x : m[i]) out += fmt::format(" {:>11.3e}", std::abs(x) < 1e-45 ? 0.0 : x);
+    out += "\n";
+  }
+}
+
+std::string print_noise(const Design& d, const NoiseResult& n) {
+  std::string out = fmt::format("\nAt B = {:+.4g} T\n", n.field_T);
+  out += "  excess current noise S_exc (A^2/Hz; total minus zero bias at the same temperature)\n";
+  print_matrix(out, d, n.excess_A2_per_Hz);
+  out += "  total current noise (A^2/Hz)\n";
+  print_matrix(out, d, n.total_A2_per_Hz);
+  for (const CoherentLoop& l : n.loops) {
+    std::string qs;
+    for (int q : l.constrictions) qs += (qs.empty() ? "" : ", ") + d.constrictions[static_cast<std::size_t>(q)].name;
+    out += fmt::format("  interferometer loop on channel {} through {}: edge length {}, enclosed area {:.4g} um^2\n",
+                       l.channel + 1, qs, FormatSI(l.length_m, "m"), l.enclosed_area_m2 * 1e12);
+  }
+  if (!n.amplifiers.empty()) {
+    out += "  amplifiers\n";
+    out += fmt::format("    {:<8} {:>11} {:>11} {:>12} {:>12} {:>12} {:>9} {:>14}\n", "contact", "R sample", "R eff",
+                       "S_exc A2/Hz", "signal V2/Hz", "floor V2/Hz", "SNR", "time for target");
+    for (const AmplifierNoise& a : n.amplifiers)
+      out += fmt::format("    {:<8} {:>11} {:>11} {:>12} {:>12} {:>12} {:>9.3g} {:>14}\n",
+                         d.contacts[static_cast<std::size_t>(a.contact)].name,
+                         std::isfinite(a.sample_resistance_Ohm) ? FormatSI(a.sample_resistance_Ohm, "Ohm") : "open",
+                         FormatSI(a.effective_resistance_Ohm, "Ohm"), sci(a.excess_current_A2_per_Hz),
+                         sci(a.signal_V2_per_Hz), sci(a.floor_V2_per_Hz), a.snr, opt_time(a.time_for_target_s));
+    for (const CrossNoise& c : n.cross)
+      out += fmt::format("    cross {}-{}: S_exc {} A^2/Hz, signal {} V^2/Hz, SNR {:.3g}, time for target {}\n",
+                         d.contacts[static_cast<std::size_t>(c.first)].name,
+                         d.contacts[static_cast<std::size_t>(c.second)].name, sci(c.excess_current_A2_per_Hz),
+                         sci(c.signal_V2_per_Hz), c.snr, opt_time(c.time_for_target_s));
+  }
+  for (const ColliderPrediction& c : n.colliders) {
+    out += fmt::format("  collider {} (channel {}, fed by {} and {})\n",
+                       d.constrictions[static_cast<std::size_t>(c.constriction)].name, c.channel + 1,
+                       d.constrictions[static_cast<std::size_t>(c.source_first)].name,
+                       d.constrictions[static_cast<std::size_t>(c.source_second)].name);
+    out += fmt::format(
+        "    I1 = {}, I2 = {}, I+ = {}, I- = {}; collider tunnelling {:.3g}; e* = {:.4g} e, theta = {:.4g} pi, delta = "
+        "{:.4g}\n",
+        FormatSI(c.stream_first_A, "A"), FormatSI(c.stream_second_A, "A"), FormatSI(c.i_plus_A, "A"),
+        FormatSI(c.i_minus_A, "A"), c.tunnelling, c.charge_e, c.exchange_pi, c.scaling);
+    if (c.fano)
+      out += fmt::format("    P = {:.5g}; expected S_34 = {} A^2/Hz; time for P to +-0.1: {}\n", *c.fano,
+                         sci(*c.s34_A2_per_Hz), opt_time(c.time_for_fano_s));
+    out += fmt::format(
+        "    validity: dilute sources {}, weak tunnelling {}, theta <= pi/2 {}, zeta (rate/temperature) = {:.3g}\n",
+        c.dilute ? "yes" : "NO", c.weak_tunnelling ? "yes" : "NO", c.exchange_below_half_pi ? "yes" : "NO",
+        c.rate_over_temperature);
+    for (const auto& cv : c.caveats) out += "    caveat: " + cv + "\n";
+  }
+  return out;
+}
+
+json noise_json(const Design& d, const NoiseResult& n) {
+  json j;
+  j["field_T"] = n.field_T;
+  j["noise_excess_A2_per_Hz"] = n.excess_A2_per_Hz;
+  j["noise_total_A2_per_Hz"] = n.total_A2_per_Hz;
+  j["phase_averaged"] = n.phase_averaged;
+  j["phase_samples"] = n.phase_samples;
+  j["unitarity_error"] = n.unitarity_error;
+  j["equilibrium_identity_error"] = n.equilibrium_identity_error;
+  json amps = json::object();
+  for (const AmplifierNoise& a : n.amplifiers) {
+    json x = {{"sample_resistance_Ohm",
+               std::isfinite(a.sample_resistance_Ohm) ? json(a.sample_resistance_Ohm) : json(nullptr)},
+              {"effective_resistance_Ohm", a.effective_resistance_Ohm},
+              {"excess_A2_per_Hz", a.excess_current_A2_per_Hz},
+              {"signal_V2_per_Hz", a.signal_V2_per_Hz},
+              {"floor_V2_per_Hz", a.floor_V2_per_Hz},
+              {"floor_A2_per_Hz", a.floor_current_A2_per_Hz},
+              {"snr", a.snr}};
+    x["time_for_target_s"] = a.time_for_target_s ? json(*a.time_for_target_s) : json(nullptr);
+    amps[d.contacts[static_cast<std::size_t>(a.contact)].name] = x;
+  }
+  j["amplifiers"] = amps;
+  json cross = json::array();
+  for (const CrossNoise& c : n.cross) {
+    json x = {
+        {"contacts",
+         {d.contacts[static_cast<std::size_t>(c.first)].name, d.contacts[static_cast<std::size_t>(c.second)].name}},
+        {"excess_A2_per_Hz", c.excess_current_A2_per_Hz},
+        {"signal_V2_per_Hz", c.signal_V2_per_Hz},
+        {"snr", c.snr}};
+    x["time_for_target_s"] = c.time_for_target_s ? json(*c.time_for_target_s) : json(nullptr);
+    cross.push_back(x);
+  }
+  j["cross_correlations"] = cross;
+  json colliders = json::array();
+  for (const ColliderPrediction& c : n.colliders) {
+    json x = {{"constriction", d.constrictions[static_cast<std::size_t>(c.constriction)].name},
+              {"channel", c.channel + 1},
+              {"sources",
+               {d.constrictions[static_cast<std::size_t>(c.source_first)].name,
+                d.constrictions[static_cast<std::size_t>(c.source_second)].name}},
+              {"I1_A", c.stream_first_A},
+              {"I2_A", c.stream_second_A},
+              {"I_plus_A", c.i_plus_A},
+              {"I_minus_A", c.i_minus_A},
+              {"tunnelling", c.tunnelling},
+              {"dilute", c.dilute},
+              {"weak_tunnelling", c.weak_tunnelling},
+              {"exchange_below_half_pi", c.exchange_below_half_pi},
+              {"rate_over_temperature", c.rate_over_temperature},
+              {"caveats", c.caveats}};
+    x["P"] = c.fano ? json(*c.fano) : json(nullptr);
+    x["S34_A2_per_Hz"] = c.s34_A2_per_Hz ? json(*c.s34_A2_per_Hz) : json(nullptr);
+    x["time_for_P_s"] = c.time_for_fano_s ? json(*c.time_for_fano_s) : json(nullptr);
+    colliders.push_back(x);
+  }
+  j["colliders"] = colliders;
+  j["models"] = n.models;
+  return j;
+}
+
+}  // namespace
+
+int RunNoise(const NoiseArgs& args) {
+  Design d;
+  if (int code = 0; !LoadOrReport(args.design_path, &d, &code)) return code;
+  Sweep sweep;
+  if (!args.sweep.empty()) {
+    const std::string why = parse_sweep(d, args.sweep, args.ratio, &sweep);
+    if (!why.empty()) {
+      std::cerr << "hallway: usage error: " << why << "\n";
+      return kExitUsage;
+    }
+  } else if (!args.ratio.empty() || !args.csv_path.empty()) {
+    std::cerr << "hallway: usage error: --ratio and --csv go with --sweep\n";
+    return kExitUsage;
+  }
+  if (!(args.target_sigmas > 0.0)) {
+    std::cerr << "hallway: usage error: --target must be positive\n";
+    return kExitUsage;
+  }
+  const CheckResult check = CheckDesign(d);
+  if (!check.ok()) {
+    for (const Finding& f : check.findings)
+      if (f.severity == Severity::kError)
+        std::cerr << "hallway: design error: " << f.where.ToString() << ": " << f.message << "\n";
+    std::cerr << "hallway: run `hallway check` for the full list; nothing was solved\n";
+    return kExitDesignError;
+  }
+  NoiseOptions opt;
+  opt.target_sigmas = args.target_sigmas;
+  if (args.phase_given) opt.loop_phase_rad = args.phase_rad;
+  const ChannelGeometry geometry = BuildChannelGeometry(d);
+  const double field = args.reversed_only ? -d.conditions.field_T : d.conditions.field_T;
+  const EdgeNetwork net = TraceEdges(d, geometry, field);
+  std::vector<Finding> errors;
+  for (const auto* list : {&geometry.findings, &net.findings})
+    for (const Finding& f : *list)
+      if (f.severity == Severity::kError) errors.push_back(f);
+  if (!errors.empty()) {
+    for (const Finding& f : errors)
+      std::cerr << "hallway: design error: " << f.where.ToString() << ": " << f.message << "\n";
+    return kExitDesignError;
+  }
+  const TransportResult tr = SolveTransport(d, net);
+  const NoiseResult n = SolveNoise(d, net, tr, opt);
+  for (const Finding& f : n.findings)
+    if (f.severity == Severity::kError) {
+      std::cerr << "hallway: error: " << f.message << "\n";
+      return kExitInternal;
+    }
+
+  std::string out = fmt::format("hallway noise  {}\n", d.path);
+  if (!d.name.empty()) out += fmt::format("  design: {}\n", d.name);
+  out += fmt::format("  bulk filling nu = {}, field {:+.4g} T{}, temperature {}\n", d.conditions.filling.ToString(),
+                     field, args.reversed_only ? " (reversed)" : "", FormatSI(d.conditions.temperature_K, "K"));
+  out += fmt::format("  edge boundaries: {}\n", geometry.model);
+  out += "  models:\n";
+  for (const auto& m : n.models) out += "    - " + m + "\n";
+  out += fmt::format("  checks: |s^+ s - 1| = {:.1e}; equilibrium noise against 2kT(G + G^T): {:.1e} relative\n",
+                     n.unitarity_error, n.equilibrium_identity_error);
+  out += print_noise(d, n);
+  std::vector<std::string> warnings;
+  for (const auto* list : {&check.findings, &geometry.findings, &net.findings, &tr.findings, &n.findings})
+    for (const Finding& f : *list) warnings.push_back(f.message);
+  if (!warnings.empty()) {
+    out += "\nWarnings\n";
+    for (const auto& w : warnings) out += "  - " + w + "\n";
+  }
+
+  // Bias sweep.
+  std::string csv;
+  if (!sweep.contacts.empty()) {
+    std::vector<int> amps;
+    for (std::size_t i = 0; i < d.wiring.size(); ++i)
+      if (d.wiring[i].role == Role::kAmplifier) amps.push_back(static_cast<int>(i));
+    csv = "point";
+    for (int c : sweep.contacts)
+      csv += fmt::format(",bias_{}_{}", d.contacts[static_cast<std::size_t>(c)].name,
+                         d.wiring[static_cast<std::size_t>(c)].bias_is_current ? "A" : "V");
+    for (const Contact& c : d.contacts) csv += ",I_" + c.name + "_A";
+    for (std::size_t a = 0; a < amps.size(); ++a)
+      for (std::size_t b = a; b < amps.size(); ++b)
+        csv += fmt::format(",S_exc_{}_{}_A2_per_Hz", d.contacts[static_cast<std::size_t>(amps[a])].name,
+                           d.contacts[static_cast<std::size_t>(amps[b])].name);
+    for (const ColliderPrediction& c : n.colliders)
+      csv += ",P_" + d.constrictions[static_cast<std::size_t>(c.constriction)].name;
+    csv += "\n";
+    out += fmt::format("\nSweep of {} point(s)\n", sweep.points);
+    for (int k = 0; k < sweep.points; ++k) {
+      const double x = sweep.points == 1 ? sweep.from : sweep.from + (sweep.to - sweep.from) * k / (sweep.points - 1);
+      Design dk = d;
+      for (std::size_t s = 0; s < sweep.contacts.size(); ++s)
+        dk.wiring[static_cast<std::size_t>(sweep.contacts[s])].bias = x * sweep.ratio[s];
+      const TransportResult tk = SolveTransport(dk, net);
+      const NoiseResult nk = SolveNoise(dk, net, tk, opt);
+      std::string row = std::to_string(k);
+      for (std::size_t s = 0; s < sweep.contacts.size(); ++s) row += fmt::format(",{:.9g}", x * sweep.ratio[s]);
+      for (double i : tk.current_A) row += fmt::format(",{:.9g}", i);
+      for (std::size_t a = 0; a < amps.size(); ++a)
+        for (std::size_t b = a; b < amps.size(); ++b)
+          row += fmt::format(",{:.9g}",
+                             nk.excess_A2_per_Hz[static_cast<std::size_t>(amps[a])][static_cast<std::size_t>(amps[b])]);
+      for (const ColliderPrediction& c : n.colliders) {
+        std::string p;
+        for (const ColliderPrediction& ck : nk.colliders)
+          if (ck.constriction == c.constriction && ck.fano) p = fmt::format("{:.9g}", *ck.fano);
+        row += "," + p;
+      }
+      csv += row + "\n";
+    }
+    out += args.csv_path.empty() ? csv : "  written to " + args.csv_path + "\n";
+  }
+  out += kSafetyCaution;
+  std::cout << out;
+
+  try {
+    if (!args.csv_path.empty()) WriteFileAtomically(args.csv_path, csv, {args.design_path});
+    if (!args.json_path.empty()) {
+      json j = noise_json(d, n);
+      j["hallway_noise"] = 1;
+      j["design"] = d.path;
+      json contacts = json::array();
+      for (const Contact& c : d.contacts) contacts.push_back(c.name);
+      j["contacts"] = contacts;
+      j["filling"] = d.conditions.filling.ToString();
+      j["temperature_K"] = d.conditions.temperature_K;
+      json w = json::array();
+      for (const auto& s : warnings) w.push_back(s);
+      j["warnings"] = w;
+      WriteFileAtomically(args.json_path, j.dump(2) + "\n", {args.design_path});
+    }
+  } catch (const OutputError& e) {
+    std::cerr << "hallway: output error: " << e.what() << "\n";
+    return kExitOutputError;
+  }
+  return kExitOk;
+}
+
+}  // namespace hallway::cli

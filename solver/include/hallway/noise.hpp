@@ -1,0 +1,125 @@
+// hallway/noise.hpp: zero-frequency current noise at every contact and the signal-to-noise of the
+// planned measurement (physics.md sections 4, 5, 6 and 8). One-sided spectral densities: Poisson
+// noise is 2eI, Johnson–Nyquist noise 4 k_B T G; "excess" is the total minus the same quantity at
+// zero bias and the same temperature.
+//
+// Integer channels: the coherent scattering matrix of the edge network (a unitary 2x2
+//   [[sqrt(1-t), i sqrt(t)], [i sqrt(t), sqrt(1-t)]] per constriction and channel, a phase per edge
+//   piece) in Büttiker's multi-terminal formula with the energy integrals in closed form
+//     S_ab = (e^2/h) sum_cd Tr[A_cd(a) A_dc(b)] F_cd,  A_cd(a) = d_ac d_ad 1 - s_ac^+ s_ad,
+//     F_cd = e V_cd coth(e V_cd / 2 k_B T),  F_cc = 2 k_B T
+//   (Büttiker, Phys. Rev. B 46, 12485 (1992); Blanter & Büttiker, Phys. Rep. 336, 1 (2000)).
+//   Networks with a loop that encloses area are interferometers: the result is averaged over the
+//   loop phases unless a phase is fixed.
+// Fractional channels: each constriction with 0 < t < 1 is an independent noise source
+//     S_Q = 2 e* |V_Q| g (e^2/h) t (1 - t) [coth(e*|V_Q| / 2 k_B T) - 2 k_B T / (e*|V_Q|)]
+//   with V_Q the potential difference of its two incoming edges, e* the charge of its regime
+//   (Kane & Fisher, Phys. Rev. Lett. 72, 724 (1994); physics.md 5), carried to the contacts by the
+//   incoherent network.
+// Floating contacts and current sources hold dI = 0 at low frequency (physics.md 4.4):
+//   S' = L S L^T, L = [1, -G_AF G_FF^-1]. Their heating by the bias is not included.
+// Colliders: physics.md A and 6 (collider.hpp).
+// Amplifiers: physics.md 8 (Dicke radiometer formula for the averaging time).
+#pragma once
+
+#include <optional>
+#include <string>
+#include <vector>
+
+#include "hallway/check.hpp"
+#include "hallway/design.hpp"
+#include "hallway/network.hpp"
+#include "hallway/transport.hpp"
+
+namespace hallway {
+
+struct NoiseOptions {
+  int phase_samples = 256;                 // phase configurations averaged when the network has loops
+  std::optional<double> loop_phase_rad;    // fix the phase of every loop instead of averaging
+  double target_sigmas = 10.0;             // signal-to-noise asked of every correlation
+  double collider_fano_uncertainty = 0.1;  // +- on P
+  double dilution_limit = 0.1;             // source tunnelling probability counted as dilute (physics.md 7)
+  double weak_tunnelling_limit = 0.1;      // collider tunnelling probability counted as weak
+  bool IsValid(std::string* why) const;
+};
+
+// A closed path of coherent propagation between constrictions (an interferometer loop).
+struct CoherentLoop {
+  int channel = 0;
+  std::vector<int> pieces;         // EdgeNetwork::pieces in the loop
+  std::vector<int> constrictions;  // constrictions it passes
+  double length_m = 0.0;
+  double enclosed_area_m2 = 0.0;
+};
+
+struct AmplifierNoise {
+  int contact = 0;
+  double sample_resistance_Ohm = 0.0;     // what the sample presents at the contact
+  double effective_resistance_Ohm = 0.0;  // sample in parallel with the load
+  double excess_current_A2_per_Hz = 0.0;  // S_exc at the contact
+  double signal_V2_per_Hz = 0.0;          // R_eff^2 S_exc
+  double floor_V2_per_Hz = 0.0;           // e_n^2 + R_eff^2 i_n^2 + 4 k_B T R_eff
+  double floor_current_A2_per_Hz = 0.0;   // floor / R_eff^2
+  double snr = 0.0;                       // with the design's bandwidth and averaging time
+  std::optional<double> time_for_target_s;
+};
+
+struct CrossNoise {
+  int first = 0, second = 0;  // amplifier contacts
+  double excess_current_A2_per_Hz = 0.0;
+  double signal_V2_per_Hz = 0.0;
+  double snr = 0.0;
+  std::optional<double> time_for_target_s;
+};
+
+struct ColliderPrediction {
+  int constriction = 0;
+  int channel = 0;
+  int source_first = 0, source_second = 0;  // the constrictions whose reflected streams feed it
+  double stream_first_A = 0.0, stream_second_A = 0.0;
+  double i_plus_A = 0.0, i_minus_A = 0.0;
+  double tunnelling = 0.0;  // of the collider, 1 - t in the weak regime
+  double charge_e = 0.0;
+  double exchange_pi = 0.0, scaling = 0.0;
+  std::optional<double> fano;                 // P(I-/I+)
+  std::optional<double> s34_A2_per_Hz;        // 2 P e* I+ T (1 - T)
+  int output_first = -1, output_second = -1;  // contacts that receive most of each output
+  bool dilute = false, weak_tunnelling = false, exchange_below_half_pi = false;
+  double rate_over_temperature = 0.0;     // zeta, physics.md 6.6
+  std::optional<double> time_for_fano_s;  // averaging for P to +- NoiseOptions::collider_fano_uncertainty
+  std::vector<std::string> caveats;
+};
+
+struct NoiseResult {
+  double field_T = 0.0;
+  Matrix total_A2_per_Hz, excess_A2_per_Hz, equilibrium_A2_per_Hz;  // contact order, after floats
+  std::vector<CoherentLoop> loops;
+  bool phase_averaged = false;
+  int phase_samples = 1;
+  double unitarity_error = 0.0;             // max |s^+ s - 1| over channels and phases
+  double equilibrium_identity_error = 0.0;  // max |S_eq - 2 k_B T (G + G^T)| / max |2 k_B T G| (integer part)
+  std::vector<AmplifierNoise> amplifiers;
+  std::vector<CrossNoise> cross;
+  std::vector<ColliderPrediction> colliders;
+  std::vector<std::string> models;  // which model produced which numbers
+  std::vector<Finding> findings;
+};
+
+NoiseResult SolveNoise(const Design& design, const EdgeNetwork& network, const TransportResult& transport,
+                       const NoiseOptions& options = {});
+
+// The measurement chain at one amplifier contact (physics.md 8): the sample conductance gs seen there
+// in parallel with the load, S_V = R^2 S_exc + e_n^2 + R^2 i_n^2 + 4 k_B T R, SNR = S_sig / S_tot
+// sqrt(df t), and the averaging time for `target_sigmas`.
+AmplifierNoise AmplifierChain(double sample_conductance_S, const Amplifier& amplifier, double temperature_K,
+                              double excess_A2_per_Hz, double target_sigmas);
+
+// 2 e* V g t (1 - t) [coth(e* V / 2 k_B T) - 2 k_B T / (e* V)] (physics.md 5; tends to Kane & Fisher's
+// 2 e* I_B [...] with I_B = g (1 - t) V as t -> 1).
+double FractionalPartitionNoise_A2_per_Hz(double charge_C, double voltage_V, double conductance_S, double t,
+                                          double temperature_K);
+
+// F(x) = x coth(x / 2 k_B T) for an energy x (J), with F(0) = 2 k_B T.
+double ThermalShotFactor_J(double energy_J, double temperature_K);
+
+}  // namespace hallway

@@ -1,0 +1,340 @@
+// Noise at the contacts, collider Fano factors and the measurement chain, against the closed forms and
+// check values of ../shared/physics.md sections 4, 5, 6 and 8 and the papers they come from.
+#include <gsl/gsl_integration.h>
+#include <gtest/gtest.h>
+
+#include <cmath>
+#include <complex>
+#include <fstream>
+#include <numbers>
+#include <sstream>
+
+#include "hallway/collider.hpp"
+#include "hallway/constants.hpp"
+#include "hallway/design_loader.hpp"
+#include "hallway/network.hpp"
+#include "hallway/noise.hpp"
+#include "hallway/transport.hpp"
+#include "test_support.hpp"
+
+namespace hallway {
+namespace {
+
+using constants::kBoltzmann_J_per_K;
+using constants::kConductanceQuantum_S;
+using constants::kElementaryCharge_C;
+using test::NearRel;
+
+// physics.md quotes its check values to 7 significant digits.
+constexpr double kQuoted7 = 2e-6;
+
+std::string read(const std::string& rel) {
+  std::ifstream in(test::SourcePath(rel));
+  std::stringstream ss;
+  ss << in.rdbuf();
+  return ss.str();
+}
+
+struct Solved {
+  Design d;
+  TransportResult t;
+  NoiseResult n;
+};
+
+Solved run(const std::string& text, const NoiseOptions& opt = {}, double sign = 1.0) {
+  Solved r{LoadDesignFromString(text, "test.yaml"), {}, {}};
+  const EdgeNetwork net = TraceEdges(r.d, BuildChannelGeometry(r.d), sign * std::abs(r.d.conditions.field_T));
+  r.t = SolveTransport(r.d, net);
+  r.n = SolveNoise(r.d, net, r.t, opt);
+  return r;
+}
+
+int at(const Design& d, const std::string& name) {
+  for (std::size_t i = 0; i < d.contacts.size(); ++i)
+    if (d.contacts[i].name == name) return static_cast<int>(i);
+  ADD_FAILURE() << name;
+  return 0;
+}
+
+double S(const Solved& r, const Matrix& m, const char* a, const char* b) {
+  return m[static_cast<std::size_t>(at(r.d, a))][static_cast<std::size_t>(at(r.d, b))];
+}
+
+TEST(Noise, SingleQpcFourTerminalAtTwentyMillikelvin) {
+  // Blanter & Büttiker, Phys. Rep. 336, 1 (2000); physics.md 4.2 check: t = 0.5, V = 50 uV, 20 mK:
+  // S_33 = 1.872648e-28, S_34 = -1.444752e-28 A^2/Hz, thermal part 4 k_B T e^2/h = 4.278958e-29.
+  const Solved r = run(read("tests/data/noise/qpc4_nu1.yaml"));
+  EXPECT_TRUE(NearRel(S(r, r.n.total_A2_per_Hz, "NE", "NE"), 1.872648e-28, kQuoted7));
+  EXPECT_TRUE(NearRel(S(r, r.n.total_A2_per_Hz, "NE", "SW"), -1.444752e-28, kQuoted7));
+  EXPECT_TRUE(NearRel(S(r, r.n.equilibrium_A2_per_Hz, "NE", "NE"), 4.278958e-29, kQuoted7));
+  // The excess auto- and cross-correlations are equal and opposite at any temperature.
+  EXPECT_TRUE(NearRel(S(r, r.n.excess_A2_per_Hz, "NE", "NE"), -S(r, r.n.excess_A2_per_Hz, "NE", "SW"), 1e-12));
+  EXPECT_TRUE(NearRel(S(r, r.n.excess_A2_per_Hz, "SW", "SW"), S(r, r.n.excess_A2_per_Hz, "NE", "NE"), 1e-12));
+  EXPECT_LT(r.n.unitarity_error, 1e-12);
+  EXPECT_LT(r.n.equilibrium_identity_error, 1e-12);
+}
+
+TEST(Noise, SingleQpcShotNoiseAtZeroTemperatureIsTwoEIOneMinusT) {
+  // T -> 0: S_exc = 2 e I (1 - t) = 1.551726e-28 A^2/Hz (physics.md 4.2), I = t (e^2/h) V.
+  const Solved r =
+      run(test::replace(read("tests/data/noise/qpc4_nu1.yaml"), "temperature: 20 mK", "temperature: 1 nK"));
+  const double i = 0.5 * kConductanceQuantum_S * 50e-6;
+  // At 1 nK the remaining thermal correction 2 k_B T / eV is 3.4e-9.
+  EXPECT_TRUE(NearRel(S(r, r.n.excess_A2_per_Hz, "NE", "NE"), 2 * kElementaryCharge_C * i * 0.5, 1e-8));
+  EXPECT_TRUE(NearRel(S(r, r.n.excess_A2_per_Hz, "NE", "NE"), 1.551726e-28, kQuoted7));
+}
+
+TEST(Noise, DilutedSourceIsPartitionedAsIndependentElectrons) {
+  // physics.md 4.3 check: t_1 = 0.1 (QA reflects 0.1 towards C), t_2 = 0.5, V = 50 uV, T = 0:
+  // S_33 = 2.948280e-29, S_34 = -1.551726e-30 A^2/Hz.
+  const Solved r = run(read("tests/data/noise/diluted_nu1.yaml"));
+  EXPECT_TRUE(NearRel(S(r, r.n.excess_A2_per_Hz, "D1", "D1"), 2.948280e-29, kQuoted7));
+  EXPECT_TRUE(NearRel(S(r, r.n.excess_A2_per_Hz, "D2", "D2"), 2.948280e-29, kQuoted7));
+  EXPECT_TRUE(NearRel(S(r, r.n.excess_A2_per_Hz, "D1", "D2"), -1.551726e-30, kQuoted7));
+}
+
+TEST(Noise, FermionicColliderCrossCorrelation) {
+  // physics.md 4.3 (derived there, verified numerically): S_34 = -(2e^2/h) eV t_c(1-t_c)(t_a-t_b)^2;
+  // t_a = 0.05, t_b = 0.02, t_c = 0.5, 50 uV: -1.396554e-31 A^2/Hz. Balanced: exactly zero.
+  std::string text = read("tests/data/noise/diluted_nu1.yaml");
+  text = test::replace(text, "SB: source 0 uV", "SB: source 50 uV");
+  text = test::replace(text, "{name: QA, gates: [AW, CN], transmission: 0.9}",
+                       "{name: QA, gates: [AW, CN], transmission: 0.95}");
+  const std::string balanced = test::replace(text, "{name: QB, gates: [BE, CS], transmission: 0.95}",
+                                             "{name: QB, gates: [BE, CS], transmission: 0.95}");
+  text = test::replace(text, "{name: QB, gates: [BE, CS], transmission: 0.95}",
+                       "{name: QB, gates: [BE, CS], transmission: 0.98}");
+  const Solved r = run(text);
+  EXPECT_TRUE(NearRel(S(r, r.n.excess_A2_per_Hz, "D1", "D2"), -1.396554e-31, 1e-5));
+  const Solved b = run(balanced);
+  EXPECT_NEAR(S(b, b.n.excess_A2_per_Hz, "D1", "D2"), 0.0, 1e-40);
+}
+
+TEST(Noise, JohnsonNyquistAtZeroBiasForEveryContact) {
+  // Johnson, Phys. Rev. 32, 97 (1928); Nyquist, Phys. Rev. 32, 110 (1928) (from memory): at zero bias
+  // S_aa = 4 k_B T G_aa, with G the conductance after the floating contacts are eliminated.
+  for (const char* f : {"designs/01_hallbar_qpc.yaml", "designs/02_two_source_collider.yaml",
+                        "designs/03_fabry_perot.yaml", "tests/data/noise/qpc4_nu1.yaml"}) {
+    std::string text = read(f);
+    for (const char* from : {"source 10 uV", "source 30 uV", "source 20 uV", "source 50 uV"})
+      while (text.find(from) != std::string::npos) text = test::replace(text, from, "source 0 uV");
+    const Solved r = run(text);
+    const double kt = kBoltzmann_J_per_K * r.d.conditions.temperature_K;
+    for (std::size_t a = 0; a < r.d.contacts.size(); ++a) {
+      EXPECT_NEAR(r.n.excess_A2_per_Hz[a][a], 0.0, 1e-45) << f;
+      if (r.d.wiring[a].role == Role::kFloat) continue;
+      // Reduced conductance at a: G_aa - G_aF G_FF^-1 G_Fa, from the amplifier table where available.
+      for (const AmplifierNoise& amp : r.n.amplifiers)
+        if (amp.contact == static_cast<int>(a)) {
+          EXPECT_TRUE(NearRel(r.n.total_A2_per_Hz[a][a], 4 * kt / amp.sample_resistance_Ohm, 1e-9)) << f;
+        }
+    }
+  }
+}
+
+TEST(Noise, PhasesDropOutOfALoopFreeNetwork) {
+  const std::string text = read("designs/01_hallbar_qpc.yaml");
+  NoiseOptions a, b;
+  a.loop_phase_rad = 0.0;
+  b.loop_phase_rad = 2.1;
+  const Solved x = run(text), y = run(text, a), z = run(text, b);
+  EXPECT_TRUE(x.n.loops.empty());
+  EXPECT_FALSE(x.n.phase_averaged);
+  for (std::size_t i = 0; i < x.d.contacts.size(); ++i)
+    for (std::size_t j = 0; j < x.d.contacts.size(); ++j) {
+      EXPECT_DOUBLE_EQ(x.n.total_A2_per_Hz[i][j], y.n.total_A2_per_Hz[i][j]);
+      EXPECT_NEAR(x.n.total_A2_per_Hz[i][j], z.n.total_A2_per_Hz[i][j], 1e-42);
+    }
+}
+
+TEST(Noise, FabryPerotLoopIsFoundAndItsNoiseDependsOnThePhase) {
+  // A symmetric cavity (t1 = t2 = 0.5) transmits perfectly on resonance, so the partition noise
+  // vanishes there (Blanter & Büttiker 2000, double barrier); off resonance it does not.
+  const std::string text = read("designs/03_fabry_perot.yaml");
+  NoiseOptions on, off;
+  on.loop_phase_rad = 0.0;
+  off.loop_phase_rad = std::numbers::pi;
+  const Solved avg = run(text), res = run(text, on), anti = run(text, off);
+  ASSERT_EQ(avg.n.loops.size(), 1u);
+  EXPECT_EQ(avg.n.loops[0].constrictions.size(), 2u);
+  EXPECT_TRUE(avg.n.phase_averaged);
+  const double s_res = S(res, res.n.excess_A2_per_Hz, "E", "E"), s_anti = S(anti, anti.n.excess_A2_per_Hz, "E", "E");
+  const double s_avg = S(avg, avg.n.excess_A2_per_Hz, "E", "E");
+  EXPECT_NEAR(s_res, 0.0, 1e-40);
+  EXPECT_GT(s_anti, 0.0);
+  EXPECT_GT(s_avg, s_res);
+  EXPECT_LT(avg.n.unitarity_error, 1e-12);
+  EXPECT_LT(avg.n.equilibrium_identity_error, 1e-12);
+}
+
+TEST(FractionalNoise, WeakBackscatteringChargeOneThirdWithThermalCrossover) {
+  // Kane & Fisher, Phys. Rev. Lett. 72, 724 (1994): S_exc = 2 e* I_B [coth(e*V/2kT) - 2kT/e*V];
+  // physics.md 5 check: e* = e/3, I_B = 100 pA, V = 30 uV, 20 mK -> 7.064172e-30 (T -> 0: 1.068118e-29).
+  // hallway's form 2 e* V g t(1-t)[...] equals t times that at the same I_B = g (1 - t) V.
+  const double g = kConductanceQuantum_S / 3, v = 30e-6, ib = 100e-12;
+  const double t = 1.0 - ib / (g * v);
+  const double e3 = kElementaryCharge_C / 3;
+  EXPECT_TRUE(NearRel(FractionalPartitionNoise_A2_per_Hz(e3, v, g, t, 0.020) / t, 7.064172e-30, kQuoted7));
+  EXPECT_TRUE(NearRel(FractionalPartitionNoise_A2_per_Hz(e3, v, g, t, 1e-7) / t, 1.068118e-29, kQuoted7));
+  // Shot-noise slope at nu = 1/3 is one third of the electron value at equal backscattered current
+  // (common practice).
+  EXPECT_TRUE(NearRel(FractionalPartitionNoise_A2_per_Hz(e3, v, g, t, 1e-10) /
+                          FractionalPartitionNoise_A2_per_Hz(kElementaryCharge_C, v, g, t, 1e-10),
+                      1.0 / 3.0, 1e-8));
+  // Johnson term 4 k_B T G at nu = 1/3, 20 mK: 1.426319e-29 A^2/Hz (physics.md 5).
+  EXPECT_TRUE(NearRel(4 * kBoltzmann_J_per_K * 0.020 * g, 1.426319e-29, kQuoted7));
+}
+
+TEST(FractionalNoise, ConstrictionAtOneThirdInTheFourTerminalGeometry) {
+  std::string text = read("tests/data/noise/qpc4_nu1.yaml");
+  text = test::replace(text, "filling: 1", "filling: 1/3");
+  text = test::replace(text, "transmission: 0.5", "transmission: 0.9");
+  const Solved r = run(text);
+  const double expected =
+      FractionalPartitionNoise_A2_per_Hz(kElementaryCharge_C / 3, 50e-6, kConductanceQuantum_S / 3, 0.9, 0.020);
+  EXPECT_TRUE(NearRel(S(r, r.n.excess_A2_per_Hz, "NE", "NE"), expected, 1e-9));
+  EXPECT_TRUE(NearRel(S(r, r.n.excess_A2_per_Hz, "NE", "SW"), -expected, 1e-9));
+}
+
+TEST(Collider, BalancedFanoFactorsOfLaughlinStates) {
+  // Rosenow, Levkivskyi & Halperin, Phys. Rev. Lett. 116, 156802 (2016): P = -2/(m - 2) for nu = 1/m.
+  EXPECT_NEAR(ColliderFanoBalanced(std::numbers::pi / 3, 1.0 / 3), -2.0, 1e-12);
+  EXPECT_NEAR(ColliderFanoBalanced(std::numbers::pi / 5, 1.0 / 5), -2.0 / 3, 1e-12);
+  EXPECT_NEAR(ColliderFanoBalanced(std::numbers::pi / 7, 1.0 / 7), -0.4, 1e-12);
+  EXPECT_NEAR(ColliderFano(0.0, std::numbers::pi / 3, 1.0 / 3), -2.0, 1e-12);
+}
+
+TEST(Collider, ImbalancedFanoFactorTableOfThePhysicsNote) {
+  // physics.md 6.4 (derived there; same model and normalisation).
+  const double th = std::numbers::pi / 3, de = 1.0 / 3;
+  const std::pair<double, double> third[] = {
+      {0.10, -2.02669}, {0.25, -2.16757}, {0.50, -2.68121}, {0.75, -3.57454}, {0.90, -4.31620}};
+  for (const auto& [x, p] : third) {
+    EXPECT_NEAR(ColliderFano(x, th, de), p, 5e-5) << x;
+    EXPECT_NEAR(ColliderFano(-x, th, de), p, 5e-5) << "P(-x) = P(x)";
+  }
+  EXPECT_NEAR(ColliderFano(0.5, std::numbers::pi / 5, 0.2), -2.84423, 5e-5);
+  EXPECT_NEAR(ColliderFano(0.9, std::numbers::pi / 5, 0.2), -19.391, 5e-3);
+}
+
+// Re and Im of J(z) = int_0^inf t^(-2 delta) e^(-z t) dt by GSL adaptive quadrature (QAGS on [0, 1]
+// for the integrable singularity, QAGIU on [1, inf)).
+std::complex<double> laplace_power(std::complex<double> z, double delta) {
+  struct P {
+    std::complex<double> z;
+    double delta;
+    bool imag;
+  };
+  auto f = [](double t, void* vp) {
+    const P* p = static_cast<P*>(vp);
+    const double w = std::pow(t, -2 * p->delta) * std::exp(-p->z.real() * t);
+    return p->imag ? -w * std::sin(p->z.imag() * t) : w * std::cos(p->z.imag() * t);
+  };
+  gsl_integration_workspace* ws = gsl_integration_workspace_alloc(2000);
+  double parts[2];
+  for (int im = 0; im < 2; ++im) {
+    P p{z, delta, im == 1};
+    gsl_function F{f, &p};
+    double a = 0, b = 0, err = 0;
+    gsl_integration_qags(&F, 0.0, 1.0, 1e-13, 1e-11, 2000, ws, &a, &err);
+    gsl_integration_qagiu(&F, 1.0, 1e-13, 1e-11, 2000, ws, &b, &err);
+    parts[im] = a + b;
+  }
+  gsl_integration_workspace_free(ws);
+  return {parts[0], parts[1]};
+}
+
+// The time-domain braiding model of physics.md 6.2, with its time integrals done by quadrature and
+// the derivatives by central differences: P = [I+ dI_T/dI- + I- dI_T/dI+ - I_T^sym] / (I+ dI_T/dI-).
+double fano_by_quadrature(double x, double theta, double delta) {
+  const std::complex<double> phase = std::polar(1.0, -std::numbers::pi * delta);
+  auto rates = [&](double lp, double lm, double* it, double* isym) {
+    const double l1 = (lp + lm) / 2, l2 = (lp - lm) / 2;
+    const std::complex<double> z = l1 * (1.0 - std::polar(1.0, -2 * theta)) + l2 * (1.0 - std::polar(1.0, 2 * theta));
+    const double g12 = (phase * laplace_power(std::conj(z), delta)).real();
+    const double g21 = (phase * laplace_power(z, delta)).real();
+    *it = g12 - g21;
+    *isym = g12 + g21;
+  };
+  const double lp = 1.0, lm = x, h = 1e-4;
+  double it0, is0, itp, itm, ita, itb, dummy;
+  rates(lp, lm, &it0, &is0);
+  rates(lp, lm + h, &itp, &dummy);
+  rates(lp, lm - h, &itm, &dummy);
+  rates(lp + h, lm, &ita, &dummy);
+  rates(lp - h, lm, &itb, &dummy);
+  const double d_minus = (itp - itm) / (2 * h), d_plus = (ita - itb) / (2 * h);
+  return (lp * d_minus + lm * d_plus - is0) / (lp * d_minus);
+}
+
+TEST(Collider, ClosedFormAgreesWithNumericalTimeIntegralsFromGsl) {
+  EXPECT_NEAR(fano_by_quadrature(0.0, std::numbers::pi / 3, 1.0 / 3), -2.0, 1e-5);
+  EXPECT_NEAR(fano_by_quadrature(0.25, std::numbers::pi / 3, 1.0 / 3),
+              ColliderFano(0.25, std::numbers::pi / 3, 1.0 / 3), 1e-5);
+  EXPECT_NEAR(fano_by_quadrature(0.5, std::numbers::pi / 5, 0.2), ColliderFano(0.5, std::numbers::pi / 5, 0.2), 1e-4);
+}
+
+TEST(Collider, DemoColliderIsBalancedWithFanoFactorMinusTwo) {
+  const Solved r = run(read("designs/02_two_source_collider.yaml"));
+  ASSERT_EQ(r.n.colliders.size(), 1u);
+  const ColliderPrediction& c = r.n.colliders[0];
+  EXPECT_EQ(r.d.constrictions[static_cast<std::size_t>(c.constriction)].name, "C");
+  ASSERT_TRUE(c.fano);
+  EXPECT_NEAR(*c.fano, -2.0, 1e-9);
+  // Each stream is the current QA or QB reflects: (1/3)(e^2/h)(1 - 0.95)(30 uV).
+  const double stream = kConductanceQuantum_S / 3 * 0.05 * 30e-6;
+  EXPECT_TRUE(NearRel(c.stream_first_A, stream, 1e-9));
+  EXPECT_TRUE(NearRel(c.i_plus_A, 2 * stream, 1e-9));
+  EXPECT_NEAR(c.i_minus_A, 0.0, 1e-20);
+  // S_34 = 2 P e* I+ T(1 - T), T = 1 - 0.9 (physics.md A).
+  EXPECT_TRUE(NearRel(*c.s34_A2_per_Hz, 2 * -2.0 * kElementaryCharge_C / 3 * 2 * stream * 0.1 * 0.9, 1e-9));
+  EXPECT_TRUE(c.dilute);
+  EXPECT_TRUE(c.weak_tunnelling);
+  EXPECT_TRUE(c.exchange_below_half_pi);
+  ASSERT_TRUE(c.time_for_fano_s);
+}
+
+Amplifier amp(double load) {
+  Amplifier a;
+  a.load_Ohm = load;
+  a.voltage_noise_V_per_rtHz = 0.25e-9;
+  a.current_noise_A_per_rtHz = 0.0;
+  a.bandwidth_Hz = 1e5;
+  a.integration_s = 1.0;
+  return a;
+}
+
+TEST(Measurement, WorkedSignalToNoiseExamplesOfThePhysicsNote) {
+  // physics.md 8 worked example (radiometer formula, Dicke, Rev. Sci. Instrum. 17, 268 (1946), from
+  // memory): T = 20 mK, e_n = 0.25 nV/rtHz, signal 2 e* I_B with I_B = 100 pA, df = 100 kHz, t = 1 s.
+  const double ib = 100e-12, e = kElementaryCharge_C;
+  const AmplifierNoise a = AmplifierChain(kConductanceQuantum_S / 3, amp(1e5), 0.020, 2 * e / 3 * ib, 10);
+  EXPECT_TRUE(NearRel(a.effective_resistance_Ohm, 43642.4, 2e-6));
+  EXPECT_TRUE(NearRel(a.signal_V2_per_Hz, 2.0344e-20, 1e-4));
+  EXPECT_TRUE(NearRel(a.floor_V2_per_Hz - 6.25e-20, 4.8204e-20, 1e-4));
+  EXPECT_NEAR(a.snr, 49.1, 0.05);
+  EXPECT_NEAR(*a.time_for_target_s, 0.041, 0.0005);
+  EXPECT_TRUE(NearRel(a.floor_current_A2_per_Hz, 5.81e-29, 1e-3));
+  const AmplifierNoise b = AmplifierChain(2 * kConductanceQuantum_S, amp(1e5), 0.020, 2 * e * ib, 10);
+  EXPECT_TRUE(NearRel(b.effective_resistance_Ohm, 11431.1, 1e-5));
+  EXPECT_NEAR(b.snr, 16.7, 0.05);
+  EXPECT_NEAR(*b.time_for_target_s, 0.36, 0.005);
+  // With R_L -> infinity the amplifier sees R_H = h/(nu e^2) = 3 x 25812.807 = 77438.42 Ohm. (physics.md 8
+  // prints 77432.4 there, an arithmetic slip; its SNR 95.5 and 0.011 s are unchanged at this precision.)
+  const AmplifierNoise c = AmplifierChain(kConductanceQuantum_S / 3, amp(1e30), 0.020, 2 * e / 3 * ib, 10);
+  EXPECT_TRUE(NearRel(c.effective_resistance_Ohm, 3 * constants::kVonKlitzing_Ohm, 1e-12));
+  EXPECT_NEAR(c.snr, 95.5, 0.05);
+  EXPECT_NEAR(*c.time_for_target_s, 0.011, 0.0005);
+}
+
+TEST(Noise, DefaultOptionsAreValid) {
+  std::string why;
+  EXPECT_TRUE(NoiseOptions{}.IsValid(&why)) << why;
+  NoiseOptions bad;
+  bad.phase_samples = 0;
+  EXPECT_FALSE(bad.IsValid(&why));
+  EXPECT_NE(why.find("phase_samples"), std::string::npos);
+}
+
+}  // namespace
+}  // namespace hallway
