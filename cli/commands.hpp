@@ -46,3 +46,16 @@ struct NoiseArgs {
 int RunNoise(const NoiseArgs& args);
 
 }  // namespace hallway::cli
+
+namespace hallway::cli {
+
+struct MapArgs {
+  std::string design_path;
+  std::string json_path;
+  std::string csv_path;
+  std::string grid;  // "10nm"; empty: automatic
+};
+
+int RunMap(const MapArgs& args);
+
+}  // namespace hallway::cli

@@ -41,6 +41,13 @@ int main(int argc, char** argv) {
       n->add_option("--phase", noise.phase_rad, "Fix the interferometer loop phase (rad) instead of averaging");
   n->add_option("--target", noise.target_sigmas, "Signal-to-noise asked of every correlation (default 10)");
 
+  MapArgs map;
+  auto* mp = app.add_subcommand("map", "Self-consistent depletion, pinch-off voltages and edge positions");
+  mp->add_option("design", map.design_path, "Design file (YAML)")->required();
+  mp->add_option("--grid", map.grid, "Cell size of the whole-mesa grid, e.g. 10nm (default: automatic)");
+  mp->add_option("--json", map.json_path, "Also write the results as JSON to this file");
+  mp->add_option("--csv", map.csv_path, "Write the density and filling grid as CSV to this file");
+
   try {
     app.parse(argc, argv);
   } catch (const CLI::CallForHelp& e) {
@@ -54,6 +61,7 @@ int main(int argc, char** argv) {
   try {
     if (*c) return RunCheck(check);
     if (*s) return RunSolve(solve);
+    if (*mp) return RunMap(map);
     if (*n) {
       noise.phase_given = phase->count() > 0;
       return RunNoise(noise);

@@ -1,0 +1,141 @@
+// `hallway map`: self-consistent depletion, pinch-off voltages, lateral depletion, density grids.
+#include <fmt/core.h>
+
+#include <cmath>
+#include <iostream>
+#include <nlohmann/json.hpp>
+
+#include "commands.hpp"
+#include "hallway/check.hpp"
+#include "hallway/constants.hpp"
+#include "hallway/map.hpp"
+#include "hallway/units.hpp"
+#include "output.hpp"
+
+namespace hallway::cli {
+namespace {
+using nlohmann::json;
+using units::FormatSI;
+std::string volts(const std::optional<double>& v, const char* none) {
+  return v ? FormatSI(*v, "V") : std::string(none);
+}
+}  // namespace
+
+int RunMap(const MapArgs& args) {
+  Design d;
+  if (int code = 0; !LoadOrReport(args.design_path, &d, &code)) return code;
+  MapOptions opt;
+  if (!args.grid.empty()) {
+    try {
+      opt.electrostatics.grid_m = units::Parse(args.grid, units::Kind::kLength);
+    } catch (const units::UnitError& e) {
+      std::cerr << "hallway: usage error: --grid: " << e.what() << "\n";
+      return kExitUsage;
+    }
+    if (!(opt.electrostatics.grid_m >= 1e-9)) {
+      std::cerr << "hallway: usage error: --grid must be at least 1 nm\n";
+      return kExitUsage;
+    }
+  }
+  const CheckResult check = CheckDesign(d);
+  if (ReportErrors(check.findings) > 0) {
+    std::cerr << "hallway: run `hallway check` for the full list; nothing was solved\n";
+    return kExitDesignError;
+  }
+  MapResult m;
+  try {
+    m = ComputeMap(d, opt);
+  } catch (const std::length_error& e) {
+    std::cerr << "hallway: design error: " << e.what() << "\n";
+    return kExitDesignError;
+  }
+  if (ReportErrors(m.findings) > 0) {
+    std::cerr << "hallway: the electrostatic solve did not converge; no map is reported\n";
+    return kExitDesignError;
+  }
+  std::string out = fmt::format("hallway map  {}\n", d.path);
+  if (!d.name.empty()) out += fmt::format("  design: {}\n", d.name);
+  out +=
+      "  model: self-consistent Thomas-Fermi density under a pinned surface with the image kernel and the quantum\n"
+      "  capacitance (physics.md 1.1-1.3), bound-constrained QP by primal-dual active sets with FFT-preconditioned "
+      "CG\n";
+  const auto& s = m.map.stats;
+  out += fmt::format("  whole mesa: grid {} x {} cells of {}, {} operator applications, residual {:.2e} (n/n_s), {}\n",
+                     m.map.nx, m.map.ny, FormatSI(m.map.cell_m, "m"), s.operator_applications, s.residual,
+                     s.converged ? "converged" : "NOT converged");
+  out += fmt::format("  {} solves in all, {} operator applications, {:.3g} s\n", m.solves, m.operator_applications,
+                     m.seconds);
+  out += "\nGates\n";
+  out += fmt::format("  {:<8} {:>12} {:>16} {:>18} {:>14}\n", "gate", "wide V_dep", "V_dep (its size)",
+                     "lateral depletion", "edge drift");
+  for (const GateMap& g : m.gates)
+    out += fmt::format(
+        "  {:<8} {:>12} {:>16} {:>18} {:>14}\n", g.name, FormatSI(g.wide_depletion_V, "V"),
+        volts(g.depletion_V, "below limit"),
+        g.lateral_depletion_m ? FormatSI(*g.lateral_depletion_m, "m") : std::string("n/a"),
+        g.drift_velocity_m_per_s ? fmt::format("{:.3g} m/s", *g.drift_velocity_m_per_s) : std::string("n/a"));
+  if (!m.constrictions.empty()) {
+    out += "\nConstrictions (both sides swept together, other gates at their design voltages)\n";
+    out += fmt::format("  {:<8} {:>10} {:>22} {:>16} {:>16}\n", "name", "gap", "saddle density", "pinch-off",
+                       "bare estimate");
+    for (const ConstrictionMap& c : m.constrictions)
+      out +=
+          fmt::format("  {:<8} {:>10} {:>16.4g} m^-2 {:>16} {:>16}\n", c.name, FormatSI(c.gap_m, "m"),
+                      c.saddle_density_per_m2, volts(c.pinch_off_V, "below limit"), volts(c.bare_pinch_off_V, "n/a"));
+  }
+  out +=
+      "\nPinch-off and depletion voltages are estimates; approach them slowly. A gate driven past its leakage or\n"
+      "breakdown onset can destroy the sample.\n";
+  out += kSafetyCaution;
+  std::cout << out;
+  try {
+    if (!args.csv_path.empty()) {
+      std::string csv = "x_m,y_m,density_per_m2,filling\n";
+      const double scale = constants::kPlanck_Js / (constants::kElementaryCharge_C * std::abs(d.conditions.field_T));
+      for (int j = 0; j < m.map.ny; ++j)
+        for (int i = 0; i < m.map.nx; ++i) {
+          const double n = m.map.density_per_m2[static_cast<std::size_t>(j) * m.map.nx + i];
+          csv += fmt::format("{:.6e},{:.6e},{:.6e},{:.6g}\n", m.map.x0_m + i * m.map.cell_m,
+                             m.map.y0_m + j * m.map.cell_m, n, n * scale);
+        }
+      WriteFileAtomically(args.csv_path, csv, {args.design_path});
+    }
+    if (!args.json_path.empty()) {
+      json j;
+      j["hallway_map"] = 1;
+      j["design"] = d.path;
+      json gates = json::array();
+      for (const GateMap& g : m.gates) {
+        json x = {{"name", g.name}, {"wide_depletion_V", g.wide_depletion_V}};
+        x["depletion_V"] = g.depletion_V ? json(*g.depletion_V) : json(nullptr);
+        x["lateral_depletion_m"] = g.lateral_depletion_m ? json(*g.lateral_depletion_m) : json(nullptr);
+        x["drift_velocity_m_per_s"] = g.drift_velocity_m_per_s ? json(*g.drift_velocity_m_per_s) : json(nullptr);
+        gates.push_back(x);
+      }
+      j["gates"] = gates;
+      json ks = json::array();
+      for (const ConstrictionMap& c : m.constrictions) {
+        json x = {{"name", c.name}, {"gap_m", c.gap_m}, {"saddle_density_m2", c.saddle_density_per_m2}};
+        x["pinch_off_V"] = c.pinch_off_V ? json(*c.pinch_off_V) : json(nullptr);
+        x["bare_pinch_off_V"] = c.bare_pinch_off_V ? json(*c.bare_pinch_off_V) : json(nullptr);
+        ks.push_back(x);
+      }
+      j["constrictions"] = ks;
+      j["solver"] = {{"grid", {m.map.nx, m.map.ny}},
+                     {"cell_m", m.map.cell_m},
+                     {"operator_applications", s.operator_applications},
+                     {"residual", s.residual},
+                     {"converged", s.converged},
+                     {"solves", m.solves},
+                     {"total_operator_applications", m.operator_applications},
+                     {"seconds", m.seconds}};
+      WriteFileAtomically(args.json_path, j.dump(2) + "\n", {args.design_path});
+    }
+  } catch (const OutputError& e) {
+    std::cerr << "hallway: output error: " << e.what() << "\n";
+    return kExitOutputError;
+  }
+  return kExitOk;
+}
+
+}  // namespace hallway::cli

@@ -1,0 +1,88 @@
+// hallway/electrostatics.hpp: surface gates over a 2DEG at depth d, pinned surface
+// (physics.md sections 1.1 - 1.4).
+//
+// Bare potential of a polygon gate at voltage V in the 2DEG plane (solid angle of the polygon seen
+// from the point, Davies, Larkin & Sukhorukov, J. Appl. Phys. 77, 4504 (1995); per-edge form of
+// physics.md 1.1 with the Van Oosterom-Strackee triangle formula):
+//   phi = (V s / pi) sum_edges atan2(a x b, R_a R_b + d (R_a + R_b) + a.b + d^2),  R = sqrt(a^2 + d^2).
+// Thomas-Fermi self-consistency (physics.md 1.2): U = -e phi_g + e^2 K * (n - n_bg),
+// n = D [E_F0 - U]_+, with the image kernel K(r) = (1/4 pi eps)(1/r - 1/sqrt(r^2 + 4 d^2)), the
+// background n_bg = n_s on the mesa, and n = 0 outside the mesa eroded by the etch depletion. With
+// u = n / n_s this is the bound-constrained convex quadratic programme
+//   min 1/2 u^T H u - b^T u,  u >= 0,  H = 1 + e^2 D h^2 K*,  b = 1 + e phi_g / E_F0 + e^2 D h^2 K * chi_mesa,
+// solved by a primal-dual active-set method whose linear solves are conjugate gradients
+// preconditioned by the Fourier-diagonal inverse of H on the zero-padded grid (FFTW).
+#pragma once
+
+#include <cstddef>
+#include <memory>
+#include <optional>
+#include <string>
+#include <vector>
+
+#include "hallway/design.hpp"
+#include "hallway/geometry/polygon.hpp"
+
+namespace hallway {
+
+// phi / V at q for a gate outline p (any orientation), 2DEG depth d. Exact, finite on edges and vertices.
+double GatePotentialPerVolt(const geometry::Polygon& p, geometry::Point q, double depth_m);
+
+struct ElectrostaticsOptions {
+  double grid_m = 0.0;      // cell size; 0: automatic, min(d / 3, smallest gap / 6), at least 5 nm,
+                            // coarser only to stay within a million cells
+  double margin_m = 0.0;    // grid beyond the mesa's bounding box; 0: 3 d
+  double tolerance = 1e-6;  // stop when max |u - [u - (Hu - b)]_+| < tolerance (u = n / n_s)
+  int max_operator_applications = 5000;
+  int max_active_set_steps = 100;
+  int threads = 2;  // FFTW threads
+  std::size_t max_memory_bytes = std::size_t{4} << 30;
+  bool IsValid(std::string* why) const;
+};
+
+struct ElectrostaticsStats {
+  bool converged = false;
+  double residual = 0.0;  // final max |u - [u - (Hu - b)]_+|
+  int operator_applications = 0;
+  int active_set_steps = 0;
+  double seconds = 0.0;
+};
+
+struct DensityMap {
+  int nx = 0, ny = 0;
+  double x0_m = 0.0, y0_m = 0.0, cell_m = 0.0;  // centre of cell (0, 0) and spacing
+  std::vector<double> density_per_m2;           // row-major, index j * nx + i
+  std::vector<double> energy_over_fermi;        // U / E_F0 (0 at the Fermi level of the ungated 2DEG)
+  ElectrostaticsStats stats;
+  double At(geometry::Point p) const;        // bilinear interpolation of the density (0 outside)
+  double EnergyAt(geometry::Point p) const;  // bilinear interpolation of U / E_F0
+};
+
+// The geometry-dependent set-up (grid, kernel transform, unit gate potentials, FFT plans) is built
+// once; Solve() then takes any gate voltages and an optional starting density.
+class ElectrostaticProblem {
+ public:
+  ElectrostaticProblem(const Design& design, const ElectrostaticsOptions& options = {});
+  ~ElectrostaticProblem();
+  ElectrostaticProblem(const ElectrostaticProblem&) = delete;
+  ElectrostaticProblem& operator=(const ElectrostaticProblem&) = delete;
+
+  int nx() const;
+  int ny() const;
+  double cell_m() const;
+  std::size_t memory_bytes() const;  // estimate made before allocating
+  // voltages: one per design gate, in design order.
+  DensityMap Solve(const std::vector<double>& gate_voltages_V, const DensityMap* start = nullptr) const;
+  // H applied to a density (u = n / n_s) by FFT, and by a direct sum (for tests; O(N^2)).
+  std::vector<double> ApplyOperator(const std::vector<double>& u) const;
+  std::vector<double> ApplyOperatorDirect(const std::vector<double>& u) const;
+
+ private:
+  struct Impl;
+  std::unique_ptr<Impl> impl_;
+};
+
+// Estimated bytes for a grid of nx x ny cells with `gates` gates (checked against the limit first).
+std::size_t ElectrostaticMemoryEstimate(int nx, int ny, int gates);
+
+}  // namespace hallway

@@ -1,0 +1,68 @@
+// hallway/map.hpp: what the self-consistent electrostatics says about a layout (`hallway map`).
+//
+// For each gate: the wide-gate depletion voltage (physics.md 1.3) and the voltage at which the 2DEG
+// under the gate itself empties (the gate alone, the others at 0 V), the lateral depletion width
+// at the design voltages, and the E x B drift velocity v = E / |B| of the edge there (physics.md 7).
+// For each constriction: the gap, the density at its saddle (the middle of the gap) at the design
+// voltages, and the pinch-off voltage: both sides swept together, the other gates at their design
+// voltages, bisection on the self-consistent saddle density to `pinch_resolution_V`, each solve
+// starting from the previous one. Constrictions and gates are solved on a local window of the mesa
+// (`window_m` around the gap or the gate), the whole mesa once at the design voltages.
+#pragma once
+
+#include <optional>
+#include <string>
+#include <vector>
+
+#include "hallway/check.hpp"
+#include "hallway/design.hpp"
+#include "hallway/electrostatics.hpp"
+
+namespace hallway {
+
+struct MapOptions {
+  ElectrostaticsOptions electrostatics;  // for the whole-mesa map
+  double local_grid_m = 0.0;             // cell size of the local windows; 0: min(d / 4, gap / 8)
+  double window_m = 0.0;                 // half-size of a local window; 0: 12 d beyond the gap or gate
+  double pinch_resolution_V = 1e-3;
+  double empty_fraction = 1e-3;   // "empty" means n < empty_fraction n_s
+  double search_limit_V = -10.0;  // no search below this gate voltage
+  bool IsValid(std::string* why) const;
+};
+
+struct GateMap {
+  std::string name;
+  double wide_depletion_V = 0.0;                 // plate + quantum capacitance
+  std::optional<double> depletion_V;             // at its actual size; nullopt above the search limit
+  std::optional<double> lateral_depletion_m;     // at the design voltage (median over its edges)
+  std::optional<double> drift_velocity_m_per_s;  // at the depletion edge, design voltage and field
+};
+
+struct ConstrictionMap {
+  std::string name;
+  double gap_m = 0.0;
+  double saddle_density_per_m2 = 0.0;  // at the design voltages
+  std::optional<double> pinch_off_V;   // nullopt: not pinched off above the search limit
+  std::optional<double> bare_pinch_off_V;
+  int solves = 0;
+};
+
+struct MapResult {
+  DensityMap map;  // whole mesa, design voltages
+  std::vector<GateMap> gates;
+  std::vector<ConstrictionMap> constrictions;
+  int solves = 0;
+  int operator_applications = 0;
+  double seconds = 0.0;
+  bool all_converged = true;
+  std::vector<Finding> findings;
+};
+
+MapResult ComputeMap(const Design& design, const MapOptions& options = {});
+
+// The window around a point: the part of the mesa within half-size `half` (the piece that contains
+// `centre`), as a design whose mesa is that window and whose gates, heterostructure and conditions
+// are the design's.
+Design LocalWindow(const Design& design, geometry::Point centre, double half_x_m, double half_y_m);
+
+}  // namespace hallway
