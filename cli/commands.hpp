@@ -21,6 +21,7 @@ struct SolveArgs {
   std::string design_path;
   std::string json_path;
   bool reversed_only = false;
+  bool fast = false;          // bare-potential boundaries instead of the self-consistent density
   std::string four_terminal;  // "I+,I-,V+,V-" contact names, empty: none
 };
 
@@ -38,6 +39,7 @@ struct NoiseArgs {
   std::string sweep;  // "SA,SB=0:50uV:11"
   std::string ratio;  // "1,0.5": bias multipliers of the swept contacts
   bool reversed_only = false;
+  bool fast = false;
   bool phase_given = false;
   double phase_rad = 0.0;
   double target_sigmas = 10.0;

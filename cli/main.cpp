@@ -26,6 +26,7 @@ int main(int argc, char** argv) {
   s->add_option("design", solve.design_path, "Design file (YAML)")->required();
   s->add_option("--json", solve.json_path, "Also write the results as JSON to this file");
   s->add_flag("--field-reversed", solve.reversed_only, "Solve only the reversed field -B");
+  s->add_flag("--fast", solve.fast, "Bare-potential channel boundaries instead of the self-consistent density");
   s->add_option("--four-terminal", solve.four_terminal,
                 "Print R = (V+ - V-)/I for current I from I+ to I-: I+,I-,V+,V-");
 
@@ -37,6 +38,7 @@ int main(int argc, char** argv) {
   n->add_option("--ratio", noise.ratio, "Bias factors of the swept contacts, e.g. 1,0.5 (imbalance)");
   n->add_option("--csv", noise.csv_path, "Write the sweep as CSV to this file");
   n->add_flag("--field-reversed", noise.reversed_only, "Solve for the reversed field -B");
+  n->add_flag("--fast", noise.fast, "Bare-potential channel boundaries instead of the self-consistent density");
   auto* phase =
       n->add_option("--phase", noise.phase_rad, "Fix the interferometer loop phase (rad) instead of averaging");
   n->add_option("--target", noise.target_sigmas, "Signal-to-noise asked of every correlation (default 10)");

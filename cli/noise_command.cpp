@@ -248,11 +248,14 @@ int RunNoise(const NoiseArgs& args) {
   NoiseOptions opt;
   opt.target_sigmas = args.target_sigmas;
   if (args.phase_given) opt.loop_phase_rad = args.phase_rad;
-  const ChannelGeometry geometry = BuildChannelGeometry(d);
+  ChannelGeometry geometry;
+  std::string es_note;
+  if (int code = 0; !BuildGeometry(d, args.fast, &geometry, &es_note, &code)) return code;
   const double field = args.reversed_only ? -d.conditions.field_T : d.conditions.field_T;
   const EdgeNetwork net = TraceEdges(d, geometry, field);
   std::vector<Finding> errors;
-  for (const auto* list : {&geometry.findings, &net.findings})
+  for (const std::vector<Finding>* list :
+       std::initializer_list<const std::vector<Finding>*>{&geometry.findings, &net.findings})
     for (const Finding& f : *list)
       if (f.severity == Severity::kError) errors.push_back(f);
   if (!errors.empty()) {
@@ -273,13 +276,15 @@ int RunNoise(const NoiseArgs& args) {
   out += fmt::format("  bulk filling nu = {}, field {:+.4g} T{}, temperature {}\n", d.conditions.filling.ToString(),
                      field, args.reversed_only ? " (reversed)" : "", FormatSI(d.conditions.temperature_K, "K"));
   out += fmt::format("  edge boundaries: {}\n", geometry.model);
+  out += es_note;
   out += "  models:\n";
   for (const auto& m : n.models) out += "    - " + m + "\n";
   out += fmt::format("  checks: |s^+ s - 1| = {:.1e}; equilibrium noise against 2kT(G + G^T): {:.1e} relative\n",
                      n.unitarity_error, n.equilibrium_identity_error);
   out += print_noise(d, n);
   std::vector<std::string> warnings;
-  for (const auto* list : {&check.findings, &geometry.findings, &net.findings, &tr.findings, &n.findings})
+  for (const std::vector<Finding>* list : std::initializer_list<const std::vector<Finding>*>{
+           &check.findings, &geometry.findings, &net.findings, &tr.findings, &n.findings})
     for (const Finding& f : *list) warnings.push_back(f.message);
   if (!warnings.empty()) {
     out += "\nWarnings\n";

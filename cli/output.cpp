@@ -11,6 +11,7 @@
 #include <random>
 
 #include "hallway/design_loader.hpp"
+#include "hallway/electrostatics.hpp"
 
 namespace hallway::cli {
 
@@ -25,6 +26,40 @@ bool LoadOrReport(const std::string& path, Design* design, int* exit_code) {
     *design = LoadDesign(path);
     return true;
   } catch (const DesignError& e) {
+    std::cerr << "hallway: design error: " << e.what() << "\n";
+    *exit_code = kExitDesignError;
+    return false;
+  }
+}
+
+bool BuildGeometry(const Design& design, bool fast, ChannelGeometry* geometry, std::string* note, int* exit_code) {
+  if (fast) {
+    *geometry = BuildChannelGeometry(design);
+    *note += "  (--fast: bare-potential boundaries, no electrostatic solve)\n";
+    return true;
+  }
+  try {
+    const ElectrostaticProblem problem(design);
+    std::vector<double> volts;
+    for (const Gate& g : design.gates) volts.push_back(g.voltage_V);
+    const DensityMap map = problem.Solve(volts);
+    char buf[256];
+    std::snprintf(buf, sizeof buf,
+                  "  electrostatics: %d x %d cells of %.3g nm, %d operator applications, residual %.1e, %s, %.2g s\n",
+                  map.nx, map.ny, map.cell_m * 1e9, map.stats.operator_applications, map.stats.residual,
+                  map.stats.converged ? "converged" : "NOT converged", map.stats.seconds);
+    *note += buf;
+    if (!map.stats.converged) {
+      std::cerr << "hallway: the electrostatic solve did not converge (residual " << map.stats.residual
+                << "); use --fast for the bare estimate\n";
+      *exit_code = kExitDesignError;
+      return false;
+    }
+    NetworkOptions options;
+    options.density = &map;
+    *geometry = BuildChannelGeometry(design, options);
+    return true;
+  } catch (const std::length_error& e) {
     std::cerr << "hallway: design error: " << e.what() << "\n";
     *exit_code = kExitDesignError;
     return false;

@@ -187,7 +187,9 @@ int RunSolve(const SolveArgs& args) {
     std::cerr << "hallway: run `hallway check` for the full list; nothing was solved\n";
     return kExitDesignError;
   }
-  const ChannelGeometry geometry = BuildChannelGeometry(d);
+  ChannelGeometry geometry;
+  std::string es_note;
+  if (int code = 0; !BuildGeometry(d, args.fast, &geometry, &es_note, &code)) return code;
   std::vector<double> fields;
   if (!args.reversed_only) fields.push_back(d.conditions.field_T);
   fields.push_back(-d.conditions.field_T);
@@ -218,6 +220,7 @@ int RunSolve(const SolveArgs& args) {
                      field_text(d.conditions.field_T),
                      args.reversed_only ? "solving the reversed field only" : "also solving the reversed field");
   out += fmt::format("  edge boundaries: {}\n", geometry.model);
+  out += es_note;
   out += "\nWhere the channels run\n";
   for (const ChannelRegion& cr : geometry.channels) {
     std::string refl, pass;
@@ -228,8 +231,8 @@ int RunSolve(const SolveArgs& args) {
                        pass, cr.region.Area() * 1e12);
   }
   for (std::size_t i = 0; i < d.gates.size(); ++i)
-    out += fmt::format("  gate {}: lateral depletion {}, local filling under it {:.3g}\n", d.gates[i].name,
-                       FormatSI(geometry.lateral_depletion_m[i], "m"), geometry.local_filling[i]);
+    out += fmt::format("  gate {}: bare lateral depletion estimate {}, local filling under it {:.3g}\n",
+                       d.gates[i].name, FormatSI(geometry.lateral_depletion_m[i], "m"), geometry.local_filling[i]);
   for (const Solved& s : solved) print_field(out, d, s);
   if (solved.size() == 2) {
     out += "\nWhat changes under B -> -B\n";

@@ -142,7 +142,8 @@ TEST(Cli, SolveEveryDemoDesignForBothFieldDirections) {
     EXPECT_EQ(r.exit_code, 0) << f << "\n" << r.output;
     EXPECT_NE(r.output.find("At B = +"), std::string::npos) << r.output;
     EXPECT_NE(r.output.find("At B = -"), std::string::npos) << r.output;
-    EXPECT_NE(r.output.find("bare-potential lateral depletion estimate"), std::string::npos) << "model not stated";
+    EXPECT_NE(r.output.find("self-consistent Thomas-Fermi density"), std::string::npos) << "model not stated";
+    EXPECT_NE(r.output.find("electrostatics: "), std::string::npos) << "solver statistics missing";
   }
 }
 
@@ -168,7 +169,8 @@ TEST(Cli, SolveJsonHasTheAgreedKeys) {
 
 TEST(Cli, SolveFourTerminalAndReversedFieldOnly) {
   const std::string design = test::SourcePath("tests/data/network/qpc_nu2_k1.yaml");
-  const CommandRun r = hallway("solve '" + design + "' --field-reversed --four-terminal W,E,NW,NE");
+  const CommandRun r = hallway("solve '" + design + "' --fast --field-reversed --four-terminal W,E,NW,NE");
+  EXPECT_NE(r.output.find("bare-potential lateral depletion estimate"), std::string::npos) << "--fast model not stated";
   EXPECT_EQ(r.exit_code, 0) << r.output;
   EXPECT_EQ(r.output.find("At B = +"), std::string::npos) << r.output;
   EXPECT_NE(r.output.find("(0.500000 h/e^2)"), std::string::npos) << r.output;

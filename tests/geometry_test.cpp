@@ -4,6 +4,7 @@
 
 #include <cmath>
 #include <limits>
+#include <numbers>
 
 #include "hallway/geometry/exact.hpp"
 #include "hallway/geometry/polygon.hpp"
@@ -121,6 +122,49 @@ TEST(Polygon, DefectsAreNamed) {
   EXPECT_EQ(find_defect(Polygon{{{0, 0}, {3, 3}, {3, 0}, {0, 1}}}), PolygonDefect::kSelfIntersecting);
   EXPECT_EQ(find_defect(Polygon{{{0, 0}, {std::nan(""), 0}, {0, 1}}}), PolygonDefect::kNotFinite);
   EXPECT_EQ(find_defect(l_shape()), PolygonDefect::kNone);
+}
+
+}  // namespace
+}  // namespace hallway::geometry
+
+#include "hallway/geometry/contour.hpp"
+
+namespace hallway::geometry {
+namespace {
+
+TEST(Contour, LevelCurveOfADiscHasItsAreaAndRunsCounterClockwise) {
+  // f = R - r sampled on a grid: the level curve f = 0 is the circle of radius R (area pi R^2);
+  // marching squares with linear interpolation is accurate to O(h^2).
+  const int n = 201;
+  const double h = 0.01, radius = 0.6;
+  std::vector<double> f(static_cast<std::size_t>(n * n));
+  for (int j = 0; j < n; ++j)
+    for (int i = 0; i < n; ++i) f[static_cast<std::size_t>(j * n + i)] = radius - std::hypot(-1 + i * h, -1 + j * h);
+  const auto loops = LevelCurves({n, n, -1.0, -1.0, h, f.data()}, 0.0);
+  ASSERT_EQ(loops.size(), 1u);
+  EXPECT_GT(signed_area(loops[0]), 0.0);
+  EXPECT_TRUE(test::NearRel(area(loops[0]), std::numbers::pi * radius * radius, 1e-3));
+  const Polygon s = Simplify(loops[0], 1e-3);
+  EXPECT_LT(s.vertices.size(), loops[0].vertices.size());
+  EXPECT_TRUE(test::NearRel(area(s), area(loops[0]), 2e-3));
+  EXPECT_EQ(find_defect(s), PolygonDefect::kNone);
+}
+
+TEST(Contour, AnnulusGivesAnOuterRingAndAClockwiseHole) {
+  const int n = 201;
+  const double h = 0.01;
+  std::vector<double> f(static_cast<std::size_t>(n * n));
+  for (int j = 0; j < n; ++j)
+    for (int i = 0; i < n; ++i) {
+      const double r = std::hypot(-1 + i * h, -1 + j * h);
+      f[static_cast<std::size_t>(j * n + i)] = (r > 0.3 && r < 0.8) ? 1.0 : -1.0;
+    }
+  const auto loops = LevelCurves({n, n, -1.0, -1.0, h, f.data()}, 0.0);
+  ASSERT_EQ(loops.size(), 2u);
+  int ccw = 0, cw = 0;
+  for (const auto& l : loops) (signed_area(l) > 0 ? ccw : cw)++;
+  EXPECT_EQ(ccw, 1);
+  EXPECT_EQ(cw, 1);
 }
 
 }  // namespace

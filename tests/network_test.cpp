@@ -11,6 +11,7 @@
 
 #include "hallway/constants.hpp"
 #include "hallway/design_loader.hpp"
+#include "hallway/electrostatics.hpp"
 #include "hallway/network.hpp"
 #include "hallway/transport.hpp"
 #include "test_support.hpp"
@@ -224,6 +225,25 @@ TEST(Landauer, ConductanceMatrixDoesNotDependOnContactNamesOrOrder) {
                        b.plus.conductance_S[static_cast<std::size_t>(bi)][static_cast<std::size_t>(bj)])
           << ci.name << "," << cj.name;
     }
+}
+
+TEST(Landauer, SelfConsistentBoundariesGiveTheSameQuantisedResistances) {
+  // The same QPC (K = 1 of N = 2) with the channel regions taken from the Thomas-Fermi density:
+  // the topology, and so R_L = 0.5 h/e^2 (Beenakker & van Houten 1991), must not change.
+  Solved s{LoadDesignFromString(read("tests/data/network/qpc_nu2_k1.yaml"), "qpc.yaml"), {}, {}};
+  const ElectrostaticProblem p(s.design);
+  const DensityMap map = p.Solve({-0.8, -0.8});
+  ASSERT_TRUE(map.stats.converged);
+  NetworkOptions o;
+  o.density = &map;
+  const ChannelGeometry g = BuildChannelGeometry(s.design, o);
+  EXPECT_EQ(g.model, std::string(kSelfConsistentBoundaryModel));
+  const double b = std::abs(s.design.conditions.field_T);
+  s.minus = SolveTransport(s.design, TraceEdges(s.design, g, -b));
+  const auto r = hall_bar(s, s.minus);
+  EXPECT_NEAR(r.longitudinal, 0.5, kExact);
+  EXPECT_NEAR(r.hall, 0.5, kExact);
+  EXPECT_NEAR(r.diagonal_plus, 1.0, kExact);
 }
 
 TEST(Network, HallBarEdgesRunClockwiseForPositiveField) {

@@ -7,6 +7,10 @@
 #include <numbers>
 #include <stdexcept>
 
+#include "hallway/constants.hpp"
+#include "hallway/electrostatics.hpp"
+#include "hallway/geometry/contour.hpp"
+#include "hallway/geometry/exact.hpp"
 #include "hallway/geometry/point_index.hpp"
 #include "hallway/heterostructure.hpp"
 #include "hallway/units.hpp"
@@ -78,7 +82,35 @@ ChannelGeometry BuildChannelGeometry(const Design& d, const NetworkOptions& opt)
     }
     g.lateral_depletion_m.push_back(xe);
   }
-  auto reflects = [&](std::size_t gate, double cumulative) {
+  // Self-consistent boundaries: the local filling nu(r) = n(r) h / (e |B|) on the density grid.
+  std::vector<double> filling;
+  if (opt.density) {
+    const DensityMap& m = *opt.density;
+    const double per = constants::kPlanck_Js / (constants::kElementaryCharge_C * std::abs(d.conditions.field_T));
+    filling.resize(m.density_per_m2.size());
+    for (std::size_t c = 0; c < filling.size(); ++c) filling[c] = m.density_per_m2[c] * per;
+    g.model = kSelfConsistentBoundaryModel;
+    // The local filling under each gate: the median over the gate's cells that lie on the 2DEG, more
+    // than two depths inside the etched edge (so that the edge itself does not count).
+    const double inset = d.mesa.etch_depletion_m + 2.0 * d.heterostructure.depth_m;
+    for (std::size_t i = 0; i < d.gates.size(); ++i) {
+      std::vector<double> under;
+      for (int jj = 0; jj < m.ny; ++jj)
+        for (int ii = 0; ii < m.nx; ++ii) {
+          const Point q{m.x0_m + ii * m.cell_m, m.y0_m + jj * m.cell_m};
+          if (geometry::contains(d.gates[i].outline, q) && geometry::contains(d.mesa.outline, q) &&
+              geometry::distance_to_boundary(d.mesa.outline, q) >= inset)
+            under.push_back(filling[static_cast<std::size_t>(jj) * m.nx + ii]);
+        }
+      if (under.empty()) {
+        g.local_filling[i] = nu;
+        continue;
+      }
+      std::nth_element(under.begin(), under.begin() + static_cast<long>(under.size() / 2), under.end());
+      g.local_filling[i] = under[under.size() / 2];
+    }
+  }
+  auto reflects = [&](std::size_t gate, double cumulative) {  // bare estimate only
     return d.gates[gate].voltage_V <= vdep || cumulative > g.local_filling[gate] + 1e-9;
   };
   auto gate_index = [&](const std::string& name) -> int {
@@ -121,13 +153,41 @@ ChannelGeometry BuildChannelGeometry(const Design& d, const NetworkOptions& opt)
     ChannelRegion cr;
     cr.channel = static_cast<int>(ch);
     Region r = base;
-    for (std::size_t i = 0; i < d.gates.size(); ++i) {
-      if (!reflects(i, c)) {
-        cr.passing.push_back(d.gates[i].name);
-        continue;
+    const double level = c - 0.5 * d.channels[ch].conductance.value();
+    if (opt.density) {
+      r = Region();
+      const DensityMap& m = *opt.density;
+      const geometry::GridField field{m.nx, m.ny, m.x0_m, m.y0_m, m.cell_m, filling.data()};
+      auto loops = geometry::LevelCurves(field, level);
+      std::sort(loops.begin(), loops.end(),
+                [](const Polygon& a, const Polygon& b) { return geometry::area(a) > geometry::area(b); });
+      int skipped = 0;
+      for (Polygon& loop : loops) {
+        Polygon simple = geometry::Simplify(loop, 0.25 * m.cell_m);
+        if (geometry::find_defect(simple) != geometry::PolygonDefect::kNone) simple = loop;
+        if (geometry::find_defect(simple) != geometry::PolygonDefect::kNone ||
+            geometry::area(simple) < 4.0 * m.cell_m * m.cell_m) {
+          ++skipped;
+          continue;
+        }
+        r = geometry::signed_area(simple) > 0.0 ? r.Union(Region(simple)) : r.Difference(Region(simple));
       }
-      cr.reflecting.push_back(d.gates[i].name);
-      r = r.Difference(d.gates[i].voltage_V <= vdep ? depleted[i] : Region(d.gates[i].outline));
+      if (skipped > 0)
+        warn("contour-skipped",
+             "channel " + std::to_string(ch + 1) + ": " + std::to_string(skipped) +
+                 " tiny or irregular pieces of its boundary (below four grid cells) were left out",
+             d.mesa.where);
+      for (std::size_t i = 0; i < d.gates.size(); ++i)
+        (g.local_filling[i] < level ? cr.reflecting : cr.passing).push_back(d.gates[i].name);
+    } else {
+      for (std::size_t i = 0; i < d.gates.size(); ++i) {
+        if (!reflects(i, c)) {
+          cr.passing.push_back(d.gates[i].name);
+          continue;
+        }
+        cr.reflecting.push_back(d.gates[i].name);
+        r = r.Difference(d.gates[i].voltage_V <= vdep ? depleted[i] : Region(d.gates[i].outline));
+      }
     }
     const Region bare = r;
     for (std::size_t ki = 0; ki < d.constrictions.size(); ++ki) {
@@ -142,8 +202,12 @@ ChannelGeometry BuildChannelGeometry(const Design& d, const NetworkOptions& opt)
       const bool open = bare.ContainsInterior(mid);
       cr.estimate_open.push_back(open);
       const int ga = gate_index(k.first), gb = gate_index(k.second);
-      const bool side_a = ga < 0 || reflects(static_cast<std::size_t>(ga), c);
-      const bool side_b = gb < 0 || reflects(static_cast<std::size_t>(gb), c);
+      auto side_reflects = [&](int gate) {
+        if (gate < 0) return true;
+        return opt.density ? g.local_filling[static_cast<std::size_t>(gate)] < level
+                           : reflects(static_cast<std::size_t>(gate), c);
+      };
+      const bool side_a = side_reflects(ga), side_b = side_reflects(gb);
       const std::string chname = "channel " + std::to_string(ch + 1);
       if (!side_a && !side_b) {
         if (t < 1.0)

@@ -31,7 +31,17 @@ namespace hallway {
 inline constexpr const char* kBareBoundaryModel =
     "bare-potential lateral depletion estimate (physics.md 1.4 (i)); self-consistent boundaries are not used";
 
+inline constexpr const char* kSelfConsistentBoundaryModel =
+    "self-consistent Thomas-Fermi density (physics.md 1.2, as in `hallway map`); channel k runs where the local "
+    "filling "
+    "crosses the middle of its step, c_k - g_k / 2";
+
+struct DensityMap;
+
 struct NetworkOptions {
+  // When set, the channel regions come from this self-consistent density (level curves of the local
+  // filling) instead of the bare-potential estimate.
+  const DensityMap* density = nullptr;
   int disc_segments = 32;      // polygon sides of the offset disc (>= 8)
   double slit_fraction = 0.1;  // slit half-width as a fraction of the gap, in (0, 0.25]
   bool IsValid(std::string* why) const;
