@@ -44,6 +44,7 @@ case "$mode" in
   demo)
     "$build_dir/cli/hallway" check "$here/designs/01_hallbar_qpc.yaml"
     "$build_dir/cli/hallway" solve "$here/designs/01_hallbar_qpc.yaml"
+    "$build_dir/cli/hallway" map "$here/designs/01_hallbar_qpc.yaml"
     "$build_dir/cli/hallway" noise "$here/designs/01_hallbar_qpc.yaml"
     ;;
   test)
