@@ -61,3 +61,18 @@ struct MapArgs {
 int RunMap(const MapArgs& args);
 
 }  // namespace hallway::cli
+
+namespace hallway::cli {
+
+struct PathsArgs {
+  std::string design_path;
+  std::string json_path;
+  bool fast = false;
+  std::string target;             // transmission to reach, instead of the design's ("0.5")
+  std::string gate_limit;         // "-2 V"
+  std::string relaxation_length;  // "1 um"
+};
+
+int RunPaths(const PathsArgs& args);
+
+}  // namespace hallway::cli

@@ -50,6 +50,17 @@ int main(int argc, char** argv) {
   mp->add_option("--json", map.json_path, "Also write the results as JSON to this file");
   mp->add_option("--csv", map.csv_path, "Write the density and filling grid as CSV to this file");
 
+  PathsArgs paths;
+  auto* pa = app.add_subcommand("paths", "Edge lengths, velocities, thermal lengths, loops and constriction models");
+  pa->add_option("design", paths.design_path, "Design file (YAML)")->required();
+  pa->add_option("--json", paths.json_path, "Also write the results as JSON to this file");
+  pa->add_flag("--fast", paths.fast, "Bare-potential channel boundaries and a fixed drift velocity");
+  pa->add_option("--target", paths.target,
+                 "Transmission to reach at every constriction, instead of the design's (0..1)");
+  pa->add_option("--gate-limit", paths.gate_limit, "Most negative gate voltage to allow, e.g. '-1.5 V' (default -2 V)");
+  pa->add_option("--relaxation-length", paths.relaxation_length,
+                 "Source-to-splitter length that relaxes the beam, e.g. '1 um'");
+
   try {
     app.parse(argc, argv);
   } catch (const CLI::CallForHelp& e) {
@@ -64,6 +75,7 @@ int main(int argc, char** argv) {
     if (*c) return RunCheck(check);
     if (*s) return RunSolve(solve);
     if (*mp) return RunMap(map);
+    if (*pa) return RunPaths(paths);
     if (*n) {
       noise.phase_given = phase->count() > 0;
       return RunNoise(noise);

@@ -32,7 +32,8 @@ bool LoadOrReport(const std::string& path, Design* design, int* exit_code) {
   }
 }
 
-bool BuildGeometry(const Design& design, bool fast, ChannelGeometry* geometry, std::string* note, int* exit_code) {
+bool BuildGeometry(const Design& design, bool fast, ChannelGeometry* geometry, std::string* note, int* exit_code,
+                   DensityMap* map_out) {
   if (fast) {
     *geometry = BuildChannelGeometry(design);
     *note += "  (--fast: bare-potential boundaries, no electrostatic solve)\n";
@@ -58,6 +59,7 @@ bool BuildGeometry(const Design& design, bool fast, ChannelGeometry* geometry, s
     NetworkOptions options;
     options.density = &map;
     *geometry = BuildChannelGeometry(design, options);
+    if (map_out) *map_out = map;
     return true;
   } catch (const std::length_error& e) {
     std::cerr << "hallway: design error: " << e.what() << "\n";

@@ -7,6 +7,7 @@
 
 #include "hallway/check.hpp"
 #include "hallway/design.hpp"
+#include "hallway/electrostatics.hpp"
 #include "hallway/network.hpp"
 
 namespace hallway::cli {
@@ -32,7 +33,8 @@ int ReportErrors(const std::vector<Finding>& findings);
 // The channel regions for solve and noise: from the self-consistent density unless `fast`, in which
 // case the bare-potential estimate. Appends a line about the electrostatic solve to *note. Returns
 // false (with *exit_code) when the electrostatic solve fails or does not converge.
-bool BuildGeometry(const Design& design, bool fast, ChannelGeometry* geometry, std::string* note, int* exit_code);
+bool BuildGeometry(const Design& design, bool fast, ChannelGeometry* geometry, std::string* note, int* exit_code,
+                   DensityMap* map_out = nullptr);
 
 // The caution printed at the end of every report.
 extern const char* const kSafetyCaution;

@@ -11,9 +11,11 @@
 #include "hallway/constants.hpp"
 #include "hallway/design_loader.hpp"
 #include "hallway/network.hpp"
+#include "hallway/paths.hpp"
 #include "hallway/transport.hpp"
 #include "hallway/units.hpp"
 #include "output.hpp"
+#include "paths_json.hpp"
 
 namespace hallway::cli {
 namespace {
@@ -189,7 +191,8 @@ int RunSolve(const SolveArgs& args) {
   }
   ChannelGeometry geometry;
   std::string es_note;
-  if (int code = 0; !BuildGeometry(d, args.fast, &geometry, &es_note, &code)) return code;
+  DensityMap map;
+  if (int code = 0; !BuildGeometry(d, args.fast, &geometry, &es_note, &code, &map)) return code;
   std::vector<double> fields;
   if (!args.reversed_only) fields.push_back(d.conditions.field_T);
   fields.push_back(-d.conditions.field_T);
@@ -297,6 +300,13 @@ int RunSolve(const SolveArgs& args) {
     for (auto& w : j["warnings"]) gw.push_back(w);
     j["warnings"] = gw;
     if (solved.size() == 2) j["reversed_field"] = field_json(d, solved[1]);
+    // Path metrics and constriction models of the first field solved (hallway paths gives the same).
+    PathOptions po;
+    PathResult paths =
+        ComputePaths(d, solved.front().network, solved.front().transport, args.fast ? nullptr : &map, po);
+    ComputeConstrictionModels(d, po, &paths);
+    const json pj = PathsJson(d, solved.front().network, paths);
+    for (const char* key : {"paths", "loops", "constriction_models"}) j[key] = pj[key];
     try {
       WriteFileAtomically(args.json_path, j.dump(2) + "\n", {args.design_path});
     } catch (const OutputError& e) {

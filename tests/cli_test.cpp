@@ -223,6 +223,41 @@ TEST(Cli, NoiseSweepWritesOneCsvRowPerPoint) {
       2);
 }
 
+TEST(Cli, PathsReportsLoopsAndConstrictionModels) {
+  const fs::path out = scratch("paths.json");
+  fs::remove(out);
+  const CommandRun r =
+      hallway("paths '" + test::SourcePath("designs/03_fabry_perot.yaml") + "' --json '" + out.string() + "'");
+  ASSERT_EQ(r.exit_code, 0) << r.output;
+  EXPECT_NE(r.output.find("AB period h/eA"), std::string::npos) << r.output;
+  const auto j = nlohmann::json::parse(read(out));
+  EXPECT_EQ(j["loops"].size(), 1u);
+  EXPECT_EQ(j["constriction_models"].size(), 2u);
+  EXPECT_TRUE(j["constriction_models"][0]["saddle_found"].get<bool>());
+  EXPECT_FALSE(j["paths"].empty());
+}
+
+TEST(Cli, MapReportsPinchOffAndWritesTheDensityGrid) {
+  const fs::path js = scratch("map.json"), csv = scratch("map.csv");
+  fs::remove(js);
+  fs::remove(csv);
+  const CommandRun r = hallway("map '" + test::SourcePath("designs/03_fabry_perot.yaml") + "' --grid 60nm --json '" +
+                               js.string() + "' --csv '" + csv.string() + "'");
+  ASSERT_EQ(r.exit_code, 0) << r.output;
+  const auto j = nlohmann::json::parse(read(js));
+  ASSERT_EQ(j["constrictions"].size(), 2u);
+  for (const char* key : {"name", "gap_m", "saddle_density_m2", "pinch_off_V"})
+    EXPECT_TRUE(j["constrictions"][0].contains(key)) << key;
+  EXPECT_LT(j["constrictions"][0]["pinch_off_V"].get<double>(), -0.5);
+  EXPECT_TRUE(j["gates"][0].contains("depletion_V"));
+  EXPECT_TRUE(j["solver"]["converged"].get<bool>());
+  std::stringstream lines(read(csv));
+  std::string header;
+  std::getline(lines, header);
+  EXPECT_EQ(header, "x_m,y_m,density_per_m2,filling");
+  EXPECT_EQ(hallway("map '" + test::SourcePath("designs/03_fabry_perot.yaml") + "' --grid 10").exit_code, 2);
+}
+
 TEST(Cli, MissingDesignFileIsADesignError) {
   const CommandRun r = hallway("check /nonexistent/design.yaml");
   EXPECT_EQ(r.exit_code, 1);

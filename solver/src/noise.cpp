@@ -64,21 +64,11 @@ bool is_integer_channel(const Channel& c) {
   return c.conductance == MakeFraction(1, 1) && c.charge_e == 1.0;
 }
 
-// The edge piece of `channel` that leaves (outgoing) or arrives at (incoming) face `face` of a
-// constriction, or -1.
-int port_piece(const EdgeNetwork& net, int channel, int constriction, int face, bool outgoing) {
-  const EdgeEnd port{EdgeEnd::Kind::kConstriction, constriction, face};
-  for (std::size_t p = 0; p < net.pieces.size(); ++p) {
-    const EdgePiece& e = net.pieces[p];
-    if (e.channel == channel && (outgoing ? e.from : e.to) == port) return static_cast<int>(p);
-  }
-  return -1;
-}
 int out_piece(const EdgeNetwork& net, int channel, int constriction, int face) {
-  return port_piece(net, channel, constriction, face, true);
+  return PortPiece(net, channel, constriction, face, true);
 }
 int in_piece(const EdgeNetwork& net, int channel, int constriction, int face) {
-  return port_piece(net, channel, constriction, face, false);
+  return PortPiece(net, channel, constriction, face, false);
 }
 
 // Coherent scattering of the integer channels: inputs are the pieces that contacts emit, outputs the
@@ -192,61 +182,6 @@ struct CoherentNetwork {
   }
 };
 
-// Strongly connected components of the coherent piece graph with a cycle: the loops.
-std::vector<std::vector<int>> loops_of(const Design& d, const EdgeNetwork& net, const std::vector<int>& channels) {
-  const int n = static_cast<int>(net.pieces.size());
-  std::vector<std::vector<int>> next(static_cast<std::size_t>(n));
-  for (int p = 0; p < n; ++p) {
-    const EdgePiece& e = net.pieces[static_cast<std::size_t>(p)];
-    if (e.to.kind != EdgeEnd::Kind::kConstriction) continue;
-    if (std::find(channels.begin(), channels.end(), e.channel) == channels.end()) continue;
-    const double t =
-        d.constrictions[static_cast<std::size_t>(e.to.index)].transmission[static_cast<std::size_t>(e.channel)];
-    const int back = out_piece(net, e.channel, e.to.index, e.to.face);
-    const int across = out_piece(net, e.channel, e.to.index, 1 - e.to.face);
-    if (t < 1.0 && back >= 0) next[static_cast<std::size_t>(p)].push_back(back);
-    if (t > 0.0 && across >= 0) next[static_cast<std::size_t>(p)].push_back(across);
-  }
-  // Tarjan's algorithm.
-  std::vector<int> index(static_cast<std::size_t>(n), -1), low(static_cast<std::size_t>(n), 0), stack;
-  std::vector<char> on(static_cast<std::size_t>(n), 0);
-  std::vector<std::vector<int>> out;
-  int counter = 0;
-  std::function<void(int)> visit = [&](int v) {
-    index[static_cast<std::size_t>(v)] = low[static_cast<std::size_t>(v)] = counter++;
-    stack.push_back(v);
-    on[static_cast<std::size_t>(v)] = 1;
-    for (int w : next[static_cast<std::size_t>(v)]) {
-      if (index[static_cast<std::size_t>(w)] < 0) {
-        visit(w);
-        low[static_cast<std::size_t>(v)] = std::min(low[static_cast<std::size_t>(v)], low[static_cast<std::size_t>(w)]);
-      } else if (on[static_cast<std::size_t>(w)]) {
-        low[static_cast<std::size_t>(v)] =
-            std::min(low[static_cast<std::size_t>(v)], index[static_cast<std::size_t>(w)]);
-      }
-    }
-    if (low[static_cast<std::size_t>(v)] == index[static_cast<std::size_t>(v)]) {
-      std::vector<int> comp;
-      int w;
-      do {
-        w = stack.back();
-        stack.pop_back();
-        on[static_cast<std::size_t>(w)] = 0;
-        comp.push_back(w);
-      } while (w != v);
-      const bool self = std::find(next[static_cast<std::size_t>(v)].begin(), next[static_cast<std::size_t>(v)].end(),
-                                  v) != next[static_cast<std::size_t>(v)].end();
-      if (comp.size() > 1 || self) {
-        std::sort(comp.begin(), comp.end());
-        out.push_back(comp);
-      }
-    }
-  };
-  for (int v = 0; v < n; ++v)
-    if (index[static_cast<std::size_t>(v)] < 0) visit(v);
-  return out;
-}
-
 }  // namespace
 
 AmplifierNoise AmplifierChain(double gs, const Amplifier& a, double temperature_K, double excess_A2_per_Hz,
@@ -298,7 +233,7 @@ NoiseResult SolveNoise(const Design& d, const EdgeNetwork& net, const TransportR
   const CoherentNetwork coherent(d, net);
   Mat s_bias = Mat::Zero(nc, nc), s_eq = Mat::Zero(nc, nc);
   if (!coherent.channels.empty() && !coherent.in_pieces.empty()) {
-    const auto comps = loops_of(d, net, coherent.channels);
+    const auto comps = FindEdgeLoops(d, net, coherent.channels);
     for (const auto& comp : comps) {
       CoherentLoop loop;
       loop.channel = net.pieces[static_cast<std::size_t>(comp.front())].channel;

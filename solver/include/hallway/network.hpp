@@ -114,4 +114,14 @@ EdgeNetwork TraceEdges(const Design& design, const ChannelGeometry& geometry, do
 
 std::string DescribeEnd(const Design& design, const EdgeEnd& end);  // "W", "Q/face 0"
 
+// The edge piece of `channel` that leaves (outgoing) or arrives at (incoming) face `face` of a
+// constriction, or -1.
+int PortPiece(const EdgeNetwork& network, int channel, int constriction, int face, bool outgoing);
+
+// Loops of the edge network: strongly connected sets of pieces (Tarjan) among the given channels,
+// joined through constrictions that let the edge go that way (t > 0 across, t < 1 back). Each loop
+// is the sorted list of its pieces.
+std::vector<std::vector<int>> FindEdgeLoops(const Design& design, const EdgeNetwork& network,
+                                            const std::vector<int>& channels);
+
 }  // namespace hallway

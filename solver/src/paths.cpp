@@ -1,0 +1,427 @@
+// Edge-path metrics and constriction models; formulas and sources in paths.hpp.
+#include "hallway/paths.hpp"
+
+#include <Spectra/MatOp/SparseSymShiftSolve.h>
+#include <Spectra/SymEigsShiftSolver.h>
+#include <Eigen/Sparse>
+#include <algorithm>
+#include <cmath>
+#include <numbers>
+#include <stdexcept>
+
+#include "hallway/constants.hpp"
+#include "hallway/geometry/exact.hpp"
+#include "hallway/heterostructure.hpp"
+#include "hallway/map.hpp"
+
+namespace hallway {
+
+using constants::kBoltzmann_J_per_K;
+using constants::kElementaryCharge_C;
+using constants::kHbar_Js;
+using constants::kPlanck_Js;
+using geometry::Point;
+using geometry::Polygon;
+
+bool PathOptions::IsValid(std::string* why) const {
+  auto bad = [&](const char* w) {
+    if (why) *why = w;
+    return false;
+  };
+  if (!(default_velocity_m_per_s > 0.0)) return bad("default_velocity_m_per_s must be > 0");
+  if (!(relaxation_length_m >= 0.0)) return bad("relaxation_length_m must be >= 0 (0: default)");
+  if (!(gate_voltage_limit_V < 0.0)) return bad("gate_voltage_limit_V must be negative");
+  if (curve_points < 2 || curve_points > 1000) return bad("curve_points must lie in [2, 1000]");
+  if (target_transmission && !(*target_transmission >= 0.0 && *target_transmission <= 1.0))
+    return bad("target_transmission must lie in [0, 1]");
+  return true;
+}
+
+void SaddleEnergies(double x, double y, double c, double* e1, double* e2) {
+  const double omega2 = c * c + y * y - x * x;
+  const double root = std::sqrt(omega2 * omega2 + 4.0 * x * x * y * y);
+  *e1 = std::sqrt(std::max(0.0, root - omega2)) / (2.0 * std::numbers::sqrt2);
+  *e2 = std::sqrt(std::max(0.0, root + omega2)) / std::numbers::sqrt2;
+}
+
+double SaddleTransmission(double energy, double x, double y, double c, int n) {
+  double e1 = 0.0, e2 = 0.0;
+  SaddleEnergies(x, y, c, &e1, &e2);
+  const double eps = (energy - e2 * (n + 0.5)) / e1;
+  return 1.0 / (1.0 + std::exp(-std::numbers::pi * eps));
+}
+
+double ThermalVisibility(double dl, double v, double temperature) {
+  const double x = std::numbers::pi * kBoltzmann_J_per_K * temperature * dl / (kHbar_Js * v);
+  return x == 0.0 ? 1.0 : x / std::sinh(x);
+}
+
+double IslandCapacitance_F(double area, bool gated, double eps_r, double depth) {
+  const double e0 = constants::kVacuumPermittivity_F_per_m;
+  return gated ? eps_r * e0 * area / depth : 8.0 * 0.5 * (eps_r + 1.0) * e0 * std::sqrt(area / std::numbers::pi);
+}
+
+double SpinResolvedSaddleTransmission(double energy, double x, double y, double c, int k) {
+  double e1 = 0.0, e2 = 0.0;
+  SaddleEnergies(x, y, c, &e1, &e2);
+  const double eps = (energy - 0.5 * e2 * (k + 0.5)) / e1;
+  return 1.0 / (1.0 + std::exp(-std::numbers::pi * eps));
+}
+
+std::vector<double> TransverseLevels_J(const std::vector<double>& u_J, double dx, double mass, int count) {
+  const int n = static_cast<int>(u_J.size());
+  if (n < 3 * count + 3) throw std::invalid_argument("TransverseLevels_J: too few samples");
+  // Work in units of the hopping energy t = hbar^2 / (2 m dx^2), so that the matrix entries are O(1).
+  const double t_J = kHbar_Js * kHbar_Js / (2.0 * mass * dx * dx);
+  std::vector<double> u(u_J.size());
+  for (std::size_t i = 0; i < u.size(); ++i) u[i] = u_J[i] / t_J;
+  const double t = 1.0;
+  Eigen::SparseMatrix<double> h(n, n);
+  std::vector<Eigen::Triplet<double>> entries;
+  double lowest = u[0];
+  for (int i = 0; i < n; ++i) {
+    lowest = std::min(lowest, u[static_cast<std::size_t>(i)]);
+    entries.emplace_back(i, i, 2.0 * t + u[static_cast<std::size_t>(i)]);
+    if (i + 1 < n) {
+      entries.emplace_back(i, i + 1, -t);
+      entries.emplace_back(i + 1, i, -t);
+    }
+  }
+  h.setFromTriplets(entries.begin(), entries.end());
+  Spectra::SparseSymShiftSolve<double> op(h);
+  Spectra::SymEigsShiftSolver<Spectra::SparseSymShiftSolve<double>> eigs(
+      op, count, std::min(n, std::max(4 * count, 20)), lowest - 1e-3);
+  eigs.init();
+  eigs.compute(Spectra::SortRule::LargestMagn, 1000, 1e-12);
+  if (eigs.info() != Spectra::CompInfo::Successful)
+    throw std::runtime_error("transverse eigenproblem did not converge");
+  const Eigen::VectorXd values = eigs.eigenvalues();
+  std::vector<double> out;
+  for (Eigen::Index i = 0; i < values.size(); ++i) out.push_back(values(i) * t_J);
+  std::sort(out.begin(), out.end());
+  return out;
+}
+
+namespace {
+
+double default_relaxation(const Design& d) {
+  return d.conditions.filling.is_integer() && d.conditions.filling.num >= 2 ? 1e-6 : 3e-6;
+}
+
+// |grad U| / (e |B|) at p from the map (U = E_F0 * energy_over_fermi).
+double drift_at(const DensityMap& m, double ef0, double field, Point p) {
+  const double h = m.cell_m;
+  const double gx = (m.EnergyAt({p.x + h, p.y}) - m.EnergyAt({p.x - h, p.y})) / (2 * h);
+  const double gy = (m.EnergyAt({p.x, p.y + h}) - m.EnergyAt({p.x, p.y - h})) / (2 * h);
+  return std::hypot(gx, gy) * ef0 / (kElementaryCharge_C * std::abs(field));
+}
+
+Polygon ring_of(const EdgeNetwork& net, const std::vector<int>& pieces) {
+  Polygon ring;
+  for (int p : pieces) {
+    const auto& path = net.pieces[static_cast<std::size_t>(p)].path;
+    ring.vertices.insert(ring.vertices.end(), path.begin(), path.end());
+  }
+  return ring;
+}
+
+}  // namespace
+
+PathResult ComputePaths(const Design& d, const EdgeNetwork& net, const TransportResult& tr, const DensityMap* map,
+                        const PathOptions& opt) {
+  std::string why;
+  if (!opt.IsValid(&why)) throw std::invalid_argument("PathOptions: " + why);
+  PathResult r;
+  const HeterostructureFigures fig = DeriveFigures(d.heterostructure, d.conditions.field_T, d.conditions.temperature_K);
+  const double kt = kBoltzmann_J_per_K * d.conditions.temperature_K;
+  r.velocity_model =
+      map ? "E x B drift v = |grad U| / (e |B|) of the self-consistent potential along the edge (physics.md 7)"
+          : "a fixed drift velocity of " + std::to_string(static_cast<int>(opt.default_velocity_m_per_s)) +
+                " m/s (physics.md 7 range; no electrostatic map)";
+  for (std::size_t p = 0; p < net.pieces.size(); ++p) {
+    const EdgePiece& e = net.pieces[p];
+    PieceMetrics pm;
+    pm.piece = static_cast<int>(p);
+    pm.length_m = e.length_m;
+    double tof = 0.0, covered = 0.0;
+    if (map) {
+      for (std::size_t k = 0; k + 1 < e.path.size(); ++k) {
+        const Point a = e.path[k], b = e.path[k + 1];
+        const double len = geometry::distance(a, b);
+        const int steps = std::max(1, static_cast<int>(std::ceil(len / map->cell_m)));
+        for (int s = 0; s < steps; ++s) {
+          const double f = (s + 0.5) / steps;
+          const double v =
+              drift_at(*map, fig.fermi_energy_J, d.conditions.field_T, {a.x + f * (b.x - a.x), a.y + f * (b.y - a.y)});
+          if (v > 0.0) {
+            tof += len / steps / v;
+            covered += len / steps;
+          }
+        }
+      }
+    }
+    if (covered > 0.0) {
+      pm.velocity_m_per_s = covered / tof;
+      pm.velocity_from_map = true;
+    } else {
+      pm.velocity_m_per_s = opt.default_velocity_m_per_s;
+    }
+    pm.time_of_flight_s = pm.length_m / pm.velocity_m_per_s;
+    pm.thermal_length_m = kHbar_Js * pm.velocity_m_per_s / kt;
+    pm.thermal_length_2pi_m = pm.thermal_length_m / (2.0 * std::numbers::pi);
+    r.pieces.push_back(pm);
+  }
+
+  // Loops of every channel, and closed edges around islands.
+  auto finish_loop = [&](LoopMetrics& l, const Polygon& ring, double velocity) {
+    l.area_m2 = ring.vertices.size() >= 3 ? geometry::area(ring) : 0.0;
+    const double charge = d.channels[static_cast<std::size_t>(l.channel)].charge_e;
+    if (l.area_m2 > 0.0) {
+      l.ab_period_T = kPlanck_Js / (kElementaryCharge_C * l.area_m2);
+      l.ab_period_quasiparticle_T = l.ab_period_T / charge;
+    }
+    if (geometry::find_defect(ring) == geometry::PolygonDefect::kNone)
+      for (const Gate& g : d.gates)
+        if (geometry::intersection_area(ring, g.outline) > 0.5 * l.area_m2) l.gated_island = true;
+    const double c =
+        IslandCapacitance_F(l.area_m2, l.gated_island, d.heterostructure.permittivity, d.heterostructure.depth_m);
+    if (c > 0.0) l.charging_energy_J = kElementaryCharge_C * kElementaryCharge_C / (2.0 * c);
+    l.visibility = ThermalVisibility(l.length_m, velocity, d.conditions.temperature_K);
+  };
+  for (std::size_t k = 0; k < d.channels.size(); ++k) {
+    for (const auto& comp : FindEdgeLoops(d, net, {static_cast<int>(k)})) {
+      LoopMetrics l;
+      l.channel = static_cast<int>(k);
+      l.pieces = comp;
+      double tof = 0.0;
+      for (int p : comp) {
+        const EdgePiece& e = net.pieces[static_cast<std::size_t>(p)];
+        l.length_m += e.length_m;
+        tof += r.pieces[static_cast<std::size_t>(p)].time_of_flight_s;
+        for (const EdgeEnd* end : {&e.from, &e.to})
+          if (end->kind == EdgeEnd::Kind::kConstriction &&
+              std::find(l.constrictions.begin(), l.constrictions.end(), end->index) == l.constrictions.end())
+            l.constrictions.push_back(end->index);
+      }
+      finish_loop(l, ring_of(net, comp), tof > 0.0 ? l.length_m / tof : opt.default_velocity_m_per_s);
+      r.loops.push_back(l);
+    }
+  }
+  for (const ClosedEdge& c : net.closed) {
+    LoopMetrics l;
+    l.channel = c.channel;
+    l.closed_edge = true;
+    l.length_m = c.length_m;
+    l.area_m2 = c.enclosed_area_m2;
+    finish_loop(l, Polygon{}, opt.default_velocity_m_per_s);
+    l.area_m2 = c.enclosed_area_m2;
+    if (l.area_m2 > 0.0) {
+      l.ab_period_T = kPlanck_Js / (kElementaryCharge_C * l.area_m2);
+      l.ab_period_quasiparticle_T = l.ab_period_T / d.channels[static_cast<std::size_t>(c.channel)].charge_e;
+    }
+    r.loops.push_back(l);
+  }
+
+  // Source constriction -> splitter or collider paths.
+  const double relax = opt.relaxation_length_m > 0.0 ? opt.relaxation_length_m : default_relaxation(d);
+  for (const EdgePiece& e : net.pieces) {
+    if (e.from.kind != EdgeEnd::Kind::kConstriction || e.to.kind != EdgeEnd::Kind::kConstriction ||
+        e.from.index == e.to.index)
+      continue;
+    const double t =
+        d.constrictions[static_cast<std::size_t>(e.to.index)].transmission[static_cast<std::size_t>(e.channel)];
+    if (!(t > 0.0 && t < 1.0)) continue;
+    SourcePath sp{e.channel, e.from.index, e.to.index, e.length_m, e.length_m > relax};
+    if (sp.beyond_relaxation)
+      r.findings.push_back(
+          {Severity::kWarning, "path-long",
+           "the edge from constriction " + d.constrictions[static_cast<std::size_t>(sp.source)].name + " to " +
+               d.constrictions[static_cast<std::size_t>(sp.target)].name + " (channel " +
+               std::to_string(e.channel + 1) + ") is " + std::to_string(e.length_m * 1e6).substr(0, 5) +
+               " um long, beyond the relaxation length of " + std::to_string(relax * 1e6).substr(0, 4) + " um",
+           d.constrictions[static_cast<std::size_t>(sp.target)].where});
+    r.source_paths.push_back(sp);
+  }
+
+  // Floating contacts: heating by the bias.
+  for (std::size_t i = 0; i < d.wiring.size(); ++i) {
+    if (d.wiring[i].role != Role::kFloat || !tr.voltage_V[i]) continue;
+    FloatHeating fh;
+    fh.contact = static_cast<int>(i);
+    int outgoing = 0;
+    for (std::size_t p = 0; p < net.pieces.size(); ++p) {
+      const EdgePiece& e = net.pieces[p];
+      const double g =
+          d.channels[static_cast<std::size_t>(e.channel)].conductance.value() * constants::kConductanceQuantum_S;
+      if (e.to.kind == EdgeEnd::Kind::kContact && e.to.index == static_cast<int>(i)) {
+        const double dv = tr.piece_potential_V[p] - *tr.voltage_V[i];
+        fh.power_W += 0.5 * g * dv * dv;
+      }
+      if (e.from.kind == EdgeEnd::Kind::kContact && e.from.index == static_cast<int>(i)) ++outgoing;
+    }
+    const double quantum =
+        std::numbers::pi * std::numbers::pi * kBoltzmann_J_per_K * kBoltzmann_J_per_K / (6.0 * kPlanck_Js);
+    const double t0 = d.conditions.temperature_K;
+    fh.temperature_K = outgoing > 0 ? std::sqrt(t0 * t0 + fh.power_W / (outgoing * quantum)) : t0;
+    r.floats.push_back(fh);
+  }
+  return r;
+}
+
+void ComputeConstrictionModels(const Design& d, const PathOptions& opt, PathResult* result) {
+  std::string why;
+  if (!opt.IsValid(&why)) throw std::invalid_argument("PathOptions: " + why);
+  const HeterostructureFigures fig = DeriveFigures(d.heterostructure, d.conditions.field_T, d.conditions.temperature_K);
+  const double depth = d.heterostructure.depth_m;
+  const double mass = d.heterostructure.effective_mass * constants::kElectronMass_kg;
+  const double ef0 = fig.fermi_energy_J;
+  std::vector<double> design_volts;
+  for (const Gate& g : d.gates) design_volts.push_back(g.voltage_V);
+  for (std::size_t ki = 0; ki < d.constrictions.size(); ++ki) {
+    const Constriction& k = d.constrictions[ki];
+    ConstrictionModel cm;
+    cm.constriction = static_cast<int>(ki);
+    const auto gap = FindGap(d, k, nullptr);
+    if (!gap) continue;
+    const Point mid = gap->midpoint();
+    const Point u{(gap->on_b.x - gap->on_a.x) / gap->distance_m, (gap->on_b.y - gap->on_a.y) / gap->distance_m};
+    const Point nrm{-u.y, u.x};
+    const double half = 0.5 * gap->distance_m + 12.0 * depth;
+    const Design w = LocalWindow(d, mid, half, half);
+    ElectrostaticsOptions lo;
+    lo.grid_m = std::max(2e-9, std::min(depth / 4.0, gap->distance_m / 8.0));
+    lo.margin_m = 0.0;
+    const ElectrostaticProblem problem(w, lo);
+    int ga = -1, gb = -1;
+    for (std::size_t i = 0; i < d.gates.size(); ++i) {
+      if (d.gates[i].name == k.first) ga = static_cast<int>(i);
+      if (d.gates[i].name == k.second) gb = static_cast<int>(i);
+    }
+    // Saddle model at one set of voltages: fills barrier, curvatures and per-channel transmissions.
+    struct Saddle {
+      bool ok = false;
+      Point at;
+      double barrier = 0, hx = 0, hy = 0;
+      std::vector<double> t;
+    };
+    auto saddle_of = [&](const DensityMap& m) {
+      Saddle s;
+      auto U = [&](Point p) { return m.EnergyAt(p) * ef0; };
+      const double step = 0.5 * m.cell_m;
+      double best = -HUGE_VAL;
+      for (double tn = -2.0 * depth; tn <= 2.0 * depth; tn += step) {
+        double low = HUGE_VAL;
+        Point where{};
+        for (double tu = -0.45 * gap->distance_m; tu <= 0.45 * gap->distance_m; tu += step) {
+          const Point p{mid.x + tu * u.x + tn * nrm.x, mid.y + tu * u.y + tn * nrm.y};
+          const double e = U(p);
+          if (e < low) {
+            low = e;
+            where = p;
+          }
+        }
+        if (low > best) {
+          best = low;
+          s.at = where;
+        }
+      }
+      const double h = std::max(m.cell_m, gap->distance_m / 20.0);
+      auto along = [&](Point dir, double t) { return U({s.at.x + t * dir.x, s.at.y + t * dir.y}); };
+      const double uu = (along(u, h) - 2 * along(u, 0) + along(u, -h)) / (h * h);
+      const double nn = (along(nrm, h) - 2 * along(nrm, 0) + along(nrm, -h)) / (h * h);
+      s.barrier = along(u, 0) - ef0;
+      if (!(uu > 0.0 && nn < 0.0)) return s;
+      s.ok = true;
+      s.hy = kHbar_Js * std::sqrt(uu / mass);
+      s.hx = kHbar_Js * std::sqrt(-nn / mass);
+      for (std::size_t c = 0; c < d.channels.size(); ++c) {
+        if (!d.channels[c].conductance.is_integer()) {
+          s.t.push_back(std::nan(""));
+          continue;
+        }
+        s.t.push_back(
+            SpinResolvedSaddleTransmission(-s.barrier, s.hx, s.hy, fig.cyclotron_energy_J, static_cast<int>(c)));
+      }
+      return s;
+    };
+    DensityMap last = problem.Solve(design_volts);
+    if (!last.stats.converged) {
+      cm.warnings.push_back("the electrostatic solve did not converge; no constriction model");
+      result->constrictions.push_back(cm);
+      continue;
+    }
+    const Saddle s0 = saddle_of(last);
+    cm.saddle_found = s0.ok;
+    cm.saddle = s0.at;
+    cm.barrier_J = s0.barrier;
+    cm.hbar_omega_x_J = s0.hx;
+    cm.hbar_omega_y_J = s0.hy;
+    cm.transmission = s0.t;
+    if (!s0.ok)
+      cm.warnings.push_back(
+          "no saddle in the self-consistent potential at the design voltages: the saddle-point model does not apply");
+    // Transverse subbands across the saddle.
+    if (s0.ok) {
+      const double dx = 0.25 * lo.grid_m;
+      const double reach = 0.5 * gap->distance_m + 4.0 * depth;
+      std::vector<double> pot;
+      for (double t = -reach; t <= reach; t += dx)
+        pot.push_back(last.EnergyAt({s0.at.x + t * u.x, s0.at.y + t * u.y}) * ef0);
+      try {
+        cm.subbands_J = TransverseLevels_J(pot, dx, mass, 3);
+        cm.harmonic_ratio = (cm.subbands_J[1] - cm.subbands_J[0]) / s0.hy;
+        if (std::abs(*cm.harmonic_ratio - 1.0) > 0.3)
+          cm.warnings.push_back(
+              "the transverse subband spacing differs from the harmonic estimate by more than 30 %: the "
+              "parabolic saddle is a poor description");
+      } catch (const std::exception& e) {
+        cm.warnings.push_back(std::string("transverse subbands: ") + e.what());
+      }
+    }
+    // Transmission against the constriction's gate voltage (both sides together).
+    const double v0 =
+        ga >= 0 ? d.gates[static_cast<std::size_t>(ga)].voltage_V : d.gates[static_cast<std::size_t>(gb)].voltage_V;
+    const double v_hi = std::min(0.0, v0 + 0.5), v_lo = v0 - 1.0;
+    for (int i = 0; i < opt.curve_points; ++i) {
+      const double v = v_hi + (v_lo - v_hi) * i / (opt.curve_points - 1);
+      std::vector<double> volts = design_volts;
+      if (ga >= 0) volts[static_cast<std::size_t>(ga)] = v;
+      if (gb >= 0) volts[static_cast<std::size_t>(gb)] = v;
+      last = problem.Solve(volts, &last);
+      ConstrictionModel::Sample sample{v, {}};
+      if (last.stats.converged) {
+        const Saddle s = saddle_of(last);
+        if (s.ok) sample.transmission = s.t;
+      }
+      cm.curve.push_back(sample);
+    }
+    for (std::size_t c = 0; c < d.channels.size(); ++c) {
+      std::optional<double> at;
+      // A design value of exactly 1 or 0 is searched as 0.99 or 0.01 (where the channel starts to close).
+      const double target = std::clamp(opt.target_transmission.value_or(k.transmission[c]), 0.01, 0.99);
+      for (std::size_t i = 0; i + 1 < cm.curve.size() && !at; ++i) {
+        const auto& a = cm.curve[i];
+        const auto& b = cm.curve[i + 1];
+        if (a.transmission.empty() || b.transmission.empty() || std::isnan(a.transmission[c])) continue;
+        const double ta = a.transmission[c], tb = b.transmission[c];
+        if ((ta - target) * (tb - target) <= 0.0 && ta != tb)
+          at = a.voltage_V + (target - ta) / (tb - ta) * (b.voltage_V - a.voltage_V);
+      }
+      cm.voltage_for_target_V.push_back(at);
+      const std::string ch = "channel " + std::to_string(c + 1);
+      if (!d.channels[c].conductance.is_integer()) continue;
+      if (!at)
+        cm.warnings.push_back(ch + ": the design transmission is not reached between " +
+                              std::to_string(v_hi).substr(0, 5) + " and " + std::to_string(v_lo).substr(0, 5) +
+                              " V (beyond pinch-off or the sweep)");
+      else if (*at < opt.gate_voltage_limit_V)
+        cm.warnings.push_back(
+            ch + ": reaching the design transmission needs " + std::to_string(*at).substr(0, 6) +
+            " V, beyond the gate-voltage limit " + std::to_string(opt.gate_voltage_limit_V).substr(0, 5) +
+            " V (a conservative leakage onset, common practice): a gate driven past leakage can destroy the sample");
+    }
+    result->constrictions.push_back(cm);
+  }
+}
+
+}  // namespace hallway

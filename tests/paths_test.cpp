@@ -1,0 +1,158 @@
+// Path metrics and constriction models against physics.md 2, 7 and 10 and their sources.
+#include <gtest/gtest.h>
+
+#include <cmath>
+#include <fstream>
+#include <numbers>
+#include <sstream>
+
+#include "hallway/constants.hpp"
+#include "hallway/design_loader.hpp"
+#include "hallway/geometry/exact.hpp"
+#include "hallway/paths.hpp"
+#include "test_support.hpp"
+
+namespace hallway {
+namespace {
+
+using test::NearRel;
+constexpr double kMeV = 1e-3 * constants::kElementaryCharge_C;
+
+std::string read(const std::string& rel) {
+  std::ifstream in(test::SourcePath(rel));
+  std::stringstream ss;
+  ss << in.rdbuf();
+  return ss.str();
+}
+
+TEST(Saddle, EnergiesAndLimitsOfThePhysicsNote) {
+  // Büttiker, Phys. Rev. B 41, 7906 (1990); physics.md 2 check: hbar w_x = 1, hbar w_y = 3 meV.
+  const double hbar_wc_per_T = 1.727875 * kMeV;  // GaAs, m* = 0.067: 3.45575 meV at 2 T (physics.md 2 table)
+  const std::pair<double, std::pair<double, double>> table[] = {
+      {0, {0.5, 3.0}}, {2, {0.332238, 4.514835}}, {5, {0.164897, 9.096570}}};
+  for (const auto& [b, e] : table) {
+    double e1, e2;
+    SaddleEnergies(1 * kMeV, 3 * kMeV, b * hbar_wc_per_T, &e1, &e2);
+    EXPECT_NEAR(e1 / kMeV, e.first, 2e-5) << b;
+    EXPECT_NEAR(e2 / kMeV, e.second, 2e-5) << b;
+    // T_0 = 1/2 at E - V0 = E_2/2, 0.827897 at +E_1/2, 0.958576 = 1/(1 + e^-pi) at +E_1.
+    EXPECT_NEAR(SaddleTransmission(e2 / 2, 1 * kMeV, 3 * kMeV, b * hbar_wc_per_T, 0), 0.5, 1e-12);
+    EXPECT_NEAR(SaddleTransmission(e2 / 2 + e1 / 2, 1 * kMeV, 3 * kMeV, b * hbar_wc_per_T, 0), 0.827897, 1e-6);
+    EXPECT_NEAR(SaddleTransmission(e2 / 2 + e1, 1 * kMeV, 3 * kMeV, b * hbar_wc_per_T, 0),
+                1 / (1 + std::exp(-std::numbers::pi)), 1e-12);
+  }
+  // High field: E_1 -> hbar^2 w_x w_y / (2 hbar Omega): 0.085667 meV at 10 T against 0.085672.
+  double e1, e2;
+  SaddleEnergies(1 * kMeV, 3 * kMeV, 10 * hbar_wc_per_T, &e1, &e2);
+  EXPECT_NEAR(e1 / kMeV, 0.085667, 3e-6);
+  // B = 0: the parabolic-barrier (Kemble) form with E_1 = hbar w_x / 2 and steps at hbar w_y (n + 1/2).
+  EXPECT_NEAR(SaddleTransmission(3 * kMeV * 1.5, 1 * kMeV, 3 * kMeV, 0, 1), 0.5, 1e-12);
+}
+
+TEST(Saddle, TransverseLevelsOfAParabolaAreThoseOfTheHarmonicOscillator) {
+  // E_n = hbar w (n + 1/2) for U = m w^2 x^2 / 2; hbar w = 1 meV, GaAs mass; finite differences on
+  // 2 nm steps over +-300 nm agree to 1e-3.
+  const double m = 0.067 * constants::kElectronMass_kg, hw = 1 * kMeV, w = hw / constants::kHbar_Js;
+  const double dx = 2e-9;
+  std::vector<double> u;
+  for (double x = -300e-9; x <= 300e-9 + 1e-15; x += dx) u.push_back(0.5 * m * w * w * x * x);
+  const auto levels = TransverseLevels_J(u, dx, m, 3);
+  ASSERT_EQ(levels.size(), 3u);
+  for (int n = 0; n < 3; ++n) EXPECT_TRUE(NearRel(levels[static_cast<std::size_t>(n)], hw * (n + 0.5), 1e-3)) << n;
+}
+
+TEST(Paths, ThermalLengthsAndVisibilityCheckValues) {
+  // physics.md 7: v = 2e4 m/s, 20 mK: hbar v / k_B T = 7.638 um, hbar v / 2 pi k_B T = 1.216 um;
+  // dL = 1 um: X = 0.41130 and X / sinh X = 0.972352.
+  const double lt = constants::kHbar_Js * 2e4 / (constants::kBoltzmann_J_per_K * 0.020);
+  EXPECT_TRUE(NearRel(lt, 7.638e-6, 1e-4));
+  EXPECT_TRUE(NearRel(lt / (2 * std::numbers::pi), 1.216e-6, 1e-3));
+  EXPECT_NEAR(ThermalVisibility(1e-6, 2e4, 0.020), 0.972352, 1e-6);
+}
+
+TEST(Paths, ChargingEnergyCheckValues) {
+  // physics.md 10: C = 2 fF -> 40.05 ueV; r = 1 um disk, no gate: 0.492 fF, 162.7 ueV; under a gate at
+  // d = 90 nm: 3.99 fF, 20.09 ueV (eps_r = 12.9).
+  const double e = constants::kElementaryCharge_C;
+  EXPECT_NEAR(e * e / (2 * 2e-15) / e * 1e6, 40.05, 0.01);
+  const double area = std::numbers::pi * 1e-12;
+  EXPECT_NEAR(IslandCapacitance_F(area, false, 12.9, 90e-9) * 1e15, 0.492, 0.001);
+  EXPECT_NEAR(e / (2 * IslandCapacitance_F(area, false, 12.9, 90e-9)) * 1e6, 162.7, 0.2);
+  EXPECT_NEAR(IslandCapacitance_F(area, true, 12.9, 90e-9) * 1e15, 3.99, 0.01);
+  EXPECT_NEAR(e / (2 * IslandCapacitance_F(area, true, 12.9, 90e-9)) * 1e6, 20.09, 0.05);
+}
+
+struct Traced {
+  Design d;
+  EdgeNetwork net;
+  TransportResult tr;
+};
+
+Traced trace(const std::string& rel) {
+  Traced t{LoadDesignFromString(read(rel), rel), {}, {}};
+  t.net = TraceEdges(t.d, BuildChannelGeometry(t.d), std::abs(t.d.conditions.field_T));
+  t.tr = SolveTransport(t.d, t.net);
+  return t;
+}
+
+TEST(Paths, PieceLengthsAndTimesOfFlightOnARectangularMesa) {
+  // W -> NW along the eroded rectangle: 3.88 um up the side and 26.88 um along the top (hand geometry,
+  // as in Network.EdgeLengthsFollowTheMesaBoundary); with a fixed 2e4 m/s, 1.538 ns of flight.
+  const Traced t = trace("tests/data/network/hallbar_nu2.yaml");
+  const PathResult r = ComputePaths(t.d, t.net, t.tr, nullptr);
+  bool found = false;
+  for (const PieceMetrics& p : r.pieces) {
+    const EdgePiece& e = t.net.pieces[static_cast<std::size_t>(p.piece)];
+    if (e.channel == 0 && DescribeEnd(t.d, e.from) == "W" && DescribeEnd(t.d, e.to) == "NW") {
+      found = true;
+      EXPECT_NEAR(p.length_m, 30.76e-6, 0.3e-6);
+      EXPECT_TRUE(NearRel(p.time_of_flight_s, p.length_m / 2e4, 1e-12));
+      EXPECT_FALSE(p.velocity_from_map);
+    }
+  }
+  EXPECT_TRUE(found);
+}
+
+TEST(Paths, FabryPerotLoopAreaAgreesWithCgalAndGivesTheAharonovBohmPeriod) {
+  const Traced t = trace("designs/03_fabry_perot.yaml");
+  const PathResult r = ComputePaths(t.d, t.net, t.tr, nullptr);
+  ASSERT_EQ(r.loops.size(), 1u);
+  const LoopMetrics& l = r.loops[0];
+  EXPECT_EQ(l.constrictions.size(), 2u);
+  geometry::Polygon ring;
+  for (int p : l.pieces) {
+    const auto& path = t.net.pieces[static_cast<std::size_t>(p)].path;
+    ring.vertices.insert(ring.vertices.end(), path.begin(), path.end());
+  }
+  // CGAL's exact area of the same ring (its self-intersection).
+  EXPECT_TRUE(NearRel(l.area_m2, geometry::intersection_area(ring, ring), 1e-9));
+  // The cavity between the constrictions is about 3 um x 5.8 um (hand geometry); h/(eA) with
+  // A = 1 um^2 is 4.1357 mT (physics.md 10).
+  EXPECT_GT(l.area_m2, 10e-12);
+  EXPECT_LT(l.area_m2, 18e-12);
+  EXPECT_TRUE(NearRel(l.ab_period_T * l.area_m2, constants::kPlanck_Js / constants::kElementaryCharge_C, 1e-12));
+  EXPECT_TRUE(NearRel(constants::kPlanck_Js / (constants::kElementaryCharge_C * 1e-12), 4.1357e-3, 1e-4));
+}
+
+TEST(Paths, SourceToColliderDistancesAreMeasuredAlongTheEdge) {
+  const Traced t = trace("designs/02_two_source_collider.yaml");
+  const PathResult r = ComputePaths(t.d, t.net, t.tr, nullptr);
+  int to_collider = 0;
+  for (const SourcePath& s : r.source_paths)
+    if (t.d.constrictions[static_cast<std::size_t>(s.target)].name == "C") {
+      ++to_collider;
+      // QA's reflected beam runs down CN's west flank from y = 5 um to the tip at 0.15 um: about 5 um.
+      EXPECT_GT(s.distance_m, 4e-6);
+      EXPECT_LT(s.distance_m, 7e-6);
+      EXPECT_TRUE(s.beyond_relaxation);  // 3 um default for fractional fillings
+    }
+  EXPECT_EQ(to_collider, 2);
+}
+
+TEST(Paths, DefaultOptionsAreValid) {
+  std::string why;
+  EXPECT_TRUE(PathOptions{}.IsValid(&why)) << why;
+}
+
+}  // namespace
+}  // namespace hallway
