@@ -12,6 +12,7 @@
 #include "hallway/design_loader.hpp"
 #include "hallway/geometry/polygon.hpp"
 #include "hallway/units.hpp"
+#include "json_parts.hpp"
 #include "output.hpp"
 
 namespace hallway::cli {
@@ -265,6 +266,10 @@ int RunCheck(const CheckArgs& args) {
   }
   if (ReportErrors(r.findings) > 0) return kExitDesignError;
   return kExitOk;
+}
+
+std::string CheckJsonText(const Design& d, const CheckResult& r) {
+  return render_json(d, r);
 }
 
 }  // namespace hallway::cli

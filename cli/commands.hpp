@@ -76,3 +76,16 @@ struct PathsArgs {
 int RunPaths(const PathsArgs& args);
 
 }  // namespace hallway::cli
+
+namespace hallway::cli {
+
+struct ReportArgs {
+  std::string design_path;
+  std::string out_dir;
+  bool fast = false;
+  bool quiet = false;
+};
+
+int RunReport(const ReportArgs& args);
+
+}  // namespace hallway::cli

@@ -61,6 +61,13 @@ int main(int argc, char** argv) {
   pa->add_option("--relaxation-length", paths.relaxation_length,
                  "Source-to-splitter length that relaxes the beam, e.g. '1 um'");
 
+  ReportArgs report;
+  auto* rp = app.add_subcommand("report", "Figures, tables, result.json and a self-contained HTML report");
+  rp->add_option("design", report.design_path, "Design file (YAML)")->required();
+  rp->add_option("-o,--output", report.out_dir, "Folder for report.html and the figures")->required();
+  rp->add_flag("--fast", report.fast, "Bare-potential channel boundaries, no electrostatic solve");
+  rp->add_flag("--quiet", report.quiet, "No progress line on standard error");
+
   try {
     app.parse(argc, argv);
   } catch (const CLI::CallForHelp& e) {
@@ -76,6 +83,7 @@ int main(int argc, char** argv) {
     if (*s) return RunSolve(solve);
     if (*mp) return RunMap(map);
     if (*pa) return RunPaths(paths);
+    if (*rp) return RunReport(report);
     if (*n) {
       noise.phase_given = phase->count() > 0;
       return RunNoise(noise);

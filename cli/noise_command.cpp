@@ -14,6 +14,7 @@
 #include "hallway/noise.hpp"
 #include "hallway/transport.hpp"
 #include "hallway/units.hpp"
+#include "json_parts.hpp"
 #include "output.hpp"
 
 namespace hallway::cli {
@@ -358,6 +359,10 @@ int RunNoise(const NoiseArgs& args) {
     return kExitOutputError;
   }
   return kExitOk;
+}
+
+nlohmann::json NoiseJson(const Design& d, const NoiseResult& n) {
+  return noise_json(d, n);
 }
 
 }  // namespace hallway::cli

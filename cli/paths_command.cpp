@@ -11,8 +11,8 @@
 #include "hallway/constants.hpp"
 #include "hallway/electrostatics.hpp"
 #include "hallway/units.hpp"
+#include "json_parts.hpp"
 #include "output.hpp"
-#include "paths_json.hpp"
 
 namespace hallway::cli {
 

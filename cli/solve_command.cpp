@@ -14,8 +14,8 @@
 #include "hallway/paths.hpp"
 #include "hallway/transport.hpp"
 #include "hallway/units.hpp"
+#include "json_parts.hpp"
 #include "output.hpp"
-#include "paths_json.hpp"
 
 namespace hallway::cli {
 namespace {
@@ -315,6 +315,10 @@ int RunSolve(const SolveArgs& args) {
     }
   }
   return kExitOk;
+}
+
+nlohmann::json TransportJson(const Design& d, const EdgeNetwork& net, const TransportResult& t) {
+  return field_json(d, Solved{net, t});
 }
 
 }  // namespace hallway::cli

@@ -23,6 +23,8 @@ packages=(
   libfftw3-dev libcli11-dev libfmt-dev nlohmann-json3-dev libcairo2-dev
   libtbb-dev libopenmpi-dev openmpi-bin
 )
+# The test suite also checks the HTML report with an HTML checker and a headless browser.
+if [ "$mode" = test ]; then packages+=(tidy chromium); fi
 
 missing=()
 for p in "${packages[@]}"; do
@@ -46,6 +48,8 @@ case "$mode" in
     "$build_dir/cli/hallway" solve "$here/designs/01_hallbar_qpc.yaml"
     "$build_dir/cli/hallway" map "$here/designs/01_hallbar_qpc.yaml"
     "$build_dir/cli/hallway" noise "$here/designs/01_hallbar_qpc.yaml"
+    "$build_dir/cli/hallway" report "$here/designs/01_hallbar_qpc.yaml" -o "$build_dir/demo-report"
+    echo "demo report: $build_dir/demo-report/report.html"
     ;;
   test)
     ctest --test-dir "$build_dir" --output-on-failure -j "$jobs"

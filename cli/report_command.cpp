@@ -1,0 +1,394 @@
+// `hallway report`: figures, CSV tables, result.json and one self-contained HTML page.
+#include <fmt/core.h>
+
+#include <cmath>
+#include <filesystem>
+#include <fstream>
+#include <iostream>
+#include <nlohmann/json.hpp>
+#include <numbers>
+#include <sstream>
+
+#include "commands.hpp"
+#include "figures.hpp"
+#include "hallway/check.hpp"
+#include "hallway/collider.hpp"
+#include "hallway/constants.hpp"
+#include "hallway/noise.hpp"
+#include "hallway/paths.hpp"
+#include "hallway/transport.hpp"
+#include "hallway/units.hpp"
+#include "json_parts.hpp"
+#include "output.hpp"
+#include "progress.hpp"
+
+namespace hallway::cli {
+namespace {
+
+namespace fs = std::filesystem;
+using nlohmann::json;
+using units::FormatSI;
+
+std::string html_escape(const std::string& s) {
+  std::string o;
+  for (char c : s) {
+    switch (c) {
+      case '<': o += "&lt;"; break;
+      case '>': o += "&gt;"; break;
+      case '&': o += "&amp;"; break;
+      case '"': o += "&quot;"; break;
+      default: o += c;
+    }
+  }
+  return o;
+}
+
+std::string base64(const std::string& in) {
+  static const char* t = "ABCDEFGHIJKLMNOPQRSTUVWXYZabcdefghijklmnopqrstuvwxyz0123456789+/";
+  std::string out;
+  std::size_t i = 0;
+  for (; i + 2 < in.size(); i += 3) {
+    const unsigned v = (static_cast<unsigned char>(in[i]) << 16) | (static_cast<unsigned char>(in[i + 1]) << 8) |
+                       static_cast<unsigned char>(in[i + 2]);
+    out += {t[v >> 18], t[(v >> 12) & 63], t[(v >> 6) & 63], t[v & 63]};
+  }
+  if (i + 1 == in.size()) {
+    const unsigned v = static_cast<unsigned char>(in[i]) << 16;
+    out += {t[v >> 18], t[(v >> 12) & 63], '=', '='};
+  } else if (i + 2 == in.size()) {
+    const unsigned v = (static_cast<unsigned char>(in[i]) << 16) | (static_cast<unsigned char>(in[i + 1]) << 8);
+    out += {t[v >> 18], t[(v >> 12) & 63], t[(v >> 6) & 63], '='};
+  }
+  return out;
+}
+
+std::string slurp(const fs::path& p) {
+  std::ifstream in(p, std::ios::binary);
+  std::stringstream ss;
+  ss << in.rdbuf();
+  return ss.str();
+}
+
+std::string img(const fs::path& png, const std::string& caption) {
+  return "<figure><img alt=\"" + html_escape(caption) + "\" src=\"data:image/png;base64," + base64(slurp(png)) +
+         "\"><figcaption>" + html_escape(caption) + "</figcaption></figure>\n";
+}
+
+struct Table {
+  std::vector<std::string> head;
+  std::vector<std::vector<std::string>> rows;
+  std::string html() const {
+    std::string o = "<table><thead><tr>";
+    for (const auto& h : head) o += "<th>" + html_escape(h) + "</th>";
+    o += "</tr></thead><tbody>\n";
+    for (const auto& r : rows) {
+      o += "<tr>";
+      for (const auto& c : r) o += "<td>" + html_escape(c) + "</td>";
+      o += "</tr>\n";
+    }
+    return o + "</tbody></table>\n";
+  }
+  std::string csv() const {
+    std::string o;
+    auto line = [&](const std::vector<std::string>& v) {
+      for (std::size_t i = 0; i < v.size(); ++i) o += (i ? "," : "") + v[i];
+      o += "\n";
+    };
+    line(head);
+    for (const auto& r : rows) line(r);
+    return o;
+  }
+};
+
+std::string sci(double x) {
+  return fmt::format("{:.4e}", x);
+}
+
+}  // namespace
+
+int RunReport(const ReportArgs& args) {
+  Design d;
+  if (int code = 0; !LoadOrReport(args.design_path, &d, &code)) return code;
+  const CheckResult check = CheckDesign(d);
+  if (ReportErrors(check.findings) > 0) {
+    std::cerr << "hallway: run `hallway check` for the full list; no report was written\n";
+    return kExitDesignError;
+  }
+  std::error_code ec;
+  fs::create_directories(args.out_dir, ec);
+  if (!fs::is_directory(args.out_dir)) {
+    std::cerr << "hallway: output error: cannot create the folder " << args.out_dir << "\n";
+    return kExitOutputError;
+  }
+  const fs::path dir(args.out_dir);
+  const Progress progress("report", 7, args.quiet);
+
+  progress.Step(0, "electrostatics");
+  ChannelGeometry geometry;
+  std::string es_note;
+  DensityMap map;
+  if (int code = 0; !BuildGeometry(d, args.fast, &geometry, &es_note, &code, &map)) return code;
+  progress.Step(1, "edge network, both field directions");
+  const double b = d.conditions.field_T;
+  const EdgeNetwork plus = TraceEdges(d, geometry, b), minus = TraceEdges(d, geometry, -b);
+  if (ReportErrors(plus.findings) + ReportErrors(minus.findings) > 0) return kExitDesignError;
+  const TransportResult tp = SolveTransport(d, plus), tm = SolveTransport(d, minus);
+  if (ReportErrors(tp.findings) + ReportErrors(tm.findings) > 0) return kExitDesignError;
+  progress.Step(2, "noise");
+  const NoiseResult noise = SolveNoise(d, plus, tp);
+  progress.Step(3, "paths and constriction models");
+  PathOptions po;
+  PathResult paths = ComputePaths(d, plus, tp, args.fast ? nullptr : &map, po);
+  ComputeConstrictionModels(d, po, &paths);
+
+  progress.Step(4, "bias sweep");
+  std::vector<int> sources, amps;
+  for (std::size_t i = 0; i < d.wiring.size(); ++i) {
+    if (d.wiring[i].role == Role::kSource) sources.push_back(static_cast<int>(i));
+    if (d.wiring[i].role == Role::kAmplifier) amps.push_back(static_cast<int>(i));
+  }
+  std::vector<figures::Series> current_series, noise_series;
+  std::vector<double> scale;
+  for (int k = 0; k <= 10; ++k) scale.push_back(0.2 * k);
+  for (int a : amps) {
+    figures::Series si{d.contacts[static_cast<std::size_t>(a)].name + " current", {}, {}};
+    figures::Series sn{d.contacts[static_cast<std::size_t>(a)].name + " S_exc", {}, {}};
+    for (double s : scale) {
+      Design dk = d;
+      for (int j : sources) dk.wiring[static_cast<std::size_t>(j)].bias *= s;
+      const TransportResult tk = SolveTransport(dk, plus);
+      NoiseOptions no;
+      no.phase_samples = 32;
+      const NoiseResult nk = SolveNoise(dk, plus, tk, no);
+      si.x.push_back(s);
+      si.y.push_back(tk.current_A[static_cast<std::size_t>(a)] * 1e12);
+      sn.x.push_back(s);
+      sn.y.push_back(nk.excess_A2_per_Hz[static_cast<std::size_t>(a)][static_cast<std::size_t>(a)] * 1e30);
+    }
+    current_series.push_back(si);
+    noise_series.push_back(sn);
+  }
+
+  progress.Step(5, "figures");
+  std::vector<std::pair<fs::path, std::string>> pictures;
+  try {
+    for (auto f : {figures::Format::kPng, figures::Format::kSvg, figures::Format::kPdf}) {
+      figures::DrawLayout(d, plus, (dir / ("layout_field_plus." + figures::ToString(f))).string(), f,
+                          "edges at the design field");
+      figures::DrawLayout(d, minus, (dir / ("layout_field_minus." + figures::ToString(f))).string(), f,
+                          "edges with the field reversed");
+    }
+    pictures.push_back(
+        {dir / "layout_field_plus.png", "Layout and edge channels at the design field (arrows: electron travel)"});
+    pictures.push_back({dir / "layout_field_minus.png", "Layout and edge channels with the field reversed"});
+    if (!args.fast) {
+      figures::DrawDensity(d, map, (dir / "density.png").string(), figures::Format::kPng);
+      figures::DrawDensity(d, map, (dir / "density.svg").string(), figures::Format::kSvg);
+      pictures.push_back({dir / "density.png", "Local filling factor of the self-consistent density"});
+    }
+    for (const ConstrictionModel& c : paths.constrictions) {
+      std::vector<figures::Series> ss;
+      for (std::size_t ch = 0; ch < d.channels.size(); ++ch) {
+        if (!d.channels[ch].conductance.is_integer()) continue;
+        figures::Series s{"channel " + std::to_string(ch + 1), {}, {}};
+        for (const auto& pt : c.curve) {
+          s.x.push_back(pt.voltage_V);
+          s.y.push_back(pt.transmission.empty() ? std::nan("") : pt.transmission[ch]);
+        }
+        ss.push_back(s);
+      }
+      if (ss.empty()) continue;
+      const std::string name = d.constrictions[static_cast<std::size_t>(c.constriction)].name;
+      const fs::path p = dir / ("transmission_" + name + ".png");
+      figures::DrawPlot(ss, "gate voltage of both sides (V)", "transmission",
+                        "constriction " + name + ": saddle-point model", p.string(), figures::Format::kPng);
+      pictures.push_back({p, "Transmission of each channel of " + name + " against its gate voltage"});
+    }
+    if (!amps.empty() && !sources.empty()) {
+      figures::DrawPlot(current_series, "bias / design bias", "current into the device (pA)",
+                        "currents at the amplifier contacts", (dir / "current_vs_bias.png").string(),
+                        figures::Format::kPng);
+      figures::DrawPlot(noise_series, "bias / design bias", "excess noise (1e-30 A^2/Hz)",
+                        "excess current noise at the amplifiers", (dir / "noise_vs_bias.png").string(),
+                        figures::Format::kPng);
+      pictures.push_back({dir / "current_vs_bias.png", "Currents at the amplifier contacts against the source bias"});
+      pictures.push_back({dir / "noise_vs_bias.png", "Excess noise at the amplifier contacts against the source bias"});
+    }
+    for (const ColliderPrediction& c : noise.colliders) {
+      if (!(c.exchange_pi > 0 && c.exchange_pi < 0.5 && c.scaling > 0 && c.scaling < 0.5)) continue;
+      figures::Series s{"P(I-/I+)", {}, {}};
+      for (int k = 0; k <= 38; ++k) {
+        const double x = -0.95 + 0.05 * k;
+        s.x.push_back(x);
+        s.y.push_back(ColliderFano(x, c.exchange_pi * std::numbers::pi, c.scaling));
+      }
+      const std::string name = d.constrictions[static_cast<std::size_t>(c.constriction)].name;
+      const fs::path p = dir / ("collider_" + name + ".png");
+      figures::DrawPlot({s}, "I- / I+", "generalized Fano factor P",
+                        "collider " + name + " (Rosenow, Levkivskyi & Halperin 2016)", p.string(),
+                        figures::Format::kPng);
+      pictures.push_back({p, "Collider " + name + ": P against the imbalance of the two streams"});
+    }
+  } catch (const std::exception& e) {
+    std::cerr << "hallway: output error: " << e.what() << "\n";
+    return kExitOutputError;
+  }
+
+  progress.Step(6, "tables and page");
+  // Tables.
+  Table gt{{"G (e^2/h)"}, {}};
+  for (const Contact& c : d.contacts) gt.head.push_back(c.name);
+  for (std::size_t i = 0; i < d.contacts.size(); ++i) {
+    std::vector<std::string> r{d.contacts[i].name};
+    for (double x : tp.conductance_S[i]) r.push_back(fmt::format("{:.4f}", x / constants::kConductanceQuantum_S + 0.0));
+    gt.rows.push_back(r);
+  }
+  Table ct{{"contact", "role", "V at +B", "I at +B", "V at -B", "I at -B"}, {}};
+  for (std::size_t i = 0; i < d.contacts.size(); ++i) {
+    auto v = [](const std::optional<double>& x) { return x ? FormatSI(*x, "V") : std::string("undetermined"); };
+    ct.rows.push_back({d.contacts[i].name, ToString(d.wiring[i].role), v(tp.voltage_V[i]),
+                       FormatSI(tp.current_A[i], "A"), v(tm.voltage_V[i]), FormatSI(tm.current_A[i], "A")});
+  }
+  Table nt{{"S_exc (A^2/Hz)"}, {}};
+  for (const Contact& c : d.contacts) nt.head.push_back(c.name);
+  for (std::size_t i = 0; i < d.contacts.size(); ++i) {
+    std::vector<std::string> r{d.contacts[i].name};
+    for (double x : noise.excess_A2_per_Hz[i]) r.push_back(sci(x));
+    nt.rows.push_back(r);
+  }
+  Table at{{"amplifier", "R sample", "R eff", "S_exc (A^2/Hz)", "signal (V^2/Hz)", "floor (V^2/Hz)", "SNR in plan",
+            "time for 10 sigma"},
+           {}};
+  for (const AmplifierNoise& a : noise.amplifiers)
+    at.rows.push_back({d.contacts[static_cast<std::size_t>(a.contact)].name, FormatSI(a.sample_resistance_Ohm, "Ohm"),
+                       FormatSI(a.effective_resistance_Ohm, "Ohm"), sci(a.excess_current_A2_per_Hz),
+                       sci(a.signal_V2_per_Hz), sci(a.floor_V2_per_Hz), fmt::format("{:.3g}", a.snr),
+                       a.time_for_target_s ? FormatSI(*a.time_for_target_s, "s") : std::string("no signal")});
+  Table ft{{"quantity", "value"}, {}};
+  const auto& f = check.figures;
+  ft.rows = {
+      {"2DEG depth", FormatSI(d.heterostructure.depth_m, "m")},
+      {"sheet density", fmt::format("{:.4g} cm^-2", d.heterostructure.density_per_m2 * 1e-4)},
+      {"Fermi energy", FormatSI(f.fermi_energy_J / constants::kElementaryCharge_C, "eV")},
+      {"Fermi wavelength", FormatSI(f.fermi_wavelength_m, "m")},
+      {"mean free path", f.mean_free_path_m ? FormatSI(*f.mean_free_path_m, "m") : std::string("(no mobility given)")},
+      {"field", fmt::format("{:+.4g} T at nu = {}", f.field_T, d.conditions.filling.ToString())},
+      {"magnetic length", FormatSI(f.magnetic_length_m, "m")},
+      {"cyclotron energy", FormatSI(f.cyclotron_energy_J / constants::kElementaryCharge_C, "eV")},
+      {"wide-gate depletion voltage", FormatSI(f.depletion_voltage_V, "V")}};
+  Table kt{
+      {"constriction", "gap", "barrier vs E_F", "hbar w_x", "hbar w_y", "model t at design", "voltage for design t"},
+      {}};
+  for (const ConstrictionModel& c : paths.constrictions) {
+    const Constriction& k = d.constrictions[static_cast<std::size_t>(c.constriction)];
+    std::string t, v;
+    for (std::size_t ch = 0; ch < c.transmission.size(); ++ch) {
+      t += (t.empty() ? "" : ", ") +
+           (std::isnan(c.transmission[ch]) ? std::string("n/a") : fmt::format("{:.3f}", c.transmission[ch]));
+      v += (v.empty() ? "" : ", ") +
+           (c.voltage_for_target_V[ch] ? FormatSI(*c.voltage_for_target_V[ch], "V") : std::string("-"));
+    }
+    const auto gap = FindGap(d, k, nullptr);
+    kt.rows.push_back({k.name, gap ? FormatSI(gap->distance_m, "m") : "-",
+                       FormatSI(c.barrier_J / constants::kElementaryCharge_C, "eV"),
+                       FormatSI(c.hbar_omega_x_J / constants::kElementaryCharge_C, "eV"),
+                       FormatSI(c.hbar_omega_y_J / constants::kElementaryCharge_C, "eV"), t, v});
+  }
+  Table pt{{"channel", "from", "to", "length", "velocity", "time of flight", "hbar v / k_B T"}, {}};
+  for (const PieceMetrics& p : paths.pieces) {
+    const EdgePiece& e = plus.pieces[static_cast<std::size_t>(p.piece)];
+    pt.rows.push_back({std::to_string(e.channel + 1), DescribeEnd(d, e.from), DescribeEnd(d, e.to),
+                       FormatSI(p.length_m, "m"), fmt::format("{:.3g} m/s", p.velocity_m_per_s),
+                       FormatSI(p.time_of_flight_s, "s"), FormatSI(p.thermal_length_m, "m")});
+  }
+  Table rt{{"source", "channel", "reaches (fraction, via)"}, {}};
+  for (const Route& r : tp.routes) {
+    std::string reach;
+    for (std::size_t i = 0; i < r.reaching.size(); ++i) {
+      if (r.reaching[i] <= 1e-12) continue;
+      std::string via;
+      for (int q : r.via[i]) via += (via.empty() ? "" : " ") + d.constrictions[static_cast<std::size_t>(q)].name;
+      reach += fmt::format("{}{} {:.1f}%{}", reach.empty() ? "" : "; ", d.contacts[i].name, 100 * r.reaching[i],
+                           via.empty() ? "" : " via " + via);
+    }
+    rt.rows.push_back({d.contacts[static_cast<std::size_t>(r.source)].name, std::to_string(r.channel + 1), reach});
+  }
+  std::vector<std::string> warnings;
+  for (const auto* list : std::initializer_list<const std::vector<Finding>*>{
+           &check.findings, &geometry.findings, &plus.findings, &tp.findings, &noise.findings, &paths.findings})
+    for (const Finding& x : *list) warnings.push_back("[+B] " + x.message);
+  for (const Finding& x : tm.findings) warnings.push_back("[-B] " + x.message);
+  for (const ConstrictionModel& c : paths.constrictions)
+    for (const auto& w : c.warnings)
+      warnings.push_back(d.constrictions[static_cast<std::size_t>(c.constriction)].name + ": " + w);
+
+  std::string h =
+      "<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n<title>hallway report: " +
+      html_escape(d.name) +
+      "</title>\n<style>\nbody{font-family:sans-serif;max-width:1100px;margin:2em auto;color:#222;line-height:1.4}"
+      "table{border-collapse:collapse;margin:0.5em 0 1.5em}td,th{border:1px solid #bbb;padding:3px 8px;font-size:0.9em}"
+      "th{background:#f1ece1}figure{margin:1em 0}img{max-width:100%;border:1px solid #ddd}"
+      ".caution{border-left:5px solid #8a2a1b;padding:0.6em 1em;background:#f9efe8}\n</style>\n</head>\n<body>\n";
+  h += "<h1>hallway report</h1>\n<p>Design <b>" + html_escape(d.name.empty() ? d.path : d.name) + "</b> (" +
+       html_escape(d.path) + "), bulk filling " + d.conditions.filling.ToString() +
+       fmt::format(", field {:+.4g} T, temperature ", b) + FormatSI(d.conditions.temperature_K, "K") + ".</p>\n";
+  h += "<p class=\"caution\">All figures are model estimates. A gate voltage beyond the leakage or breakdown onset can "
+       "destroy a "
+       "sample; apply the lab's own safety rules for cryostats, magnets and electronics.</p>\n";
+  h += "<h2 id=\"heterostructure\">Heterostructure</h2>\n" + ft.html();
+  h += "<h2 id=\"checks\">Geometry and wiring checks</h2>\n<p>" + std::to_string(check.error_count()) + " errors, " +
+       std::to_string(check.warning_count()) +
+       " warnings from the checks; edge boundaries: " + html_escape(geometry.model) + ".</p>\n";
+  h += "<h2 id=\"conductance\">Conductance matrix at the design field</h2>\n" + gt.html();
+  h += "<h2 id=\"currents\">Currents and voltages</h2>\n" + ct.html();
+  h += "<h2 id=\"routes\">Routes</h2>\n" + rt.html();
+  h += "<h2 id=\"noise\">Noise and signal-to-noise</h2>\n" + nt.html() + at.html();
+  for (const ColliderPrediction& c : noise.colliders)
+    h += "<p>Collider " + html_escape(d.constrictions[static_cast<std::size_t>(c.constriction)].name) +
+         (c.fano ? fmt::format(": P = {:.4g}, I+ = {}, I- = {}, expected S_34 = {} A^2/Hz", *c.fano,
+                               FormatSI(c.i_plus_A, "A"), FormatSI(c.i_minus_A, "A"), sci(*c.s34_A2_per_Hz))
+                 : std::string(": P not defined")) +
+         ".</p>\n";
+  h += "<p>Models: ";
+  for (const auto& m : noise.models) h += html_escape(m) + "; ";
+  h += "</p>\n";
+  h += "<h2 id=\"constrictions\">Constriction models and path metrics</h2>\n" + kt.html() + pt.html();
+  h += "<h2 id=\"figures\">Figures</h2>\n";
+  for (const auto& [p, caption] : pictures) h += img(p, caption);
+  h += "<h2 id=\"warnings\">Warnings</h2>\n<ul>\n";
+  for (const auto& w : warnings) h += "<li>" + html_escape(w) + "</li>\n";
+  if (warnings.empty()) h += "<li>none</li>\n";
+  h += "</ul>\n<p class=\"caution\">Predictions are estimates. Approach pinch-off and depletion voltages slowly; a "
+       "gate driven past "
+       "its leakage or breakdown onset can destroy the sample. Follow your lab's safety rules for cryostats and "
+       "magnets.</p>\n"
+       "</body>\n</html>\n";
+
+  json result;
+  result["hallway_report"] = 1;
+  result["design"] = d.path;
+  result["check"] = json::parse(CheckJsonText(d, check));
+  result["transport_field_plus"] = TransportJson(d, plus, tp);
+  result["transport_field_minus"] = TransportJson(d, minus, tm);
+  result["noise"] = NoiseJson(d, noise);
+  const json pj = PathsJson(d, plus, paths);
+  for (const char* key : {"paths", "loops", "constriction_models", "source_paths", "floating_contacts"})
+    result[key] = pj[key];
+  result["warnings"] = warnings;
+  try {
+    WriteFileAtomically((dir / "conductance.csv").string(), gt.csv(), {args.design_path});
+    WriteFileAtomically((dir / "contacts.csv").string(), ct.csv(), {args.design_path});
+    WriteFileAtomically((dir / "noise_excess.csv").string(), nt.csv(), {args.design_path});
+    WriteFileAtomically((dir / "amplifiers.csv").string(), at.csv(), {args.design_path});
+    WriteFileAtomically((dir / "result.json").string(), result.dump(2) + "\n", {args.design_path});
+    WriteFileAtomically((dir / "report.html").string(), h, {args.design_path});
+  } catch (const OutputError& e) {
+    std::cerr << "hallway: output error: " << e.what() << "\n";
+    return kExitOutputError;
+  }
+  std::cout << "hallway report: wrote " << (dir / "report.html").string() << " with " << pictures.size()
+            << " figures, CSV tables and result.json\n";
+  return kExitOk;
+}
+
+}  // namespace hallway::cli
