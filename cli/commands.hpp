@@ -43,6 +43,7 @@ struct NoiseArgs {
   bool phase_given = false;
   double phase_rad = 0.0;
   double target_sigmas = 10.0;
+  bool quiet = false;
 };
 
 int RunNoise(const NoiseArgs& args);
@@ -56,6 +57,7 @@ struct MapArgs {
   std::string json_path;
   std::string csv_path;
   std::string grid;  // "10nm"; empty: automatic
+  bool quiet = false;
 };
 
 int RunMap(const MapArgs& args);

@@ -42,6 +42,7 @@ int main(int argc, char** argv) {
   auto* phase =
       n->add_option("--phase", noise.phase_rad, "Fix the interferometer loop phase (rad) instead of averaging");
   n->add_option("--target", noise.target_sigmas, "Signal-to-noise asked of every correlation (default 10)");
+  n->add_flag("--quiet", noise.quiet, "No progress line on standard error");
 
   MapArgs map;
   auto* mp = app.add_subcommand("map", "Self-consistent depletion, pinch-off voltages and edge positions");
@@ -49,6 +50,7 @@ int main(int argc, char** argv) {
   mp->add_option("--grid", map.grid, "Cell size of the whole-mesa grid, e.g. 10nm (default: automatic)");
   mp->add_option("--json", map.json_path, "Also write the results as JSON to this file");
   mp->add_option("--csv", map.csv_path, "Write the density and filling grid as CSV to this file");
+  mp->add_flag("--quiet", map.quiet, "No progress line on standard error");
 
   PathsArgs paths;
   auto* pa = app.add_subcommand("paths", "Edge lengths, velocities, thermal lengths, loops and constriction models");

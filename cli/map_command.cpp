@@ -11,6 +11,9 @@
 #include "hallway/map.hpp"
 #include "hallway/units.hpp"
 #include "output.hpp"
+#include "progress.hpp"
+
+#include <memory>
 
 namespace hallway::cli {
 namespace {
@@ -43,12 +46,18 @@ int RunMap(const MapArgs& args) {
     return kExitDesignError;
   }
   MapResult m;
+  std::unique_ptr<Progress> progress;
+  opt.progress = [&](int step, int total, const std::string& what) {
+    if (!progress) progress = std::make_unique<Progress>("map", total, args.quiet);
+    progress->Step(step, what);
+  };
   try {
     m = ComputeMap(d, opt);
   } catch (const std::length_error& e) {
     std::cerr << "hallway: design error: " << e.what() << "\n";
     return kExitDesignError;
   }
+  progress.reset();
   if (ReportErrors(m.findings) > 0) {
     std::cerr << "hallway: the electrostatic solve did not converge; no map is reported\n";
     return kExitDesignError;

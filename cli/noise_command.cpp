@@ -16,6 +16,7 @@
 #include "hallway/units.hpp"
 #include "json_parts.hpp"
 #include "output.hpp"
+#include "progress.hpp"
 
 namespace hallway::cli {
 namespace {
@@ -311,7 +312,9 @@ int RunNoise(const NoiseArgs& args) {
       csv += ",P_" + d.constrictions[static_cast<std::size_t>(c.constriction)].name;
     csv += "\n";
     out += fmt::format("\nSweep of {} point(s)\n", sweep.points);
+    const Progress progress("noise sweep", sweep.points, args.quiet);
     for (int k = 0; k < sweep.points; ++k) {
+      progress.Step(k, "bias point");
       const double x = sweep.points == 1 ? sweep.from : sweep.from + (sweep.to - sweep.from) * k / (sweep.points - 1);
       Design dk = d;
       for (std::size_t s = 0; s < sweep.contacts.size(); ++s)

@@ -12,6 +12,7 @@
 
 #include "hallway/design_loader.hpp"
 #include "hallway/electrostatics.hpp"
+#include "progress.hpp"
 
 namespace hallway::cli {
 
@@ -40,6 +41,8 @@ bool BuildGeometry(const Design& design, bool fast, ChannelGeometry* geometry, s
     return true;
   }
   try {
+    const Progress progress("hallway", 1, false);
+    progress.Step(0, "self-consistent electrostatics");
     const ElectrostaticProblem problem(design);
     std::vector<double> volts;
     for (const Gate& g : design.gates) volts.push_back(g.voltage_V);

@@ -106,7 +106,14 @@ MapResult ComputeMap(const Design& d, const MapOptions& opt) {
     if (!m.stats.converged) r.all_converged = false;
   };
 
+  const int stages = 1 + static_cast<int>(d.constrictions.size() + d.gates.size());
+  int stage = 0;
+  auto report = [&](const std::string& what) {
+    if (opt.progress) opt.progress(stage, stages, what);
+    ++stage;
+  };
   // The whole mesa at the design voltages.
+  report("whole mesa");
   {
     const ElectrostaticProblem whole(d, opt.electrostatics);
     r.map = whole.Solve(design_volts);
@@ -120,6 +127,7 @@ MapResult ComputeMap(const Design& d, const MapOptions& opt) {
 
   // Constrictions on local windows.
   for (const Constriction& k : d.constrictions) {
+    report("pinch-off of " + k.name);
     ConstrictionMap cm;
     cm.name = k.name;
     const auto gap = FindGap(d, k, nullptr);
@@ -165,6 +173,7 @@ MapResult ComputeMap(const Design& d, const MapOptions& opt) {
   // Gates: depletion at actual size (alone, the others at 0 V) and the edge at the design voltage.
   for (std::size_t gi = 0; gi < d.gates.size(); ++gi) {
     const Gate& g = d.gates[gi];
+    report("depletion of " + g.name);
     GateMap gm;
     gm.name = g.name;
     gm.wide_depletion_V = fig.depletion_voltage_V;

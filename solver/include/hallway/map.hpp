@@ -10,6 +10,7 @@
 // (`window_m` around the gap or the gate), the whole mesa once at the design voltages.
 #pragma once
 
+#include <functional>
 #include <optional>
 #include <string>
 #include <vector>
@@ -27,6 +28,8 @@ struct MapOptions {
   double pinch_resolution_V = 1e-3;
   double empty_fraction = 1e-3;   // "empty" means n < empty_fraction n_s
   double search_limit_V = -10.0;  // no search below this gate voltage
+  // Called before each stage (the whole mesa, each constriction, each gate): step, total, what.
+  std::function<void(int, int, const std::string&)> progress;
   bool IsValid(std::string* why) const;
 };
 
