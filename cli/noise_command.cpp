@@ -240,10 +240,7 @@ int RunNoise(const NoiseArgs& args) {
     return kExitUsage;
   }
   const CheckResult check = CheckDesign(d);
-  if (!check.ok()) {
-    for (const Finding& f : check.findings)
-      if (f.severity == Severity::kError)
-        std::cerr << "hallway: design error: " << f.where.ToString() << ": " << f.message << "\n";
+  if (ReportErrors(check.findings) > 0) {
     std::cerr << "hallway: run `hallway check` for the full list; nothing was solved\n";
     return kExitDesignError;
   }
