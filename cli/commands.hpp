@@ -2,6 +2,7 @@
 #pragma once
 
 #include <string>
+#include <vector>
 
 namespace hallway::cli {
 
@@ -89,5 +90,25 @@ struct ReportArgs {
 };
 
 int RunReport(const ReportArgs& args);
+
+}  // namespace hallway::cli
+
+namespace hallway::cli {
+
+struct SweepArgs {
+  std::string design_path;
+  std::vector<std::string> vary;  // "KEY=FROM:TO:N"
+  bool zip = false;
+  std::string output;
+  std::string quantities;  // comma list of groups; empty: the default set
+  int threads = 0;         // 0: the machine's cores (divided among MPI ranks)
+  bool resume = false;
+  bool fast = false;
+  bool quiet = false;
+  bool cold = false;  // no warm starts (for benchmarks)
+};
+
+// Runs a parameter sweep; under mpirun the points are shared among the ranks.
+int RunSweep(const SweepArgs& args, int argc, char** argv);
 
 }  // namespace hallway::cli

@@ -70,6 +70,20 @@ int main(int argc, char** argv) {
   rp->add_flag("--fast", report.fast, "Bare-potential channel boundaries, no electrostatic solve");
   rp->add_flag("--quiet", report.quiet, "No progress line on standard error");
 
+  SweepArgs sweep;
+  auto* sw = app.add_subcommand("sweep", "Sweep design values (threads; MPI under mpirun) into a CSV file");
+  sw->add_option("design", sweep.design_path, "Design file (YAML)")->required();
+  sw->add_option("--vary", sweep.vary, "KEY=FROM:TO:N with units, e.g. gates.QL.voltage=-0.6V:-0.9V:31 (repeatable)")
+      ->required();
+  sw->add_flag("--zip", sweep.zip, "Vary the keys in lock-step instead of over a grid");
+  sw->add_option("--output", sweep.output, "CSV file, one row per point")->required();
+  sw->add_option("--quantities", sweep.quantities, "Groups: currents,voltages,conductance,noise,snr,fano,saddle");
+  sw->add_option("--threads", sweep.threads, "Threads per process (default: the cores, shared among MPI ranks)");
+  sw->add_flag("--resume", sweep.resume, "Keep the points already in the output file");
+  sw->add_flag("--fast", sweep.fast, "Bare-potential boundaries, no electrostatic solves");
+  sw->add_flag("--quiet", sweep.quiet, "No progress line on standard error");
+  sw->add_flag("--cold", sweep.cold, "Start every electrostatic solve from scratch (benchmarks)");
+
   try {
     app.parse(argc, argv);
   } catch (const CLI::CallForHelp& e) {
@@ -86,6 +100,7 @@ int main(int argc, char** argv) {
     if (*mp) return RunMap(map);
     if (*pa) return RunPaths(paths);
     if (*rp) return RunReport(report);
+    if (*sw) return RunSweep(sweep, argc, argv);
     if (*n) {
       noise.phase_given = phase->count() > 0;
       return RunNoise(noise);

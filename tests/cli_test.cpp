@@ -4,7 +4,9 @@
 #include <sys/wait.h>
 #include <unistd.h>
 
+#include <algorithm>
 #include <cstdio>
+#include <cstdlib>
 #include <filesystem>
 #include <fstream>
 #include <nlohmann/json.hpp>
@@ -256,6 +258,70 @@ TEST(Cli, MapReportsPinchOffAndWritesTheDensityGrid) {
   std::getline(lines, header);
   EXPECT_EQ(header, "x_m,y_m,density_per_m2,filling");
   EXPECT_EQ(hallway("map '" + test::SourcePath("designs/03_fabry_perot.yaml") + "' --grid 10").exit_code, 2);
+}
+
+// A sweep over 8 electrostatic points of the Fabry-Perot demo (two chunks of four).
+std::string sweep_cmd(const fs::path& out, const std::string& extra) {
+  return "sweep '" + test::SourcePath("designs/03_fabry_perot.yaml") +
+         "' --vary gates.Q1N.voltage=-0.8V:-1.0V:8 --vary " +
+         "conditions.temperature=20mK:20mK:1 --quantities currents,noise,saddle --quiet --output '" + out.string() +
+         "' " + extra;
+}
+
+TEST(Sweep, SerialThreadsAndMpiWriteTheSameFile) {
+  const fs::path a = scratch("serial.csv"), b = scratch("threads.csv"), c = scratch("mpi.csv");
+  ASSERT_EQ(hallway(sweep_cmd(a, "--threads 1")).exit_code, 0);
+  ASSERT_EQ(hallway(sweep_cmd(b, "--threads 2")).exit_code, 0);
+  const std::string serial = read(a);
+  EXPECT_EQ(std::count(serial.begin(), serial.end(), '\n'), 9);
+  EXPECT_EQ(serial, read(b));
+  if (std::system("command -v mpirun > /dev/null 2>&1") != 0)
+    GTEST_SKIP() << "mpirun is not installed (Debian package openmpi-bin)";
+  // OpenMPI refuses root and more ranks than cores unless told (deps.md).
+  const std::string env =
+      "OMPI_ALLOW_RUN_AS_ROOT=1 OMPI_ALLOW_RUN_AS_ROOT_CONFIRM=1 OMPI_MCA_rmaps_base_oversubscribe=1 ";
+  const int rc = std::system(
+      (env + "mpirun -np 2 '" + HALLWAY_EXE + "' " + sweep_cmd(c, "--threads 1") + " > /dev/null 2>&1").c_str());
+  ASSERT_EQ(WIFEXITED(rc) ? WEXITSTATUS(rc) : -1, 0);
+  EXPECT_EQ(serial, read(c));
+}
+
+TEST(Sweep, ResumedSweepEqualsAnUninterruptedOne) {
+  const fs::path full = scratch("full.csv"), part = scratch("part.csv");
+  ASSERT_EQ(hallway(sweep_cmd(full, "--threads 2")).exit_code, 0);
+  // An interrupted run: the header, the first chunk and half of the second.
+  std::stringstream lines(read(full));
+  std::string kept, line;
+  for (int i = 0; i < 7 && std::getline(lines, line); ++i) kept += line + "\n";
+  {
+    std::ofstream o(part);
+    o << kept;
+  }
+  const CommandRun r = hallway(sweep_cmd(part, "--threads 2 --resume"));
+  ASSERT_EQ(r.exit_code, 0) << r.output;
+  EXPECT_NE(r.output.find("4 kept from before"), std::string::npos) << r.output;
+  EXPECT_EQ(read(part), read(full));
+}
+
+TEST(Sweep, BadKeysRangesAndUnitsFailBeforeAnyWork) {
+  const fs::path out = scratch("bad.csv");
+  fs::remove(out);
+  const std::string design = "'" + test::SourcePath("designs/03_fabry_perot.yaml") + "'";
+  CommandRun r = hallway("sweep " + design + " --vary gates.QX.voltage=-0.8V:-1V:3 --output '" + out.string() + "'");
+  EXPECT_EQ(r.exit_code, 1);
+  EXPECT_NE(r.output.find("no object named 'QX'"), std::string::npos) << r.output;
+  r = hallway("sweep " + design + " --vary gates.Q1N.voltage=-0.8mK:-1mK:3 --output '" + out.string() + "'");
+  EXPECT_EQ(r.exit_code, 1);
+  EXPECT_NE(r.output.find("expected a voltage"), std::string::npos) << r.output;
+  r = hallway("sweep " + design + " --vary gates.Q1N.voltage=-0.8V:-1mA:3 --output '" + out.string() + "'");
+  EXPECT_EQ(r.exit_code, 2);
+  EXPECT_NE(r.output.find("different units"), std::string::npos) << r.output;
+  r = hallway("sweep " + design + " --vary gates.Q1N.voltage=-0.8V:-1V:0 --output '" + out.string() + "'");
+  EXPECT_EQ(r.exit_code, 2);
+  r = hallway("sweep " + design + " --vary constrictions.Q1.transmission=0.5:1.5:3 --output '" + out.string() + "'");
+  EXPECT_EQ(r.exit_code, 1);
+  EXPECT_NE(r.output.find("between 0 and 1"), std::string::npos) << r.output;
+  EXPECT_FALSE(fs::exists(out));
 }
 
 TEST(Cli, MissingDesignFileIsADesignError) {

@@ -628,4 +628,69 @@ Design LoadDesign(const std::string& path) {
   return LoadDesignFromString(text, path);
 }
 
+std::string SetDesignValue(const std::string& text, const std::string& path, const std::string& key_path,
+                           const std::string& value_text) {
+  YAML::Node root;
+  try {
+    root = YAML::Load(text);
+  } catch (const YAML::Exception& e) {
+    throw DesignError({path, e.mark.line + 1, e.mark.column + 1, ""}, "YAML syntax: " + e.msg);
+  }
+  auto fail = [&](const std::string& why) -> void { throw DesignError({path, 0, 0, key_path}, why); };
+  std::vector<std::string> parts;
+  {
+    std::string part;
+    for (char c : key_path) {
+      if (c == '.') {
+        parts.push_back(part);
+        part.clear();
+      } else {
+        part += c;
+      }
+    }
+    parts.push_back(part);
+  }
+  YAML::Node node = root;
+  for (std::size_t i = 0; i < parts.size(); ++i) {
+    std::string key = parts[i];
+    std::optional<std::size_t> index;
+    if (const auto br = key.find('['); br != std::string::npos) {
+      if (key.back() != ']') fail("malformed index in '" + parts[i] + "'");
+      try {
+        index = std::stoul(key.substr(br + 1, key.size() - br - 2));
+      } catch (...) {
+        fail("malformed index in '" + parts[i] + "'");
+      }
+      key = key.substr(0, br);
+    }
+    YAML::Node next;
+    if (node.IsMap()) {
+      if (!node[key]) fail("no key '" + key + "' at this place of the design");
+      next.reset(node[key]);
+    } else if (node.IsSequence()) {
+      bool found = false;
+      for (std::size_t k = 0; k < node.size() && !found; ++k)
+        if (node[k].IsMap() && node[k]["name"] && node[k]["name"].IsScalar() && node[k]["name"].Scalar() == key) {
+          next.reset(node[k]);
+          found = true;
+        }
+      if (!found) fail("no object named '" + key + "' in this list");
+    } else {
+      fail("'" + parts[i] + "' goes below a plain value");
+    }
+    if (index) {
+      if (!next.IsSequence() || *index >= next.size())
+        fail("index " + std::to_string(*index) + " is out of range in '" + parts[i] + "'");
+      next.reset(next[*index]);
+    }
+    node.reset(next);
+  }
+  if (!node.IsScalar()) fail("the path does not end at a single value");
+  const std::string old = node.Scalar();
+  node = old.rfind("source ", 0) == 0 ? "source " + value_text : value_text;
+  YAML::Emitter out;
+  out << root;
+  return std::string(out.c_str()) + "\n";
+}
+
 }  // namespace hallway

@@ -29,6 +29,13 @@ Design LoadDesign(const std::string& path);
 // The same from text already in memory; `path` is used in messages only.
 Design LoadDesignFromString(const std::string& text, const std::string& path);
 
+// Returns the design text with the value at `key_path` replaced by `value_text`. A path is a chain
+// of keys separated by '.', where a list of named objects is entered by name ("gates.QL.voltage") and
+// any list by index ("constrictions.Q.transmission[1]"); a source's bias is addressed as
+// "wiring.W" and keeps its role. Throws DesignError naming the path when it does not exist.
+std::string SetDesignValue(const std::string& text, const std::string& path, const std::string& key_path,
+                           const std::string& value_text);
+
 inline constexpr std::size_t kMaxDesignBytes = 8u << 20;  // 8 MiB: far above any hand-written design
 inline constexpr int kMaxNestingDepth = 32;               // deeper YAML is refused, not recursed into
 inline constexpr double kMaxCoordinate_m = 0.1;           // no outline point beyond 10 cm of the origin

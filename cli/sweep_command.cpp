@@ -1,0 +1,430 @@
+// `hallway sweep`: a grid (or lock-step list) of design variants, solved in parallel with threads
+// and, under mpirun, across MPI ranks; one CSV row per point, written as points finish.
+//
+// Determinism: the points are cut into consecutive chunks of kChunk; within a chunk each electrostatic
+// solve starts from the previous point's solution, the first from scratch, and FFTW runs on one thread
+// per solve. A chunk therefore gives the same numbers whichever thread or rank computes it, so serial,
+// threaded and MPI runs write the same rows; the file is rewritten sorted by point when the sweep ends. --resume
+// keeps the chunks whose every point is already in the file and recomputes the others.
+#include <fmt/core.h>
+#include <mpi.h>
+#include <unistd.h>
+
+#include <algorithm>
+#include <atomic>
+#include <chrono>
+#include <cmath>
+#include <cstdlib>
+#include <cstring>
+#include <fstream>
+#include <iostream>
+#include <map>
+#include <mutex>
+#include <set>
+#include <sstream>
+#include <thread>
+
+#include "commands.hpp"
+#include "hallway/check.hpp"
+#include "hallway/design_loader.hpp"
+#include "hallway/electrostatics.hpp"
+#include "hallway/network.hpp"
+#include "hallway/noise.hpp"
+#include "hallway/transport.hpp"
+#include "hallway/units.hpp"
+#include "output.hpp"
+#include "progress.hpp"
+
+namespace hallway::cli {
+namespace {
+
+constexpr int kChunk = 4;
+constexpr int kTagRow = 1, kTagDone = 2;
+
+struct Axis {
+  std::string key;
+  std::vector<std::string> values;  // value texts with units
+  std::vector<double> si;           // the same in SI, for the CSV
+};
+
+// "KEY=FROM:TO:N" with units in FROM/TO; the value texts keep FROM's unit.
+Axis parse_axis(const std::string& spec) {
+  const auto eq = spec.find('=');
+  if (eq == std::string::npos) throw std::invalid_argument("--vary takes KEY=FROM:TO:N, got '" + spec + "'");
+  Axis a;
+  a.key = spec.substr(0, eq);
+  std::vector<std::string> parts;
+  std::stringstream ss(spec.substr(eq + 1));
+  std::string p;
+  while (std::getline(ss, p, ':')) parts.push_back(p);
+  if (parts.size() != 3) throw std::invalid_argument("--vary " + a.key + ": give FROM:TO:N");
+  int n = 0;
+  try {
+    n = std::stoi(parts[2]);
+  } catch (...) {
+    throw std::invalid_argument("--vary " + a.key + ": N must be a whole number");
+  }
+  if (n < 1 || n > 100000) throw std::invalid_argument("--vary " + a.key + ": N must lie in [1, 100000]");
+  const units::Quantity from = units::ParseQuantity(parts[0]), to = units::ParseQuantity(parts[1]);
+  if (!(from.dimension == to.dimension))
+    throw std::invalid_argument("--vary " + a.key + ": FROM and TO have different units");
+  // The unit text of FROM (what follows the number), to write every value in it.
+  std::string unit = parts[0];
+  std::size_t k = 0;
+  while (k < unit.size() && (std::isdigit(static_cast<unsigned char>(unit[k])) || std::strchr("+-.eE", unit[k]))) ++k;
+  unit = unit.substr(k);
+  while (!unit.empty() && unit.front() == ' ') unit.erase(0, 1);
+  const double scale = unit.empty() ? 1.0 : units::ParseUnit(unit).value_si;
+  for (int i = 0; i < n; ++i) {
+    const double si = n == 1 ? from.value_si : from.value_si + (to.value_si - from.value_si) * i / (n - 1);
+    a.si.push_back(si);
+    a.values.push_back(fmt::format("{:.12g}", si / scale) + (unit.empty() ? "" : " " + unit));
+  }
+  return a;
+}
+
+struct Point {
+  std::vector<std::size_t> index;  // per axis
+};
+
+std::string quantities_header(const Design& d, const std::set<std::string>& q) {
+  std::string h;
+  auto add = [&](const std::string& c) { h += "," + c; };
+  if (q.count("currents"))
+    for (const Contact& c : d.contacts) add("I_" + c.name + "_A");
+  if (q.count("voltages"))
+    for (const Contact& c : d.contacts) add("V_" + c.name + "_V");
+  if (q.count("conductance"))
+    for (const Contact& a : d.contacts)
+      for (const Contact& b : d.contacts) add("G_" + a.name + "_" + b.name + "_S");
+  std::vector<std::string> amps;
+  for (const Wiring& w : d.wiring)
+    if (w.role == Role::kAmplifier) amps.push_back(w.contact);
+  if (q.count("noise"))
+    for (std::size_t a = 0; a < amps.size(); ++a)
+      for (std::size_t b = a; b < amps.size(); ++b) add("S_exc_" + amps[a] + "_" + amps[b] + "_A2_per_Hz");
+  if (q.count("snr"))
+    for (const auto& a : amps) add("SNR_" + a);
+  if (q.count("fano"))
+    for (const Constriction& k : d.constrictions) add("P_" + k.name);
+  if (q.count("saddle"))
+    for (const Constriction& k : d.constrictions) add("saddle_density_" + k.name + "_m2");
+  return h;
+}
+
+// Solves one point; *state carries the electrostatic solution from the previous point of the chunk.
+std::string solve_point(const std::string& text, const std::string& path, const std::set<std::string>& q, bool fast,
+                        std::optional<DensityMap>* state, std::atomic<long>* applications) {
+  const Design d = LoadDesignFromString(text, path);
+  const CheckResult check = CheckDesign(d);
+  if (!check.ok())
+    throw DesignError({path, 0, 0, ""}, "a sweep point fails the design checks: " + check.findings.front().message);
+  ChannelGeometry geometry;
+  std::optional<DensityMap> map;
+  if (!fast) {
+    ElectrostaticsOptions eo;
+    eo.threads = 1;
+    const ElectrostaticProblem problem(d, eo);
+    std::vector<double> volts;
+    for (const Gate& g : d.gates) volts.push_back(g.voltage_V);
+    const DensityMap* start =
+        (*state && (*state)->nx == problem.nx() && (*state)->ny == problem.ny()) ? &**state : nullptr;
+    map = problem.Solve(volts, start);
+    *applications += map->stats.operator_applications;
+    if (!map->stats.converged) throw std::runtime_error("an electrostatic solve did not converge");
+    NetworkOptions no;
+    no.density = &*map;
+    geometry = BuildChannelGeometry(d, no);
+    *state = map;
+  } else {
+    geometry = BuildChannelGeometry(d);
+  }
+  const EdgeNetwork net = TraceEdges(d, geometry, d.conditions.field_T);
+  for (const Finding& f : net.findings)
+    if (f.severity == Severity::kError) throw std::runtime_error(f.message);
+  const TransportResult tr = SolveTransport(d, net);
+  std::string row;
+  auto add = [&](double x) { row += fmt::format(",{:.10g}", x); };
+  if (q.count("currents"))
+    for (double i : tr.current_A) add(i);
+  if (q.count("voltages"))
+    for (const auto& v : tr.voltage_V) add(v.value_or(std::nan("")));
+  if (q.count("conductance"))
+    for (const auto& r : tr.conductance_S)
+      for (double g : r) add(g);
+  if (q.count("noise") || q.count("snr") || q.count("fano")) {
+    NoiseOptions no;
+    no.phase_samples = 64;
+    const NoiseResult n = SolveNoise(d, net, tr, no);
+    std::vector<int> amps;
+    for (std::size_t i = 0; i < d.wiring.size(); ++i)
+      if (d.wiring[i].role == Role::kAmplifier) amps.push_back(static_cast<int>(i));
+    if (q.count("noise"))
+      for (std::size_t a = 0; a < amps.size(); ++a)
+        for (std::size_t b = a; b < amps.size(); ++b)
+          add(n.excess_A2_per_Hz[static_cast<std::size_t>(amps[a])][static_cast<std::size_t>(amps[b])]);
+    if (q.count("snr"))
+      for (const AmplifierNoise& a : n.amplifiers) add(a.snr);
+    if (q.count("fano"))
+      for (std::size_t k = 0; k < d.constrictions.size(); ++k) {
+        double p = std::nan("");
+        for (const ColliderPrediction& c : n.colliders)
+          if (c.constriction == static_cast<int>(k) && c.fano) p = *c.fano;
+        add(p);
+      }
+  }
+  if (q.count("saddle"))
+    for (const Constriction& k : d.constrictions) {
+      const auto gap = FindGap(d, k, nullptr);
+      add(map && gap ? map->At(gap->midpoint()) : std::nan(""));
+    }
+  return row;
+}
+
+}  // namespace
+
+int RunSweep(const SweepArgs& args, int argc, char** argv) {
+  // MPI only when started by mpirun (OpenMPI sets OMPI_COMM_WORLD_SIZE).
+  const bool use_mpi = std::getenv("OMPI_COMM_WORLD_SIZE") != nullptr;
+  int rank = 0, size = 1;
+  if (use_mpi) {
+    int provided = 0;
+    MPI_Init_thread(&argc, &argv, MPI_THREAD_FUNNELED, &provided);
+    MPI_Comm_rank(MPI_COMM_WORLD, &rank);
+    MPI_Comm_size(MPI_COMM_WORLD, &size);
+  }
+  struct Finalize {
+    bool on;
+    ~Finalize() {
+      if (on) MPI_Finalize();
+    }
+  } finalize{use_mpi};
+  auto usage = [&](const std::string& why) {
+    if (rank == 0) std::cerr << "hallway: usage error: " << why << "\n";
+    return kExitUsage;
+  };
+
+  Design base;
+  if (int code = 0; !LoadOrReport(args.design_path, &base, &code)) return code;
+  std::string text;
+  {
+    std::ifstream in(args.design_path, std::ios::binary);
+    std::stringstream ss;
+    ss << in.rdbuf();
+    text = ss.str();
+  }
+  if (args.vary.empty()) return usage("give at least one --vary KEY=FROM:TO:N");
+  if (args.output.empty()) return usage("--output FILE.csv is required");
+  std::vector<Axis> axes;
+  try {
+    for (const auto& v : args.vary) axes.push_back(parse_axis(v));
+  } catch (const std::exception& e) {
+    return usage(e.what());
+  }
+  std::set<std::string> q;
+  {
+    const std::string list = args.quantities.empty() ? "currents,voltages,noise,snr,fano,saddle" : args.quantities;
+    std::stringstream ss(list);
+    std::string item;
+    const std::set<std::string> known{"currents", "voltages", "conductance", "noise", "snr", "fano", "saddle"};
+    while (std::getline(ss, item, ',')) {
+      if (!known.count(item))
+        return usage("--quantities: unknown group '" + item +
+                     "' (currents, voltages, conductance, noise, snr, fano, saddle)");
+      q.insert(item);
+    }
+  }
+  // Points: a Cartesian grid (first --vary slowest) or lock-step.
+  std::vector<Point> points;
+  if (args.zip) {
+    for (const Axis& a : axes)
+      if (a.values.size() != axes.front().values.size()) return usage("--zip needs the same N on every --vary");
+    for (std::size_t i = 0; i < axes.front().values.size(); ++i)
+      points.push_back({std::vector<std::size_t>(axes.size(), i)});
+  } else {
+    std::vector<std::size_t> idx(axes.size(), 0);
+    while (true) {
+      points.push_back({idx});
+      std::size_t k = axes.size();
+      while (k > 0) {
+        --k;
+        if (++idx[k] < axes[k].values.size()) break;
+        idx[k] = 0;
+        if (k == 0) goto done;
+      }
+      if (axes.size() == 0) break;
+    }
+  done:;
+  }
+  if (points.size() > 1000000) return usage("more than a million points");
+  auto text_of = [&](const Point& p) {
+    std::string t = text;
+    for (std::size_t a = 0; a < axes.size(); ++a)
+      t = SetDesignValue(t, args.design_path, axes[a].key, axes[a].values[p.index[a]]);
+    return t;
+  };
+  // Every key and both ends of every range must load before any work starts.
+  try {
+    for (std::size_t a = 0; a < axes.size(); ++a)
+      for (std::size_t end : {std::size_t{0}, axes[a].values.size() - 1}) {
+        std::string t = text;
+        t = SetDesignValue(t, args.design_path, axes[a].key, axes[a].values[end]);
+        LoadDesignFromString(t, args.design_path + " with " + axes[a].key + " = " + axes[a].values[end]);
+      }
+  } catch (const DesignError& e) {
+    if (rank == 0) std::cerr << "hallway: design error: " << e.what() << "\n";
+    return kExitDesignError;
+  }
+  std::string header = "point";
+  for (const Axis& a : axes) header += "," + a.key;
+  header += quantities_header(base, q) + "\n";
+
+  // Resume: chunks whose every point is in the file are kept.
+  const int chunks = static_cast<int>((points.size() + kChunk - 1) / kChunk);
+  std::map<std::size_t, std::string> kept;
+  if (args.resume && rank == 0) {
+    std::ifstream in(args.output);
+    std::string line;
+    if (std::getline(in, line) && line + "\n" != header)
+      return usage("--resume: " + args.output + " was written by a different sweep");
+    while (std::getline(in, line)) {
+      const auto comma = line.find(',');
+      if (comma == std::string::npos) continue;
+      try {
+        kept[std::stoul(line.substr(0, comma))] = line + "\n";
+      } catch (...) {
+      }
+    }
+  }
+  std::vector<char> todo(static_cast<std::size_t>(chunks), 1);
+  std::size_t kept_points = 0;
+  for (int c = 0; c < chunks; ++c) {
+    bool complete = true;
+    const std::size_t first = static_cast<std::size_t>(c) * kChunk,
+                      last = std::min(points.size(), static_cast<std::size_t>(c + 1) * kChunk);
+    for (std::size_t p = first; p < last; ++p) complete = complete && kept.count(p);
+    if (complete) {
+      todo[static_cast<std::size_t>(c)] = 0;
+      kept_points += last - first;
+    }
+  }
+  if (use_mpi) MPI_Bcast(todo.data(), chunks, MPI_CHAR, 0, MPI_COMM_WORLD);
+
+  // Rank 0 writes: the kept rows, then every finished row, flushed.
+  std::ofstream out;
+  std::mutex out_mutex;
+  std::map<std::size_t, std::string> rows = kept;
+  if (rank == 0) {
+    // Rows go straight into the output as they finish (appended on --resume), so an interrupted
+    // sweep loses nothing; the finished file is rewritten sorted, atomically.
+    if (args.resume && !kept.empty()) {
+      out.open(args.output, std::ios::app);
+    } else {
+      out.open(args.output, std::ios::trunc);
+      out << header;
+    }
+    out.flush();
+    if (!out) {
+      std::cerr << "hallway: output error: cannot write " << args.output << "\n";
+      return kExitOutputError;
+    }
+  }
+  auto write_row = [&](std::size_t p, const std::string& r) {
+    std::lock_guard<std::mutex> lock(out_mutex);
+    rows[p] = r;
+    out << r;
+    out.flush();
+  };
+  // This rank's chunks, interleaved across ranks; threads take them one at a time.
+  std::vector<int> mine;
+  for (int c = 0; c < chunks; ++c)
+    if (todo[static_cast<std::size_t>(c)] && c % size == rank) mine.push_back(c);
+  const int hw = std::max(1, static_cast<int>(std::thread::hardware_concurrency()) / size);
+  const int threads = std::max(1, std::min(args.threads > 0 ? args.threads : hw, static_cast<int>(mine.size())));
+  std::atomic<int> next{0}, done_points{0};
+  std::atomic<long> applications{0};
+  std::mutex mpi_mutex, error_mutex;
+  std::string error;
+  const Progress progress("sweep", static_cast<int>(points.size()), args.quiet || rank != 0);
+  auto worker = [&] {
+    while (true) {
+      const int i = next++;
+      if (i >= static_cast<int>(mine.size())) return;
+      const int c = mine[static_cast<std::size_t>(i)];
+      std::optional<DensityMap> state;
+      for (std::size_t p = static_cast<std::size_t>(c) * kChunk;
+           p < std::min(points.size(), static_cast<std::size_t>(c + 1) * kChunk); ++p) {
+        std::string row = std::to_string(p);
+        for (std::size_t a = 0; a < axes.size(); ++a) row += fmt::format(",{:.10g}", axes[a].si[points[p].index[a]]);
+        try {
+          if (args.cold) state.reset();
+          row += solve_point(text_of(points[p]), args.design_path, q, args.fast, &state, &applications) + "\n";
+        } catch (const std::exception& e) {
+          std::lock_guard<std::mutex> lock(error_mutex);
+          if (error.empty()) error = "point " + std::to_string(p) + ": " + e.what();
+          return;
+        }
+        if (rank == 0) {
+          write_row(p, row);
+        } else {
+          std::lock_guard<std::mutex> lock(mpi_mutex);
+          MPI_Send(row.data(), static_cast<int>(row.size()), MPI_CHAR, 0, kTagRow, MPI_COMM_WORLD);
+        }
+        progress.Step(done_points++, "points");
+      }
+    }
+  };
+  std::vector<std::thread> pool;
+  for (int t = 0; t < threads; ++t) pool.emplace_back(worker);
+  if (rank == 0 && use_mpi) {
+    // Receive the other ranks' rows while the local threads work.
+    int finished = 1;
+    while (finished < size) {
+      // Poll with a pause: a blocking probe spins and would take a core from the workers.
+      MPI_Status st;
+      int flag = 0;
+      {
+        std::lock_guard<std::mutex> lock(mpi_mutex);
+        MPI_Iprobe(MPI_ANY_SOURCE, MPI_ANY_TAG, MPI_COMM_WORLD, &flag, &st);
+      }
+      if (!flag) {
+        std::this_thread::sleep_for(std::chrono::milliseconds(5));
+        continue;
+      }
+      int count = 0;
+      MPI_Get_count(&st, MPI_CHAR, &count);
+      std::string buf(static_cast<std::size_t>(count), '\0');
+      MPI_Recv(buf.data(), count, MPI_CHAR, st.MPI_SOURCE, st.MPI_TAG, MPI_COMM_WORLD, MPI_STATUS_IGNORE);
+      if (st.MPI_TAG == kTagDone) {
+        ++finished;
+        if (!buf.empty() && error.empty()) error = buf;
+        continue;
+      }
+      write_row(std::stoul(buf.substr(0, buf.find(','))), buf);
+    }
+  }
+  for (auto& t : pool) t.join();
+  if (rank != 0 && use_mpi)
+    MPI_Send(error.data(), static_cast<int>(error.size()), MPI_CHAR, 0, kTagDone, MPI_COMM_WORLD);
+  if (rank != 0) return error.empty() ? kExitOk : kExitDesignError;
+  out.close();
+  if (!error.empty()) {
+    std::cerr << "hallway: sweep stopped: " << error << "\n(the finished points are in " << args.output
+              << "; fix the cause and run again with --resume)\n";
+    return kExitDesignError;
+  }
+  // All points done: the sorted file replaces the output atomically.
+  std::string all = header;
+  for (const auto& [p, r] : rows) all += r;
+  try {
+    WriteFileAtomically(args.output, all, {args.design_path});
+  } catch (const OutputError& e) {
+    std::cerr << "hallway: output error: " << e.what() << "\n";
+    return kExitOutputError;
+  }
+  std::cout << "hallway sweep: " << points.size() << " points (" << kept_points << " kept from before) written to "
+            << args.output << "; " << applications.load() << " electrostatic operator applications on rank 0\n";
+  return kExitOk;
+}
+
+}  // namespace hallway::cli
