@@ -59,7 +59,7 @@ int gate_index(const Design& d, const std::string& name) {
 // Bisection for the voltage at which `density(V)` (monotone: lower V, less density) reaches `empty`.
 // Returns nullopt when the 2DEG is still there at the search limit.
 std::optional<double> find_empty(const std::function<double(double)>& density, double empty, double start_V,
-                                 double limit_V, double resolution_V, MapResult& r) {
+                                 double limit_V, double resolution_V) {
   double hi = std::min(start_V, -resolution_V);
   if (density(hi) <= empty) {
     // Already empty: look above, up to 0 V.
@@ -83,7 +83,6 @@ std::optional<double> find_empty(const std::function<double(double)>& density, d
     const double mid = 0.5 * (hi + lo);
     (density(mid) <= empty ? lo : hi) = mid;
   }
-  (void)r;
   return 0.5 * (hi + lo);
 }
 
@@ -156,7 +155,7 @@ MapResult ComputeMap(const Design& d, const MapOptions& opt) {
       ok = ok && last.stats.converged;
       return last.At(mid);
     };
-    cm.pinch_off_V = find_empty(density, empty, fig.depletion_voltage_V, opt.search_limit_V, opt.pinch_resolution_V, r);
+    cm.pinch_off_V = find_empty(density, empty, fig.depletion_voltage_V, opt.search_limit_V, opt.pinch_resolution_V);
     if (ga >= 0 && gb >= 0)
       cm.bare_pinch_off_V = BareSplitGatePinchOff_V(fig.depletion_voltage_V, gap->distance_m, depth);
     if (!ok) {
@@ -211,8 +210,7 @@ MapResult ComputeMap(const Design& d, const MapOptions& opt) {
         ok = ok && last.stats.converged;
         return last.At(deepest);
       };
-      gm.depletion_V =
-          find_empty(density, empty, fig.depletion_voltage_V, opt.search_limit_V, opt.pinch_resolution_V, r);
+      gm.depletion_V = find_empty(density, empty, fig.depletion_voltage_V, opt.search_limit_V, opt.pinch_resolution_V);
       if (!ok) gm.depletion_V.reset();
     }
     // Lateral depletion from the whole-mesa map: march out along the normals of the gate's edges.

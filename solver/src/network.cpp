@@ -428,7 +428,9 @@ EdgeNetwork TraceEdges(const Design& d, const ChannelGeometry& g, double field_T
                                   "constriction " + d.constrictions[static_cast<std::size_t>(k)].name + ": channel " +
                                       std::to_string(cr.channel + 1) + " meets face " + std::to_string(f) +
                                       " of its gap " + std::to_string(ins) +
-                                      " times instead of once; the layout around the gap is too irregular to trace",
+                                      " times instead of once; the layout around the gap is too irregular to trace "
+                                      "(try --fast for the bare "
+                                      "boundaries)",
                                   d.constrictions[static_cast<std::size_t>(k)].where});
       }
     }
