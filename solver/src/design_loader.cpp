@@ -6,6 +6,7 @@
 #include <algorithm>
 #include <charconv>
 #include <cmath>
+#include <filesystem>
 #include <fstream>
 #include <map>
 #include <set>
@@ -13,6 +14,8 @@
 
 #include "hallway/channels.hpp"
 #include "hallway/constants.hpp"
+#include "hallway/geometry/gdsii.hpp"
+#include "hallway/geometry/region.hpp"
 #include "hallway/units.hpp"
 
 namespace hallway {
@@ -326,6 +329,140 @@ Wiring read_wiring(const Reader& r, const std::string& contact, const Value& v,
   return w;
 }
 
+// What a layout file contributes: the mesa and the named gates and contacts, in metres.
+struct Imported {
+  std::optional<geometry::Polygon> mesa;
+  std::map<std::string, geometry::Polygon> contacts, gates;
+  SourceLocation where;
+};
+
+geometry::GdsLayer layer_of(const Reader& r, const Value& v) {
+  const std::string s = r.scalar(v, "a layer as \"layer/datatype\", e.g. 5/0");
+  int layer = 0, datatype = 0;
+  const auto slash = s.find('/');
+  try {
+    std::size_t used = 0;
+    layer = std::stoi(s.substr(0, slash), &used);
+    if (used != (slash == std::string::npos ? s.size() : slash)) throw std::invalid_argument("");
+    if (slash != std::string::npos) {
+      datatype = std::stoi(s.substr(slash + 1), &used);
+      if (used != s.size() - slash - 1) throw std::invalid_argument("");
+    }
+  } catch (...) {
+    r.fail(v, "a layer is written \"layer/datatype\", e.g. 5/0; got '" + s + "'");
+  }
+  if (layer < 0 || layer > 65535 || datatype < 0 || datatype > 65535) r.fail(v, "layer and datatype lie in 0..65535");
+  return {layer, datatype};
+}
+
+std::string where_text(geometry::Point p) {
+  char b[96];
+  std::snprintf(b, sizeof b, "(%.4g um, %.4g um)", p.x * 1e6, p.y * 1e6);
+  return b;
+}
+
+// Named objects of one layer: touching shapes are merged (CGAL), and each merged piece must hold
+// exactly one label, from the labels layer or its own.
+std::map<std::string, geometry::Polygon> named_objects(const Reader& r, const Value& at, const geometry::GdsFlat& flat,
+                                                       geometry::GdsLayer layer,
+                                                       std::optional<geometry::GdsLayer> labels,
+                                                       const std::string& what, Design* d) {
+  geometry::Region all;
+  if (const auto it = flat.polygons.find(layer); it != flat.polygons.end())
+    for (const auto& p : it->second) {
+      if (geometry::find_defect(p) != geometry::PolygonDefect::kNone)
+        r.fail(at, "a " + what + " polygon on layer " + std::to_string(layer.layer) + "/" +
+                       std::to_string(layer.datatype) + " near " + where_text(p.vertices.front()) +
+                       " is not a simple polygon");
+      all = all.Union(geometry::Region(p));
+    }
+  std::vector<geometry::GdsLabel> texts;
+  for (const auto& l : {std::optional<geometry::GdsLayer>(layer), labels})
+    if (l)
+      if (const auto it = flat.labels.find(*l); it != flat.labels.end())
+        texts.insert(texts.end(), it->second.begin(), it->second.end());
+  std::map<std::string, geometry::Polygon> out;
+  std::vector<char> used(texts.size(), 0);
+  for (const auto& piece : all.Pieces()) {
+    std::vector<std::size_t> inside;
+    for (std::size_t t = 0; t < texts.size(); ++t)
+      if (geometry::contains(piece.outer, texts[t].at)) inside.push_back(t);
+    const std::string layer_text = std::to_string(layer.layer) + "/" + std::to_string(layer.datatype);
+    if (inside.empty())
+      r.fail(at, "a " + what + " polygon on layer " + layer_text + " near " + where_text(piece.outer.vertices.front()) +
+                     " has no label");
+    if (inside.size() > 1)
+      r.fail(at, "a " + what + " polygon on layer " + layer_text + " holds two labels, '" + texts[inside[0]].text +
+                     "' and '" + texts[inside[1]].text + "'");
+    const std::string& name = texts[inside[0]].text;
+    if (out.count(name))
+      r.fail(at, "two " + what + " polygons on layer " + layer_text + " are both labelled '" + name + "'");
+    used[inside[0]] = 1;
+    out[name] = piece.outer;
+  }
+  for (std::size_t t = 0; t < texts.size(); ++t)
+    if (!used[t] && !labels)
+      d->notes.push_back("label '" + texts[t].text + "' at " + where_text(texts[t].at) + " lies in no " + what +
+                         " polygon");
+  return out;
+}
+
+Imported read_layout(const Reader& r, const Value& lv, const std::string& design_path, Design* d) {
+  const auto lm = r.map(lv, {"file", "cell", "layers"});
+  const Value fv = r.require(lm, "file");
+  std::filesystem::path file(r.scalar(fv, "a file name"));
+  if (file.is_relative()) file = std::filesystem::path(design_path).parent_path() / file;
+  std::ifstream in(file, std::ios::binary);
+  if (!in) r.fail(fv, "cannot open the layout file " + file.string());
+  std::stringstream ss;
+  ss << in.rdbuf();
+  std::string cell;
+  if (auto cv = lm.get("cell")) cell = r.scalar(*cv, "a structure name");
+  geometry::GdsFlat flat;
+  try {
+    flat = geometry::ReadGds(ss.str(), cell);
+  } catch (const geometry::GdsError& e) {
+    r.fail(fv, "layout file " + file.string() + ": " + e.what());
+  }
+  const auto layers = r.map(r.require(lm, "layers"), {"mesa", "contacts", "gates", "labels"});
+  std::optional<geometry::GdsLayer> labels;
+  if (auto v = layers.get("labels")) labels = layer_of(r, *v);
+  Imported im;
+  im.where = r.where(lv);
+  if (auto v = layers.get("mesa")) {
+    const geometry::GdsLayer L = layer_of(r, *v);
+    geometry::Region all;
+    if (const auto it = flat.polygons.find(L); it != flat.polygons.end())
+      for (const auto& p : it->second) all = all.Union(geometry::Region(p));
+    const auto pieces = all.Pieces();
+    if (pieces.size() != 1 || !pieces.front().holes.empty())
+      r.fail(*v, "the mesa layer must hold one connected polygon without holes; it has " +
+                     std::to_string(pieces.size()) + " pieces");
+    im.mesa = pieces.front().outer;
+  }
+  if (auto v = layers.get("contacts")) im.contacts = named_objects(r, *v, flat, layer_of(r, *v), labels, "contact", d);
+  if (auto v = layers.get("gates")) im.gates = named_objects(r, *v, flat, layer_of(r, *v), labels, "gate", d);
+  char buf[256];
+  std::snprintf(buf, sizeof buf,
+                "layout %s: %zu structures, database unit %.3g m; imported %s%zu contacts and %zu gates",
+                file.filename().string().c_str(), flat.cells.size(), flat.database_unit_m, im.mesa ? "the mesa, " : "",
+                im.contacts.size(), im.gates.size());
+  d->notes.push_back(buf);
+  for (const auto& [name, p] : im.contacts) {
+    const auto bb = geometry::bounding_box(p);
+    std::snprintf(buf, sizeof buf, "  contact %s: area %.4g um^2, box (%.4g, %.4g)-(%.4g, %.4g) um", name.c_str(),
+                  geometry::area(p) * 1e12, bb.xmin * 1e6, bb.ymin * 1e6, bb.xmax * 1e6, bb.ymax * 1e6);
+    d->notes.push_back(buf);
+  }
+  for (const auto& [name, p] : im.gates) {
+    const auto bb = geometry::bounding_box(p);
+    std::snprintf(buf, sizeof buf, "  gate %s: area %.4g um^2, box (%.4g, %.4g)-(%.4g, %.4g) um", name.c_str(),
+                  geometry::area(p) * 1e12, bb.xmin * 1e6, bb.ymin * 1e6, bb.xmax * 1e6, bb.ymax * 1e6);
+    d->notes.push_back(buf);
+  }
+  return im;
+}
+
 }  // namespace
 
 Design LoadDesignFromString(const std::string& text, const std::string& path) {
@@ -339,8 +476,8 @@ Design LoadDesignFromString(const std::string& text, const std::string& path) {
   const Reader r(path);
   if (!root.IsDefined() || root.IsNull()) throw DesignError({path, 1, 1, ""}, "the design file is empty");
   const Value top{root, ""};
-  const auto m = r.map(top, {"hallway", "name", "units", "heterostructure", "conditions", "mesa", "contacts", "gates",
-                             "constrictions", "wiring", "amplifier", "channels"});
+  const auto m = r.map(top, {"hallway", "name", "units", "layout", "heterostructure", "conditions", "mesa", "contacts",
+                             "gates", "constrictions", "wiring", "amplifier", "channels"});
   Design d;
   d.path = path;
 
@@ -353,9 +490,15 @@ Design LoadDesignFromString(const std::string& text, const std::string& path) {
   }
   if (auto v = m.get("name")) d.name = r.scalar(*v, "free text");
 
-  // Outline unit.
-  {
-    const Value v = r.require(m, "units");
+  // Layout file (GDSII), if any: objects drawn there need no inline outline.
+  Imported imported;
+  if (auto lv = m.get("layout")) imported = read_layout(r, *lv, path, &d);
+  const bool have_layout = m.get("layout").has_value();
+  // Outline unit (needed only for inline outlines).
+  std::optional<Value> units_value = m.get("units");
+  if (!units_value && !have_layout) r.require(m, "units");
+  if (units_value) {
+    const Value v = *units_value;
     d.unit_name = r.scalar(v, "nm, um or mm");
     if (d.unit_name == "nm")
       d.unit_m = 1e-9;
@@ -366,6 +509,10 @@ Design LoadDesignFromString(const std::string& text, const std::string& path) {
     else
       r.fail(v, "units must be nm, um or mm, got '" + d.unit_name + "'");
   }
+  auto inline_outline = [&](const Value& v) {
+    if (!units_value) r.fail(v, "an inline outline needs the file's `units` (nm, um or mm)");
+    return r.outline(v, d.unit_m);
+  };
 
   // Heterostructure.
   {
@@ -479,10 +626,19 @@ Design LoadDesignFromString(const std::string& text, const std::string& path) {
 
   // Mesa.
   {
-    const Value mv = r.require(m, "mesa");
+    const auto given = m.get("mesa");
+    const Value mv = given ? *given : Value{YAML::Node(YAML::NodeType::Map), "mesa"};
+    if (!given && !imported.mesa) r.require(m, "mesa");
     const auto mm = r.map(mv, {"outline", "etch_depletion"});
-    d.mesa.where = r.where(mv);
-    d.mesa.outline = r.outline(r.require(mm, "outline"), d.unit_m);
+    d.mesa.where = given ? r.where(mv) : imported.where;
+    if (auto ov = mm.get("outline")) {
+      if (imported.mesa) r.fail(*ov, "the mesa is also drawn in the layout file; give it in one place only");
+      d.mesa.outline = inline_outline(*ov);
+    } else if (imported.mesa) {
+      d.mesa.outline = *imported.mesa;
+    } else {
+      r.require(mm, "outline");
+    }
     if (auto v = mm.get("etch_depletion")) {
       d.mesa.etch_depletion_m = r.quantity(*v, Kind::kLength);
       d.mesa.etch_depletion_given = true;
@@ -499,16 +655,37 @@ Design LoadDesignFromString(const std::string& text, const std::string& path) {
   };
 
   // Contacts.
-  for (const Value& item : r.list(r.require(m, "contacts"), "ohmic contacts")) {
-    const auto cm = r.map(item, {"name", "outline"});
-    Contact c;
-    const Value nv = r.require(cm, "name");
-    c.name = r.name(nv);
-    claim(nv, c.name, "contact");
-    c.where = r.where(item);
-    c.where.key_path = item.path + " (" + c.name + ")";
-    c.outline = r.outline(r.require(cm, "outline"), d.unit_m);
-    d.contacts.push_back(std::move(c));
+  std::set<std::string> listed;
+  if (auto cv = m.get("contacts"); cv && !cv->node.IsNull()) {
+    for (const Value& item : r.list(*cv, "ohmic contacts")) {
+      const auto cm = r.map(item, {"name", "outline"});
+      Contact c;
+      const Value nv = r.require(cm, "name");
+      c.name = r.name(nv);
+      claim(nv, c.name, "contact");
+      listed.insert(c.name);
+      c.where = r.where(item);
+      c.where.key_path = item.path + " (" + c.name + ")";
+      const auto drawn = imported.contacts.find(c.name);
+      if (auto ov = cm.get("outline")) {
+        if (drawn != imported.contacts.end())
+          r.fail(*ov, "contact " + c.name + " is also drawn in the layout file; give it in one place only");
+        c.outline = inline_outline(*ov);
+      } else if (drawn != imported.contacts.end()) {
+        c.outline = drawn->second;
+      } else {
+        r.fail(item, "contact " + c.name + " has no outline here and is not in the layout file");
+      }
+      d.contacts.push_back(std::move(c));
+    }
+  } else if (!have_layout) {
+    r.require(m, "contacts");
+  }
+  for (const auto& [name, outline] : imported.contacts) {
+    if (listed.count(name)) continue;
+    if (taken.count(name)) r.fail(m.self, "the layout's contact " + name + " has the name of a " + taken.at(name));
+    taken.emplace(name, "contact");
+    d.contacts.push_back({name, outline, imported.where});
   }
   if (d.contacts.empty()) r.fail(m.self, "a design needs at least one ohmic contact");
 
@@ -520,14 +697,31 @@ Design LoadDesignFromString(const std::string& text, const std::string& path) {
       const Value nv = r.require(gm, "name");
       g.name = r.name(nv);
       claim(nv, g.name, "gate");
+      listed.insert(g.name);
       g.where = r.where(item);
       g.where.key_path = item.path + " (" + g.name + ")";
       const Value vv = r.require(gm, "voltage");
       g.voltage_V = r.quantity(vv, Kind::kVoltage);
       range(r, vv, g.voltage_V, -20.0, 20.0, "a gate voltage");
-      g.outline = r.outline(r.require(gm, "outline"), d.unit_m);
+      const auto drawn = imported.gates.find(g.name);
+      if (auto ov = gm.get("outline")) {
+        if (drawn != imported.gates.end())
+          r.fail(*ov, "gate " + g.name + " is also drawn in the layout file; give it in one place only");
+        g.outline = inline_outline(*ov);
+      } else if (drawn != imported.gates.end()) {
+        g.outline = drawn->second;
+      } else {
+        r.fail(item, "gate " + g.name + " has no outline here and is not in the layout file");
+      }
       d.gates.push_back(std::move(g));
     }
+  }
+  for (const auto& [name, outline] : imported.gates) {
+    if (listed.count(name)) continue;
+    if (taken.count(name)) r.fail(m.self, "the layout's gate " + name + " has the name of a " + taken.at(name));
+    taken.emplace(name, "gate");
+    d.gates.push_back({name, 0.0, outline, imported.where});
+    d.notes.push_back("gate " + name + " from the layout has no voltage in the design: taken as 0 V");
   }
 
   // Constrictions.

@@ -1,0 +1,272 @@
+// GDSII import: the reader's flattening against the independent library that wrote the fixtures
+// (Debian's python3-gdspy 1.4.2; tests/data/gds/make_fixtures.py records its own flattening), hand-made
+// records for BOX, PATH and malformed or hostile files, and a layout design that must solve exactly
+// like the same design written inline.
+#include <gtest/gtest.h>
+
+#include <algorithm>
+#include <cmath>
+#include <filesystem>
+#include <fstream>
+#include <nlohmann/json.hpp>
+#include <sstream>
+
+#include "hallway/design_loader.hpp"
+#include "hallway/geometry/gdsii.hpp"
+#include "hallway/network.hpp"
+#include "hallway/transport.hpp"
+#include "test_support.hpp"
+
+namespace hallway {
+namespace {
+
+namespace fs = std::filesystem;
+using geometry::GdsError;
+using geometry::ReadGds;
+
+std::string read(const std::string& path) {
+  std::ifstream in(path, std::ios::binary);
+  std::stringstream ss;
+  ss << in.rdbuf();
+  return ss.str();
+}
+
+TEST(Gds, FlatteningAgreesWithTheLibraryThatWroteTheFile) {
+  // Rotation, reflection, magnification, arrays (plain and rotated), nesting two deep, and a
+  // rectangle on datatype 2; database unit 1 nm, user unit 1 um.
+  const auto flat = ReadGds(read(test::SourcePath("tests/data/gds/transforms.gds")), "TOP");
+  EXPECT_DOUBLE_EQ(flat.database_unit_m, 1e-9);
+  const auto expected = nlohmann::json::parse(read(test::SourcePath("tests/data/gds/transforms.json")));
+  for (const auto& [key, e] : expected["layers"].items()) {
+    const int layer = std::stoi(key.substr(0, key.find('/'))), datatype = std::stoi(key.substr(key.find('/') + 1));
+    const auto it = flat.polygons.find({layer, datatype});
+    ASSERT_NE(it, flat.polygons.end()) << key;
+    EXPECT_EQ(it->second.size(), e["count"].get<std::size_t>()) << key;
+    double area = 0.0;
+    geometry::BoundingBox bb{1e9, 1e9, -1e9, -1e9};
+    for (const auto& p : it->second) {
+      area += geometry::area(p);
+      const auto b = geometry::bounding_box(p);
+      bb = {std::min(bb.xmin, b.xmin), std::min(bb.ymin, b.ymin), std::max(bb.xmax, b.xmax), std::max(bb.ymax, b.ymax)};
+    }
+    // gdspy rounds vertices to the 1 nm grid when it writes; the reader keeps the same integers.
+    EXPECT_TRUE(test::NearRel(area, e["area_m2"].get<double>(), 1e-6)) << key;
+    const auto& eb = e["bbox_m"];
+    EXPECT_NEAR(bb.xmin, eb[0].get<double>(), 2e-9) << key;
+    EXPECT_NEAR(bb.ymin, eb[1].get<double>(), 2e-9) << key;
+    EXPECT_NEAR(bb.xmax, eb[2].get<double>(), 2e-9) << key;
+    EXPECT_NEAR(bb.ymax, eb[3].get<double>(), 2e-9) << key;
+  }
+  // Labels: the same positions (as a set).
+  std::vector<std::pair<double, double>> got, want;
+  for (const auto& l : flat.labels.at({63, 0})) got.push_back({l.at.x, l.at.y});
+  for (const auto& l : expected["labels"]) want.push_back({l["at_m"][0].get<double>(), l["at_m"][1].get<double>()});
+  std::sort(got.begin(), got.end());
+  std::sort(want.begin(), want.end());
+  ASSERT_EQ(got.size(), want.size());
+  for (std::size_t i = 0; i < got.size(); ++i) {
+    EXPECT_NEAR(got[i].first, want[i].first, 2e-9);
+    EXPECT_NEAR(got[i].second, want[i].second, 2e-9);
+  }
+}
+
+// A minimal GDSII writer for hand-made records (the published stream format).
+struct Gds {
+  std::string bytes;
+  void rec(int type, int dtype, const std::string& data = "") {
+    const std::size_t n = data.size() + 4;
+    bytes += static_cast<char>(n >> 8);
+    bytes += static_cast<char>(n & 0xFF);
+    bytes += static_cast<char>(type);
+    bytes += static_cast<char>(dtype);
+    bytes += data;
+  }
+  static std::string i16(int v) { return {static_cast<char>((v >> 8) & 0xFF), static_cast<char>(v & 0xFF)}; }
+  static std::string i32(long v) {
+    std::string s;
+    for (int k = 3; k >= 0; --k) s += static_cast<char>((static_cast<unsigned long>(v) >> (8 * k)) & 0xFF);
+    return s;
+  }
+  static std::string real8(double v) {
+    std::string s(8, '\0');
+    if (v == 0) return s;
+    unsigned char sign = v < 0 ? 0x80 : 0;
+    v = std::abs(v);
+    int e = 0;
+    while (v >= 1) {
+      v /= 16;
+      ++e;
+    }
+    while (v < 1.0 / 16) {
+      v *= 16;
+      --e;
+    }
+    const auto m = static_cast<std::uint64_t>(std::llround(v * 72057594037927936.0));
+    s[0] = static_cast<char>(sign | (e + 64));
+    for (int k = 1; k < 8; ++k) s[static_cast<std::size_t>(k)] = static_cast<char>((m >> (8 * (7 - k))) & 0xFF);
+    return s;
+  }
+  // ASCII data padded with a NUL to an even length.
+  static std::string text(std::string t) {
+    if (t.size() % 2) t += '\0';
+    return t;
+  }
+  static std::string xy(const std::vector<std::pair<long, long>>& pts) {
+    std::string s;
+    for (const auto& [x, y] : pts) s += i32(x) + i32(y);
+    return s;
+  }
+  void begin(const std::string& cell) {
+    if (bytes.empty()) {
+      rec(0x00, 2, i16(600));
+      rec(0x01, 2, std::string(24, '\0'));
+      rec(0x02, 6, text("LIB"));
+      rec(0x03, 5, real8(1e-3) + real8(1e-9));
+    }
+    rec(0x05, 2, std::string(24, '\0'));
+    rec(0x06, 6, text(cell));
+  }
+  void end_cell() { rec(0x07, 0); }
+  void end() { rec(0x04, 0); }
+};
+
+TEST(Gds, BoxAndPathsWithTheirEndTypes) {
+  Gds g;
+  g.begin("TOP");
+  g.rec(0x2D, 0);  // BOX
+  g.rec(0x0D, 2, Gds::i16(2));
+  g.rec(0x2E, 2, Gds::i16(0));
+  g.rec(0x10, 3, Gds::xy({{0, 0}, {1000, 0}, {1000, 500}, {0, 500}, {0, 0}}));
+  g.rec(0x11, 0);
+  for (int type : {0, 2, 4}) {  // PATH, width 100 nm, 2 um long with a corner
+    g.rec(0x09, 0);
+    g.rec(0x0D, 2, Gds::i16(10 + type));
+    g.rec(0x0E, 2, Gds::i16(0));
+    g.rec(0x21, 2, Gds::i16(type));
+    g.rec(0x0F, 3, Gds::i32(100));
+    if (type == 4) {
+      g.rec(0x30, 3, Gds::i32(30));
+      g.rec(0x31, 3, Gds::i32(70));
+    }
+    g.rec(0x10, 3, Gds::xy({{0, 0}, {1000, 0}, {1000, 1000}}));
+    g.rec(0x11, 0);
+  }
+  g.end_cell();
+  g.end();
+  const auto flat = ReadGds(g.bytes, "");
+  EXPECT_TRUE(test::NearRel(geometry::area(flat.polygons.at({2, 0}).at(0)), 1e-6 * 0.5e-6, 1e-12));
+  // A mitred right-angle path of centre length L and width w has area w L (flush), plus w^2/2 per
+  // half-width end extension, plus w (b + e) for explicit extensions.
+  const double w = 100e-9, L = 2000e-9;
+  EXPECT_TRUE(test::NearRel(geometry::area(flat.polygons.at({10, 0}).at(0)), w * L, 1e-9));
+  EXPECT_TRUE(test::NearRel(geometry::area(flat.polygons.at({12, 0}).at(0)), w * (L + w), 1e-9));
+  EXPECT_TRUE(test::NearRel(geometry::area(flat.polygons.at({14, 0}).at(0)), w * (L + 100e-9), 1e-9));
+}
+
+void ExpectGdsError(const std::string& bytes, const std::string& words) {
+  try {
+    ReadGds(bytes, "");
+    ADD_FAILURE() << "no error";
+  } catch (const GdsError& e) {
+    EXPECT_NE(std::string(e.what()).find(words), std::string::npos) << e.what();
+    EXPECT_NE(std::string(e.what()).find("byte "), std::string::npos) << e.what();
+  }
+}
+
+TEST(Gds, MalformedAndHostileFilesAreErrorsWithTheByteOffset) {
+  Gds g;
+  g.begin("TOP");
+  g.rec(0x08, 0);
+  g.rec(0x0D, 2, Gds::i16(1));
+  g.rec(0x0E, 2, Gds::i16(0));
+  g.rec(0x10, 3, Gds::xy({{0, 0}, {10, 0}, {10, 10}, {0, 0}}));
+  g.rec(0x11, 0);
+  g.end_cell();
+  g.end();
+  EXPECT_NO_THROW(ReadGds(g.bytes, ""));
+  ExpectGdsError(g.bytes.substr(0, g.bytes.size() - 3), "truncated");
+  std::string bad = g.bytes;
+  bad[0] = 0;
+  bad[1] = 3;  // a record length below the header size
+  ExpectGdsError(bad, "record length");
+  ExpectGdsError("", "truncated");
+  // A structure that refers to itself through another.
+  Gds c;
+  c.begin("A");
+  c.rec(0x0A, 0);
+  c.rec(0x12, 6, Gds::text("B"));
+  c.rec(0x10, 3, Gds::xy({{0, 0}}));
+  c.rec(0x11, 0);
+  c.end_cell();
+  c.begin("B");
+  c.rec(0x0A, 0);
+  c.rec(0x12, 6, Gds::text("A"));
+  c.rec(0x10, 3, Gds::xy({{0, 0}}));
+  c.rec(0x11, 0);
+  c.end_cell();
+  c.end();
+  try {
+    ReadGds(c.bytes, "A");
+    ADD_FAILURE() << "cycle not detected";
+  } catch (const GdsError& e) {
+    EXPECT_NE(std::string(e.what()).find("refers to itself"), std::string::npos) << e.what();
+  }
+  // A missing structure and an absurd array.
+  Gds m;
+  m.begin("TOP");
+  m.rec(0x0B, 0);
+  m.rec(0x12, 6, Gds::text("NONE"));
+  m.rec(0x13, 2, Gds::i16(30000) + Gds::i16(30000));
+  m.rec(0x10, 3, Gds::xy({{0, 0}, {10, 0}, {0, 10}}));
+  m.rec(0x11, 0);
+  m.end_cell();
+  m.end();
+  ExpectGdsError(m.bytes, "array size");
+}
+
+TEST(Gds, LayoutDesignSolvesLikeTheSameDesignInline) {
+  // hallbar.gds draws designs/01_hallbar_qpc.yaml (gate QS as two touching shapes, merged on import).
+  const Design a = LoadDesign(test::SourcePath("tests/data/gds/hallbar_layout.yaml"));
+  const Design b = LoadDesign(test::SourcePath("designs/01_hallbar_qpc.yaml"));
+  ASSERT_EQ(a.contacts.size(), b.contacts.size());
+  ASSERT_EQ(a.gates.size(), 2u);
+  EXPECT_TRUE(test::NearRel(geometry::area(a.gates[0].outline), geometry::area(b.gates[0].outline), 1e-9));
+  for (double sign : {1.0, -1.0}) {
+    const auto ta = SolveTransport(a, TraceEdges(a, BuildChannelGeometry(a), sign * a.conditions.field_T));
+    const auto tb = SolveTransport(b, TraceEdges(b, BuildChannelGeometry(b), sign * b.conditions.field_T));
+    for (std::size_t i = 0; i < a.contacts.size(); ++i)
+      for (std::size_t j = 0; j < a.contacts.size(); ++j)
+        EXPECT_NEAR(ta.conductance_S[i][j], tb.conductance_S[i][j], 1e-15);
+  }
+}
+
+TEST(Gds, LayoutErrorsNameWhatIsWrong) {
+  const std::string base = read(test::SourcePath("tests/data/gds/hallbar_layout.yaml"));
+  const std::string dir = test::SourcePath("tests/data/gds");
+  // An object given both inline and in the layout.
+  try {
+    LoadDesignFromString(test::replace(base, "- {name: W}", "- {name: W, outline: [[0,0],[1,0],[1,1]]}"),
+                         dir + "/x.yaml");
+    ADD_FAILURE() << "no error";
+  } catch (const DesignError& e) {
+    EXPECT_NE(std::string(e.what()).find("give it in one place only"), std::string::npos) << e.what();
+  }
+  // Gates on a layer that has no labels of its own and no labels layer.
+  try {
+    LoadDesignFromString(test::replace(base, ", labels: 63/0}", "}"), dir + "/x.yaml");
+    ADD_FAILURE() << "no error";
+  } catch (const DesignError& e) {
+    EXPECT_NE(std::string(e.what()).find("has no label"), std::string::npos) << e.what();
+  }
+  // A missing layout file.
+  try {
+    LoadDesignFromString(test::replace(base, "file: hallbar.gds", "file: nowhere.gds"), dir + "/x.yaml");
+    ADD_FAILURE() << "no error";
+  } catch (const DesignError& e) {
+    EXPECT_NE(std::string(e.what()).find("cannot open the layout file"), std::string::npos) << e.what();
+    EXPECT_EQ(e.where().key_path, "layout.file");
+  }
+}
+
+}  // namespace
+}  // namespace hallway
