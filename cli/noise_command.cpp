@@ -264,6 +264,9 @@ int RunNoise(const NoiseArgs& args) {
   }
   const TransportResult tr = SolveTransport(d, net);
   const NoiseResult n = SolveNoise(d, net, tr, opt);
+  if (!RequireFinite(tr.conductance_S, "the conductance matrix") ||
+      !RequireFinite(n.total_A2_per_Hz, "the noise matrix"))
+    return kExitInternal;
   for (const Finding& f : n.findings)
     if (f.severity == Severity::kError) {
       std::cerr << "hallway: error: " << f.message << "\n";

@@ -4,6 +4,7 @@
 #include <unistd.h>
 
 #include <cerrno>
+#include <cmath>
 #include <cstdio>
 #include <cstring>
 #include <filesystem>
@@ -69,6 +70,17 @@ bool BuildGeometry(const Design& design, bool fast, ChannelGeometry* geometry, s
     *exit_code = kExitDesignError;
     return false;
   }
+}
+
+bool RequireFinite(const std::vector<std::vector<double>>& values, const std::string& stage) {
+  for (const auto& row : values)
+    for (double x : row)
+      if (!std::isfinite(x)) {
+        std::cerr << "hallway: internal error: a value that is not finite appeared in " << stage
+                  << "; nothing was written\n";
+        return false;
+      }
+  return true;
 }
 
 int ReportErrors(const std::vector<Finding>& findings) {

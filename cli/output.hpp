@@ -36,6 +36,9 @@ int ReportErrors(const std::vector<Finding>& findings);
 bool BuildGeometry(const Design& design, bool fast, ChannelGeometry* geometry, std::string* note, int* exit_code,
                    DensityMap* map_out = nullptr);
 
+// NaN or infinity in a result is never printed: returns false after naming the stage on stderr.
+bool RequireFinite(const std::vector<std::vector<double>>& values, const std::string& stage);
+
 // The caution printed at the end of every report.
 extern const char* const kSafetyCaution;
 

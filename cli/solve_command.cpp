@@ -204,6 +204,9 @@ int RunSolve(const SolveArgs& args) {
       if (f.severity == Severity::kError) errors.push_back(f);
     if (!errors.empty()) break;
     TransportResult t = SolveTransport(d, net);
+    if (!RequireFinite(t.conductance_S, "the conductance matrix") ||
+        !RequireFinite({t.current_A}, "the contact currents"))
+      return kExitInternal;
     for (const Finding& f : t.findings)
       if (f.severity == Severity::kError) errors.push_back(f);
     solved.push_back({std::move(net), std::move(t)});

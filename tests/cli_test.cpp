@@ -324,6 +324,42 @@ TEST(Sweep, BadKeysRangesAndUnitsFailBeforeAnyWork) {
   EXPECT_FALSE(fs::exists(out));
 }
 
+TEST(BadInput, EveryCaseOfTheCorpusFailsWithItsMessage) {
+  // tests/data/bad/expected.tsv: file, exit code, words the message must contain.
+  std::stringstream manifest(read(test::SourcePath("tests/data/bad/expected.tsv")));
+  std::string line;
+  int cases = 0;
+  while (std::getline(manifest, line)) {
+    if (line.empty() || line[0] == '#') continue;
+    std::stringstream fields(line);
+    std::string file, code, words;
+    std::getline(fields, file, '\t');
+    std::getline(fields, code, '\t');
+    std::getline(fields, words);
+    const std::string path = test::SourcePath("tests/data/bad/" + file);
+    const fs::path out = scratch("bad_" + file + ".json");
+    fs::remove(out);
+    const CommandRun r = hallway("check '" + path + "' --json '" + out.string() + "'");
+    EXPECT_EQ(r.exit_code, std::stoi(code)) << file << "\n" << r.output;
+    EXPECT_NE(r.output.find(words), std::string::npos) << file << ": '" << words << "' missing from\n" << r.output;
+    EXPECT_NE(r.output.find(path), std::string::npos) << file << ": the message must name the file";
+    ++cases;
+  }
+  EXPECT_GE(cases, 40);
+}
+
+TEST(BadInput, EnormousFileIsRefusedBeforeParsing) {
+  const fs::path big = scratch("enormous.yaml");
+  {
+    std::ofstream o(big);
+    const std::string comment = "# " + std::string(1000, 'x') + "\n";
+    for (int i = 0; i < 9000; ++i) o << comment;
+  }
+  const CommandRun r = hallway("check '" + big.string() + "'");
+  EXPECT_EQ(r.exit_code, 1);
+  EXPECT_NE(r.output.find("larger than 8 MiB"), std::string::npos) << r.output;
+}
+
 TEST(Cli, MissingDesignFileIsADesignError) {
   const CommandRun r = hallway("check /nonexistent/design.yaml");
   EXPECT_EQ(r.exit_code, 1);
