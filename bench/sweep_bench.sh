@@ -15,7 +15,7 @@ run() {
   t0=$(date +%s.%N)
   "$@" > "$out/log.txt"
   t1=$(date +%s.%N)
-  printf '%-22s %8.2f s   %s\n' "$label" "$(echo "$t1 - $t0" | bc)" "$(grep -o '[0-9]* electrostatic operator applications' "$out/log.txt")"
+  printf '%-22s %8.2f s   %s\n' "$label" "$(echo "$t1 - $t0" | bc)" "$(grep -o "[0-9]* electrostatic operator applications.*" "$out/log.txt")"
 }
 run "serial, warm starts" "$exe" sweep "$design" --vary "$vary" --output "$out/serial.csv" --threads 1 --quiet
 run "2 threads" "$exe" sweep "$design" --vary "$vary" --output "$out/threads.csv" --threads 2 --quiet

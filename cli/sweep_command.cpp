@@ -2,7 +2,8 @@
 // and, under mpirun, across MPI ranks; one CSV row per point, written as points finish.
 //
 // Determinism: the points are cut into consecutive chunks of kChunk; within a chunk each electrostatic
-// solve starts from the previous point's solution, the first from scratch, and FFTW runs on one thread
+// solve starts from the previous points' solutions (extrapolated linearly from the last two when the
+// points are equally spaced), the first from scratch, and FFTW runs on one thread
 // per solve. A chunk therefore gives the same numbers whichever thread or rank computes it, so serial,
 // threaded and MPI runs write the same rows; the file is rewritten sorted by point when the sweep ends. --resume
 // keeps the chunks whose every point is already in the file and recomputes the others.
@@ -112,9 +113,33 @@ std::string quantities_header(const Design& d, const std::set<std::string>& q) {
   return h;
 }
 
-// Solves one point; *state carries the electrostatic solution from the previous point of the chunk.
+// The electrostatic solutions of the last two points of a chunk and where they were taken.
+struct WarmChain {
+  std::optional<DensityMap> last, before;
+  std::vector<double> last_at, before_at;
+  void reset() { *this = {}; }
+};
+
+struct SolveCounts {
+  std::atomic<long> applications{0}, cold_applications{0}, cold_solves{0}, warm_solves{0};
+};
+
+// True when x - last equals last - before on every axis (to rounding) and the step is not zero.
+bool equal_step(const std::vector<double>& x, const std::vector<double>& last, const std::vector<double>& before) {
+  bool moved = false;
+  for (std::size_t a = 0; a < x.size(); ++a) {
+    const double scale = std::max({std::abs(x[a]), std::abs(last[a]), std::abs(before[a]), 1e-300});
+    if (std::abs((x[a] - last[a]) - (last[a] - before[a])) > 1e-9 * scale) return false;
+    moved = moved || x[a] != last[a];
+  }
+  return moved;
+}
+
+// Solves one point at parameters `at`; *chain carries the electrostatic solutions of the previous
+// points of the chunk. The solve starts from the linear extrapolation of the last two when the points
+// are equally spaced, else from the last one, else from scratch.
 std::string solve_point(const std::string& text, const std::string& path, const std::set<std::string>& q, bool fast,
-                        std::optional<DensityMap>* state, std::atomic<long>* applications) {
+                        const std::vector<double>& at, WarmChain* chain, SolveCounts* counts) {
   const Design d = LoadDesignFromString(text, path);
   const CheckResult check = CheckDesign(d);
   if (!check.ok())
@@ -127,15 +152,29 @@ std::string solve_point(const std::string& text, const std::string& path, const 
     const ElectrostaticProblem problem(d, eo);
     std::vector<double> volts;
     for (const Gate& g : d.gates) volts.push_back(g.voltage_V);
-    const DensityMap* start =
-        (*state && (*state)->nx == problem.nx() && (*state)->ny == problem.ny()) ? &**state : nullptr;
+    auto fits = [&](const std::optional<DensityMap>& s) {
+      return s && s->nx == problem.nx() && s->ny == problem.ny();
+    };
+    std::optional<DensityMap> predicted;
+    if (fits(chain->last) && fits(chain->before) && equal_step(at, chain->last_at, chain->before_at))
+      predicted = ExtrapolatedStart(*chain->before, *chain->last);
+    const DensityMap* start = predicted ? &*predicted : fits(chain->last) ? &*chain->last : nullptr;
     map = problem.Solve(volts, start);
-    *applications += map->stats.operator_applications;
+    counts->applications += map->stats.operator_applications;
+    if (start) {
+      ++counts->warm_solves;
+    } else {
+      ++counts->cold_solves;
+      counts->cold_applications += map->stats.operator_applications;
+    }
     if (!map->stats.converged) throw std::runtime_error("an electrostatic solve did not converge");
     NetworkOptions no;
     no.density = &*map;
     geometry = BuildChannelGeometry(d, no);
-    *state = map;
+    chain->before = std::move(chain->last);
+    chain->before_at = chain->last_at;
+    chain->last = map;
+    chain->last_at = at;
   } else {
     geometry = BuildChannelGeometry(d);
   }
@@ -342,7 +381,7 @@ int RunSweep(const SweepArgs& args, int argc, char** argv) {
   const int hw = std::max(1, static_cast<int>(std::thread::hardware_concurrency()) / size);
   const int threads = std::max(1, std::min(args.threads > 0 ? args.threads : hw, static_cast<int>(mine.size())));
   std::atomic<int> next{0}, done_points{0};
-  std::atomic<long> applications{0};
+  SolveCounts counts;
   std::mutex mpi_mutex, error_mutex;
   std::string error;
   const Progress progress("sweep", static_cast<int>(points.size()), args.quiet || rank != 0);
@@ -351,14 +390,18 @@ int RunSweep(const SweepArgs& args, int argc, char** argv) {
       const int i = next++;
       if (i >= static_cast<int>(mine.size())) return;
       const int c = mine[static_cast<std::size_t>(i)];
-      std::optional<DensityMap> state;
+      WarmChain chain;
       for (std::size_t p = static_cast<std::size_t>(c) * kChunk;
            p < std::min(points.size(), static_cast<std::size_t>(c + 1) * kChunk); ++p) {
         std::string row = std::to_string(p);
-        for (std::size_t a = 0; a < axes.size(); ++a) row += fmt::format(",{:.10g}", axes[a].si[points[p].index[a]]);
+        std::vector<double> at;
+        for (std::size_t a = 0; a < axes.size(); ++a) {
+          at.push_back(axes[a].si[points[p].index[a]]);
+          row += fmt::format(",{:.10g}", at.back());
+        }
         try {
-          if (args.cold) state.reset();
-          row += solve_point(text_of(points[p]), args.design_path, q, args.fast, &state, &applications) + "\n";
+          if (args.cold) chain.reset();
+          row += solve_point(text_of(points[p]), args.design_path, q, args.fast, at, &chain, &counts) + "\n";
         } catch (const std::exception& e) {
           std::lock_guard<std::mutex> lock(error_mutex);
           if (error.empty()) error = "point " + std::to_string(p) + ": " + e.what();
@@ -423,7 +466,12 @@ int RunSweep(const SweepArgs& args, int argc, char** argv) {
     return kExitOutputError;
   }
   std::cout << "hallway sweep: " << points.size() << " points (" << kept_points << " kept from before) written to "
-            << args.output << "; " << applications.load() << " electrostatic operator applications on rank 0\n";
+            << args.output << "; " << counts.applications.load() << " electrostatic operator applications on rank 0";
+  const long warm = counts.warm_solves.load(), cold = counts.cold_solves.load();
+  if (warm + cold > 0)
+    std::cout << fmt::format(" ({} in {} solves from scratch, {} in {} warm-started solves)", counts.cold_applications.load(),
+                             cold, counts.applications.load() - counts.cold_applications.load(), warm);
+  std::cout << "\n";
   return kExitOk;
 }
 

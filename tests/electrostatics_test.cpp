@@ -10,6 +10,7 @@
 #include <cmath>
 #include <cstdio>
 #include <fstream>
+#include <memory>
 #include <numbers>
 #include <sstream>
 
@@ -208,12 +209,18 @@ TEST(Electrostatics, LinearScreeningMatchesThomasFermiDielectricFunction) {
   EXPECT_TRUE(NearRel(dn_numeric, dn_fourier, 0.05));
 }
 
-TEST(Electrostatics, MirrorSymmetricLayoutGivesMirrorSymmetricDensity) {
-  Design d = LoadDesignFromString(read("tests/data/electrostatics/split_gate.yaml"), "split.yaml");
+// The split-gate test layout on 40 nm cells (n_s = 2.5e15 m^-2).
+std::unique_ptr<ElectrostaticProblem> split_gate_problem() {
+  const Design d = LoadDesignFromString(read("tests/data/electrostatics/split_gate.yaml"), "split.yaml");
   ElectrostaticsOptions o;
   o.grid_m = 40e-9;
-  const ElectrostaticProblem p(d, o);
-  const DensityMap m = p.Solve({-0.6, -0.6});
+  o.threads = 1;
+  return std::make_unique<ElectrostaticProblem>(d, o);
+}
+
+TEST(Electrostatics, MirrorSymmetricLayoutGivesMirrorSymmetricDensity) {
+  const auto problem = split_gate_problem();
+  const DensityMap m = problem->Solve({-0.6, -0.6});
   ASSERT_TRUE(m.stats.converged);
   double worst = 0.0;
   for (double x : {0.0, 120e-9, 400e-9, 900e-9})
@@ -243,6 +250,53 @@ TEST(Electrostatics, PinchOffVoltageConvergesWithTheGrid) {
   EXPECT_LT(std::abs(v[2] - v[1]), std::abs(v[1] - v[0]) + 2e-4);
   EXPECT_LT(std::abs(v[2] - v[1]), 0.02);
   EXPECT_LT(v[2], BareSplitGatePinchOff_V(-0.324545, 300e-9, 90e-9));
+}
+
+// A converged density handed back as the start must pass the optimality test with the one fresh
+// operator application that Solve() makes first: this checks the H x carried along by the conjugate
+// gradients against H applied anew.
+TEST(Electrostatics, ConvergedDensityAsStartNeedsNoFurtherStep) {
+  const auto problem = split_gate_problem();
+  const ElectrostaticProblem& p = *problem;
+  const DensityMap m = p.Solve({-0.6, -0.6});
+  ASSERT_TRUE(m.stats.converged);
+  ASSERT_GT(m.stats.active_set_steps, 0);
+  const DensityMap again = p.Solve({-0.6, -0.6}, &m);
+  EXPECT_TRUE(again.stats.converged);
+  EXPECT_EQ(again.stats.active_set_steps, 0);
+  EXPECT_EQ(again.stats.operator_applications, 1);
+  EXPECT_LT(again.stats.residual, ElectrostaticsOptions{}.tolerance);
+}
+
+// Along a sweep in equal voltage steps the extrapolated start must reach the same density as a solve
+// from scratch, with fewer operator applications than a start from the last point alone, which in
+// turn needs fewer than a solve from scratch.
+TEST(Electrostatics, ExtrapolatedStartReachesTheSameDensityWithFewerApplications) {
+  const auto problem = split_gate_problem();
+  const ElectrostaticProblem& p = *problem;
+  int cold = 0, last = 0, extrapolated = 0;
+  for (double v0 : {-0.40, -0.55, -0.70}) {
+    const double step = -0.01;
+    const DensityMap a = p.Solve({v0, v0});
+    const DensityMap b = p.Solve({v0 + step, v0 + step}, &a);
+    const DensityMap from_scratch = p.Solve({v0 + 2 * step, v0 + 2 * step});
+    const DensityMap from_last = p.Solve({v0 + 2 * step, v0 + 2 * step}, &b);
+    const DensityMap start = ExtrapolatedStart(a, b);
+    const DensityMap from_line = p.Solve({v0 + 2 * step, v0 + 2 * step}, &start);
+    ASSERT_TRUE(from_scratch.stats.converged && from_last.stats.converged && from_line.stats.converged);
+    double worst = 0.0;
+    for (std::size_t c = 0; c < from_scratch.density_per_m2.size(); ++c)
+      worst = std::max(worst, std::abs(from_line.density_per_m2[c] - from_scratch.density_per_m2[c]));
+    EXPECT_LT(worst, 1e-5 * 2.5e15) << "at " << v0;  // ten times the tolerance (1e-6 of n_s)
+    cold += from_scratch.stats.operator_applications;
+    last += from_last.stats.operator_applications;
+    extrapolated += from_line.stats.operator_applications;
+  }
+  std::printf("operator applications over three sweeps: from scratch %d, from the last point %d, extrapolated %d\n",
+              cold, last, extrapolated);
+  EXPECT_LT(extrapolated, last);
+  EXPECT_LT(last, cold);
+  EXPECT_THROW(ExtrapolatedStart(DensityMap{}, p.Solve({-0.4, -0.4})), std::invalid_argument);
 }
 
 TEST(Electrostatics, MemoryGuardRefusesAHugeGrid) {
