@@ -24,6 +24,7 @@ struct SolveArgs {
   bool reversed_only = false;
   bool fast = false;          // bare-potential boundaries instead of the self-consistent density
   std::string four_terminal;  // "I+,I-,V+,V-" contact names, empty: none
+  std::string max_memory;     // --max-memory, e.g. "8GiB"; empty: 4 GiB
 };
 
 // Traces the edge network and solves the wiring plan for the design field and the reversed field.
@@ -45,6 +46,7 @@ struct NoiseArgs {
   double phase_rad = 0.0;
   double target_sigmas = 10.0;
   bool quiet = false;
+  std::string max_memory;  // --max-memory, e.g. "8GiB"; empty: 4 GiB
 };
 
 int RunNoise(const NoiseArgs& args);
@@ -59,6 +61,7 @@ struct MapArgs {
   std::string csv_path;
   std::string grid;  // "10nm"; empty: automatic
   bool quiet = false;
+  std::string max_memory;  // --max-memory, e.g. "8GiB"; empty: 4 GiB
 };
 
 int RunMap(const MapArgs& args);
@@ -74,6 +77,7 @@ struct PathsArgs {
   std::string target;             // transmission to reach, instead of the design's ("0.5")
   std::string gate_limit;         // "-2 V"
   std::string relaxation_length;  // "1 um"
+  std::string max_memory;         // --max-memory, e.g. "8GiB"; empty: 4 GiB
 };
 
 int RunPaths(const PathsArgs& args);
@@ -87,6 +91,7 @@ struct ReportArgs {
   std::string out_dir;
   bool fast = false;
   bool quiet = false;
+  std::string max_memory;  // --max-memory, e.g. "8GiB"; empty: 4 GiB
 };
 
 int RunReport(const ReportArgs& args);
@@ -105,7 +110,8 @@ struct SweepArgs {
   bool resume = false;
   bool fast = false;
   bool quiet = false;
-  bool cold = false;  // no warm starts (for benchmarks)
+  bool cold = false;       // no warm starts (for benchmarks)
+  std::string max_memory;  // --max-memory, e.g. "8GiB"; empty: 4 GiB
 };
 
 // Runs a parameter sweep; under mpirun the points are shared among the ranks.

@@ -24,6 +24,7 @@ int main(int argc, char** argv) {
   SolveArgs solve;
   auto* s = app.add_subcommand("solve", "Trace the edge channels and solve the wiring plan for +B and -B");
   s->add_option("design", solve.design_path, "Design file (YAML)")->required();
+  s->add_option("--max-memory", solve.max_memory, "Largest electrostatic grid to allocate, e.g. 8GiB (default 4GiB)");
   s->add_option("--json", solve.json_path, "Also write the results as JSON to this file");
   s->add_flag("--field-reversed", solve.reversed_only, "Solve only the reversed field -B");
   s->add_flag("--fast", solve.fast, "Bare-potential channel boundaries instead of the self-consistent density");
@@ -33,6 +34,7 @@ int main(int argc, char** argv) {
   NoiseArgs noise;
   auto* n = app.add_subcommand("noise", "Current noise at every contact, amplifier signal-to-noise and colliders");
   n->add_option("design", noise.design_path, "Design file (YAML)")->required();
+  n->add_option("--max-memory", noise.max_memory, "Largest electrostatic grid to allocate, e.g. 8GiB (default 4GiB)");
   n->add_option("--json", noise.json_path, "Also write the results as JSON to this file");
   n->add_option("--sweep", noise.sweep, "Sweep source bias: CONTACTS=FROM:TO:N, e.g. SA,SB=0:50uV:11");
   n->add_option("--ratio", noise.ratio, "Bias factors of the swept contacts, e.g. 1,0.5 (imbalance)");
@@ -47,6 +49,7 @@ int main(int argc, char** argv) {
   MapArgs map;
   auto* mp = app.add_subcommand("map", "Self-consistent depletion, pinch-off voltages and edge positions");
   mp->add_option("design", map.design_path, "Design file (YAML)")->required();
+  mp->add_option("--max-memory", map.max_memory, "Largest electrostatic grid to allocate, e.g. 8GiB (default 4GiB)");
   mp->add_option("--grid", map.grid, "Cell size of the whole-mesa grid, e.g. 10nm (default: automatic)");
   mp->add_option("--json", map.json_path, "Also write the results as JSON to this file");
   mp->add_option("--csv", map.csv_path, "Write the density and filling grid as CSV to this file");
@@ -55,6 +58,7 @@ int main(int argc, char** argv) {
   PathsArgs paths;
   auto* pa = app.add_subcommand("paths", "Edge lengths, velocities, thermal lengths, loops and constriction models");
   pa->add_option("design", paths.design_path, "Design file (YAML)")->required();
+  pa->add_option("--max-memory", paths.max_memory, "Largest electrostatic grid to allocate, e.g. 8GiB (default 4GiB)");
   pa->add_option("--json", paths.json_path, "Also write the results as JSON to this file");
   pa->add_flag("--fast", paths.fast, "Bare-potential channel boundaries and a fixed drift velocity");
   pa->add_option("--target", paths.target,
@@ -66,6 +70,7 @@ int main(int argc, char** argv) {
   ReportArgs report;
   auto* rp = app.add_subcommand("report", "Figures, tables, result.json and a self-contained HTML report");
   rp->add_option("design", report.design_path, "Design file (YAML)")->required();
+  rp->add_option("--max-memory", report.max_memory, "Largest electrostatic grid to allocate, e.g. 8GiB (default 4GiB)");
   rp->add_option("-o,--output", report.out_dir, "Folder for report.html and the figures")->required();
   rp->add_flag("--fast", report.fast, "Bare-potential channel boundaries, no electrostatic solve");
   rp->add_flag("--quiet", report.quiet, "No progress line on standard error");
@@ -73,6 +78,7 @@ int main(int argc, char** argv) {
   SweepArgs sweep;
   auto* sw = app.add_subcommand("sweep", "Sweep design values (threads; MPI under mpirun) into a CSV file");
   sw->add_option("design", sweep.design_path, "Design file (YAML)")->required();
+  sw->add_option("--max-memory", sweep.max_memory, "Largest electrostatic grid to allocate, e.g. 8GiB (default 4GiB)");
   sw->add_option("--vary", sweep.vary, "KEY=FROM:TO:N with units, e.g. gates.QL.voltage=-0.6V:-0.9V:31 (repeatable)")
       ->required();
   sw->add_flag("--zip", sweep.zip, "Vary the keys in lock-step instead of over a grid");
@@ -105,6 +111,9 @@ int main(int argc, char** argv) {
       noise.phase_given = phase->count() > 0;
       return RunNoise(noise);
     }
+  } catch (const hallway::GridTooLarge& e) {
+    // A grid of a later stage (constriction windows of paths, report, solve --json).
+    return ReportGridTooLarge(e, false);
   } catch (const std::exception& e) {
     std::cerr << "hallway: internal error: " << e.what() << "\n";
     return kExitInternal;

@@ -25,9 +25,12 @@ std::string volts(const std::optional<double>& v, const char* none) {
 }  // namespace
 
 int RunMap(const MapArgs& args) {
+  std::size_t max_memory = 0;
+  if (int code = 0; !ParseMaxMemory(args.max_memory, &max_memory, &code)) return code;
   Design d;
   if (int code = 0; !LoadOrReport(args.design_path, &d, &code)) return code;
   MapOptions opt;
+  opt.electrostatics.max_memory_bytes = max_memory;
   if (!args.grid.empty()) {
     try {
       opt.electrostatics.grid_m = units::Parse(args.grid, units::Kind::kLength);
@@ -53,14 +56,15 @@ int RunMap(const MapArgs& args) {
   };
   try {
     m = ComputeMap(d, opt);
-  } catch (const std::length_error& e) {
-    std::cerr << "hallway: design error: " << e.what() << "\n";
-    return kExitDesignError;
+  } catch (const GridTooLarge& e) {
+    progress.reset();
+    return ReportGridTooLarge(e, true);
   }
   progress.reset();
   if (ReportErrors(m.findings) > 0) {
-    std::cerr << "hallway: the electrostatic solve did not converge; no map is reported\n";
-    return kExitDesignError;
+    std::cerr << "hallway: resource limit: the electrostatic solve did not converge within its iteration bound; no "
+                 "map is reported\n";
+    return kExitResourceLimit;
   }
   std::string out = fmt::format("hallway map  {}\n", d.path);
   if (!d.name.empty()) out += fmt::format("  design: {}\n", d.name);
@@ -96,6 +100,38 @@ int RunMap(const MapArgs& args) {
       "\nPinch-off and depletion voltages are estimates; approach them slowly. A gate driven past its leakage or\n"
       "breakdown onset can destroy the sample.\n";
   out += kSafetyCaution;
+  // The result document, checked for non-finite numbers (with the density grid) before anything is shown.
+  json doc;
+  doc["hallway_map"] = 1;
+  doc["design"] = d.path;
+  json gates = json::array();
+  for (const GateMap& g : m.gates) {
+    json x = {{"name", g.name}, {"wide_depletion_V", g.wide_depletion_V}};
+    x["depletion_V"] = g.depletion_V ? json(*g.depletion_V) : json(nullptr);
+    x["lateral_depletion_m"] = g.lateral_depletion_m ? json(*g.lateral_depletion_m) : json(nullptr);
+    x["drift_velocity_m_per_s"] = g.drift_velocity_m_per_s ? json(*g.drift_velocity_m_per_s) : json(nullptr);
+    gates.push_back(x);
+  }
+  doc["gates"] = gates;
+  json ks = json::array();
+  for (const ConstrictionMap& c : m.constrictions) {
+    json x = {{"name", c.name}, {"gap_m", c.gap_m}, {"saddle_density_m2", c.saddle_density_per_m2}};
+    x["pinch_off_V"] = c.pinch_off_V ? json(*c.pinch_off_V) : json(nullptr);
+    x["bare_pinch_off_V"] = c.bare_pinch_off_V ? json(*c.bare_pinch_off_V) : json(nullptr);
+    ks.push_back(x);
+  }
+  doc["constrictions"] = ks;
+  doc["solver"] = {{"grid", {m.map.nx, m.map.ny}},
+                   {"cell_m", m.map.cell_m},
+                   {"operator_applications", s.operator_applications},
+                   {"residual", s.residual},
+                   {"converged", s.converged},
+                   {"solves", m.solves},
+                   {"total_operator_applications", m.operator_applications},
+                   {"seconds", m.seconds}};
+  if (!RequireFiniteJson(doc, "the map results") ||
+      !RequireFinite({m.map.density_per_m2, m.map.energy_over_fermi}, "the density grid"))
+    return kExitInternal;
   std::cout << out;
   try {
     if (!args.csv_path.empty()) {
@@ -110,35 +146,7 @@ int RunMap(const MapArgs& args) {
       WriteFileAtomically(args.csv_path, csv, {args.design_path});
     }
     if (!args.json_path.empty()) {
-      json j;
-      j["hallway_map"] = 1;
-      j["design"] = d.path;
-      json gates = json::array();
-      for (const GateMap& g : m.gates) {
-        json x = {{"name", g.name}, {"wide_depletion_V", g.wide_depletion_V}};
-        x["depletion_V"] = g.depletion_V ? json(*g.depletion_V) : json(nullptr);
-        x["lateral_depletion_m"] = g.lateral_depletion_m ? json(*g.lateral_depletion_m) : json(nullptr);
-        x["drift_velocity_m_per_s"] = g.drift_velocity_m_per_s ? json(*g.drift_velocity_m_per_s) : json(nullptr);
-        gates.push_back(x);
-      }
-      j["gates"] = gates;
-      json ks = json::array();
-      for (const ConstrictionMap& c : m.constrictions) {
-        json x = {{"name", c.name}, {"gap_m", c.gap_m}, {"saddle_density_m2", c.saddle_density_per_m2}};
-        x["pinch_off_V"] = c.pinch_off_V ? json(*c.pinch_off_V) : json(nullptr);
-        x["bare_pinch_off_V"] = c.bare_pinch_off_V ? json(*c.bare_pinch_off_V) : json(nullptr);
-        ks.push_back(x);
-      }
-      j["constrictions"] = ks;
-      j["solver"] = {{"grid", {m.map.nx, m.map.ny}},
-                     {"cell_m", m.map.cell_m},
-                     {"operator_applications", s.operator_applications},
-                     {"residual", s.residual},
-                     {"converged", s.converged},
-                     {"solves", m.solves},
-                     {"total_operator_applications", m.operator_applications},
-                     {"seconds", m.seconds}};
-      WriteFileAtomically(args.json_path, j.dump(2) + "\n", {args.design_path});
+      WriteFileAtomically(args.json_path, doc.dump(2) + "\n", {args.design_path});
     }
   } catch (const OutputError& e) {
     std::cerr << "hallway: output error: " << e.what() << "\n";

@@ -222,6 +222,8 @@ json noise_json(const Design& d, const NoiseResult& n) {
 }  // namespace
 
 int RunNoise(const NoiseArgs& args) {
+  std::size_t max_memory = 0;
+  if (int code = 0; !ParseMaxMemory(args.max_memory, &max_memory, &code)) return code;
   Design d;
   if (int code = 0; !LoadOrReport(args.design_path, &d, &code)) return code;
   Sweep sweep;
@@ -249,7 +251,7 @@ int RunNoise(const NoiseArgs& args) {
   if (args.phase_given) opt.loop_phase_rad = args.phase_rad;
   ChannelGeometry geometry;
   std::string es_note;
-  if (int code = 0; !BuildGeometry(d, args.fast, &geometry, &es_note, &code)) return code;
+  if (int code = 0; !BuildGeometry(d, args.fast, &geometry, &es_note, &code, nullptr, max_memory)) return code;
   const double field = args.reversed_only ? -d.conditions.field_T : d.conditions.field_T;
   const EdgeNetwork net = TraceEdges(d, geometry, field);
   std::vector<Finding> errors;
@@ -339,24 +341,23 @@ int RunNoise(const NoiseArgs& args) {
     out += args.csv_path.empty() ? csv : "  written to " + args.csv_path + "\n";
   }
   out += kSafetyCaution;
+  json j = noise_json(d, n);
+  j["hallway_noise"] = 1;
+  j["design"] = d.path;
+  json contacts = json::array();
+  for (const Contact& c : d.contacts) contacts.push_back(c.name);
+  j["contacts"] = contacts;
+  j["filling"] = d.conditions.filling.ToString();
+  j["temperature_K"] = d.conditions.temperature_K;
+  json w = json::array();
+  for (const auto& s : warnings) w.push_back(s);
+  j["warnings"] = w;
+  if (!RequireFiniteJson(j, "the noise results")) return kExitInternal;
   std::cout << out;
 
   try {
     if (!args.csv_path.empty()) WriteFileAtomically(args.csv_path, csv, {args.design_path});
-    if (!args.json_path.empty()) {
-      json j = noise_json(d, n);
-      j["hallway_noise"] = 1;
-      j["design"] = d.path;
-      json contacts = json::array();
-      for (const Contact& c : d.contacts) contacts.push_back(c.name);
-      j["contacts"] = contacts;
-      j["filling"] = d.conditions.filling.ToString();
-      j["temperature_K"] = d.conditions.temperature_K;
-      json w = json::array();
-      for (const auto& s : warnings) w.push_back(s);
-      j["warnings"] = w;
-      WriteFileAtomically(args.json_path, j.dump(2) + "\n", {args.design_path});
-    }
+    if (!args.json_path.empty()) WriteFileAtomically(args.json_path, j.dump(2) + "\n", {args.design_path});
   } catch (const OutputError& e) {
     std::cerr << "hallway: output error: " << e.what() << "\n";
     return kExitOutputError;

@@ -5,6 +5,8 @@
 #include <string>
 #include <vector>
 
+#include <nlohmann/json.hpp>
+
 #include "hallway/check.hpp"
 #include "hallway/design.hpp"
 #include "hallway/electrostatics.hpp"
@@ -19,6 +21,7 @@ enum ExitCode : int {
   kExitUsage = 2,
   kExitOutputError = 3,
   kExitInternal = 4,
+  kExitResourceLimit = 5,
 };
 
 class OutputError : public std::runtime_error {
@@ -34,10 +37,21 @@ int ReportErrors(const std::vector<Finding>& findings);
 // case the bare-potential estimate. Appends a line about the electrostatic solve to *note. Returns
 // false (with *exit_code) when the electrostatic solve fails or does not converge.
 bool BuildGeometry(const Design& design, bool fast, ChannelGeometry* geometry, std::string* note, int* exit_code,
-                   DensityMap* map_out = nullptr);
+                   DensityMap* map_out = nullptr, std::size_t max_memory_bytes = kDefaultMaxMemoryBytes);
+
+// The --max-memory option: "4GiB", "512 MiB", "2 GB" (B, kB, MB, GB, TB, KiB, MiB, GiB, TiB); empty
+// gives the default. On a bad value prints a usage error and returns false with *exit_code set;
+// warns (without changing the value) when it exceeds this machine's physical memory.
+bool ParseMaxMemory(const std::string& text, std::size_t* bytes, int* exit_code);
+// Prints why an electrostatic grid was refused and the ways out; returns kExitResourceLimit.
+// `grid_option`: the command has --grid (map), so a coarser cell size can be suggested.
+int ReportGridTooLarge(const GridTooLarge& e, bool grid_option);
 
 // NaN or infinity in a result is never printed: returns false after naming the stage on stderr.
 bool RequireFinite(const std::vector<std::vector<double>>& values, const std::string& stage);
+// The same for every number of a result document (nlohmann::json keeps NaN and infinity as numbers
+// and would write them as null); names the first offending entry by its JSON pointer.
+bool RequireFiniteJson(const nlohmann::json& result, const std::string& stage);
 
 // The caution printed at the end of every report.
 extern const char* const kSafetyCaution;

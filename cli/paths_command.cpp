@@ -96,6 +96,8 @@ json PathsJson(const Design& d, const EdgeNetwork& net, const PathResult& r) {
 }
 
 int RunPaths(const PathsArgs& args) {
+  std::size_t max_memory = 0;
+  if (int code = 0; !ParseMaxMemory(args.max_memory, &max_memory, &code)) return code;
   Design d;
   if (int code = 0; !LoadOrReport(args.design_path, &d, &code)) return code;
   const CheckResult check = CheckDesign(d);
@@ -106,12 +108,13 @@ int RunPaths(const PathsArgs& args) {
   ChannelGeometry geometry;
   std::string es_note;
   DensityMap map;
-  if (int code = 0; !BuildGeometry(d, args.fast, &geometry, &es_note, &code, &map)) return code;
+  if (int code = 0; !BuildGeometry(d, args.fast, &geometry, &es_note, &code, &map, max_memory)) return code;
   const DensityMap* map_ptr = args.fast ? nullptr : &map;
   const EdgeNetwork net = TraceEdges(d, geometry, d.conditions.field_T);
   if (ReportErrors(net.findings) > 0) return kExitDesignError;
   const TransportResult tr = SolveTransport(d, net);
   PathOptions po;
+  po.max_memory_bytes = max_memory;
   try {
     if (!args.target.empty()) po.target_transmission = units::Parse(args.target, units::Kind::kDimensionless);
     if (!args.gate_limit.empty()) po.gate_voltage_limit_V = units::Parse(args.gate_limit, units::Kind::kVoltage);
@@ -208,13 +211,14 @@ int RunPaths(const PathsArgs& args) {
     for (const auto& w : warnings) out += "  - " + w + "\n";
   }
   out += kSafetyCaution;
+  json j = PathsJson(d, net, r);
+  j["hallway_paths"] = 1;
+  j["design"] = d.path;
+  j["field_T"] = d.conditions.field_T;
+  j["warnings"] = warnings;
+  if (!RequireFiniteJson(j, "the path metrics and constriction models")) return kExitInternal;
   std::cout << out;
   if (!args.json_path.empty()) {
-    json j = PathsJson(d, net, r);
-    j["hallway_paths"] = 1;
-    j["design"] = d.path;
-    j["field_T"] = d.conditions.field_T;
-    j["warnings"] = warnings;
     try {
       WriteFileAtomically(args.json_path, j.dump(2) + "\n", {args.design_path});
     } catch (const OutputError& e) {

@@ -107,6 +107,8 @@ std::string sci(double x) {
 }  // namespace
 
 int RunReport(const ReportArgs& args) {
+  std::size_t max_memory = 0;
+  if (int code = 0; !ParseMaxMemory(args.max_memory, &max_memory, &code)) return code;
   Design d;
   if (int code = 0; !LoadOrReport(args.design_path, &d, &code)) return code;
   const CheckResult check = CheckDesign(d);
@@ -127,7 +129,7 @@ int RunReport(const ReportArgs& args) {
   ChannelGeometry geometry;
   std::string es_note;
   DensityMap map;
-  if (int code = 0; !BuildGeometry(d, args.fast, &geometry, &es_note, &code, &map)) return code;
+  if (int code = 0; !BuildGeometry(d, args.fast, &geometry, &es_note, &code, &map, max_memory)) return code;
   progress.Step(1, "edge network, both field directions");
   const double b = d.conditions.field_T;
   const EdgeNetwork plus = TraceEdges(d, geometry, b), minus = TraceEdges(d, geometry, -b);
@@ -138,6 +140,7 @@ int RunReport(const ReportArgs& args) {
   const NoiseResult noise = SolveNoise(d, plus, tp);
   progress.Step(3, "paths and constriction models");
   PathOptions po;
+  po.max_memory_bytes = max_memory;
   PathResult paths = ComputePaths(d, plus, tp, args.fast ? nullptr : &map, po);
   ComputeConstrictionModels(d, po, &paths);
 
@@ -169,6 +172,12 @@ int RunReport(const ReportArgs& args) {
     noise_series.push_back(sn);
   }
 
+  // Nothing is drawn or written from a result that holds NaN or infinity.
+  if (!RequireFiniteJson(TransportJson(d, plus, tp), "the transport results for +B") ||
+      !RequireFiniteJson(TransportJson(d, minus, tm), "the transport results for -B") ||
+      !RequireFiniteJson(NoiseJson(d, noise), "the noise results") ||
+      !RequireFiniteJson(PathsJson(d, plus, paths), "the path metrics and constriction models"))
+    return kExitInternal;
   progress.Step(5, "figures");
   std::vector<std::pair<fs::path, std::string>> pictures;
   try {

@@ -170,6 +170,8 @@ std::vector<int> parse_four(const Design& d, const std::string& spec, std::strin
 }  // namespace
 
 int RunSolve(const SolveArgs& args) {
+  std::size_t max_memory = 0;
+  if (int code = 0; !ParseMaxMemory(args.max_memory, &max_memory, &code)) return code;
   Design d;
   if (int code = 0; !LoadOrReport(args.design_path, &d, &code)) return code;
   std::vector<int> four;
@@ -189,7 +191,7 @@ int RunSolve(const SolveArgs& args) {
   ChannelGeometry geometry;
   std::string es_note;
   DensityMap map;
-  if (int code = 0; !BuildGeometry(d, args.fast, &geometry, &es_note, &code, &map)) return code;
+  if (int code = 0; !BuildGeometry(d, args.fast, &geometry, &es_note, &code, &map, max_memory)) return code;
   std::vector<double> fields;
   if (!args.reversed_only) fields.push_back(d.conditions.field_T);
   fields.push_back(-d.conditions.field_T);
@@ -281,6 +283,8 @@ int RunSolve(const SolveArgs& args) {
     for (const auto& w : warnings) out += "  - " + w + "\n";
   }
   out += kSafetyCaution;
+  for (const auto& s : solved)
+    if (!RequireFiniteJson(field_json(d, s), "the transport results")) return kExitInternal;
   std::cout << out;
 
   if (!args.json_path.empty()) {
@@ -302,11 +306,13 @@ int RunSolve(const SolveArgs& args) {
     if (solved.size() == 2) j["reversed_field"] = field_json(d, solved[1]);
     // Path metrics and constriction models of the first field solved (hallway paths gives the same).
     PathOptions po;
+    po.max_memory_bytes = max_memory;
     PathResult paths =
         ComputePaths(d, solved.front().network, solved.front().transport, args.fast ? nullptr : &map, po);
     ComputeConstrictionModels(d, po, &paths);
     const json pj = PathsJson(d, solved.front().network, paths);
     for (const char* key : {"paths", "loops", "constriction_models"}) j[key] = pj[key];
+    if (!RequireFiniteJson(j, "the path metrics and constriction models")) return kExitInternal;
     try {
       WriteFileAtomically(args.json_path, j.dump(2) + "\n", {args.design_path});
     } catch (const OutputError& e) {

@@ -113,6 +113,13 @@ std::string quantities_header(const Design& d, const std::set<std::string>& q) {
   return h;
 }
 
+// A memory or iteration bound was reached (exit code 5, not a design error).
+class LimitReached : public std::runtime_error {
+ public:
+  using std::runtime_error::runtime_error;
+};
+constexpr const char* kLimitPrefix = "resource limit: ";
+
 // The electrostatic solutions of the last two points of a chunk and where they were taken.
 struct WarmChain {
   std::optional<DensityMap> last, before;
@@ -139,7 +146,7 @@ bool equal_step(const std::vector<double>& x, const std::vector<double>& last, c
 // points of the chunk. The solve starts from the linear extrapolation of the last two when the points
 // are equally spaced, else from the last one, else from scratch.
 std::string solve_point(const std::string& text, const std::string& path, const std::set<std::string>& q, bool fast,
-                        const std::vector<double>& at, WarmChain* chain, SolveCounts* counts) {
+                        const std::vector<double>& at, std::size_t max_memory, WarmChain* chain, SolveCounts* counts) {
   const Design d = LoadDesignFromString(text, path);
   const CheckResult check = CheckDesign(d);
   if (!check.ok())
@@ -149,12 +156,11 @@ std::string solve_point(const std::string& text, const std::string& path, const 
   if (!fast) {
     ElectrostaticsOptions eo;
     eo.threads = 1;
+    eo.max_memory_bytes = max_memory;
     const ElectrostaticProblem problem(d, eo);
     std::vector<double> volts;
     for (const Gate& g : d.gates) volts.push_back(g.voltage_V);
-    auto fits = [&](const std::optional<DensityMap>& s) {
-      return s && s->nx == problem.nx() && s->ny == problem.ny();
-    };
+    auto fits = [&](const std::optional<DensityMap>& s) { return s && s->nx == problem.nx() && s->ny == problem.ny(); };
     std::optional<DensityMap> predicted;
     if (fits(chain->last) && fits(chain->before) && equal_step(at, chain->last_at, chain->before_at))
       predicted = ExtrapolatedStart(*chain->before, *chain->last);
@@ -167,7 +173,10 @@ std::string solve_point(const std::string& text, const std::string& path, const 
       ++counts->cold_solves;
       counts->cold_applications += map->stats.operator_applications;
     }
-    if (!map->stats.converged) throw std::runtime_error("an electrostatic solve did not converge");
+    if (!map->stats.converged)
+      throw LimitReached("the electrostatic solve did not converge within " +
+                         std::to_string(map->stats.operator_applications) + " operator applications (residual " +
+                         fmt::format("{:.2g}", map->stats.residual) + " of the ungated density)");
     NetworkOptions no;
     no.density = &*map;
     geometry = BuildChannelGeometry(d, no);
@@ -182,12 +191,30 @@ std::string solve_point(const std::string& text, const std::string& path, const 
   for (const Finding& f : net.findings)
     if (f.severity == Severity::kError) throw std::runtime_error(f.message);
   const TransportResult tr = SolveTransport(d, net);
+  // A value that does not exist (the voltage of an isolated floating contact, P of a constriction
+  // that is no collider) is an empty field; a value that should exist and is not finite stops the sweep.
   std::string row;
-  auto add = [&](double x) { row += fmt::format(",{:.10g}", x); };
+  const char* stage = "";
+  auto add = [&](double x) {
+    if (!std::isfinite(x))
+      throw std::runtime_error(std::string("a value that is not finite appeared in the ") + stage +
+                               "; nothing is written for this point");
+    row += fmt::format(",{:.10g}", x);
+  };
+  auto add_optional = [&](const std::optional<double>& x) {
+    if (x) {
+      add(*x);
+    } else {
+      row += ",";
+    }
+  };
+  stage = "contact currents";
   if (q.count("currents"))
     for (double i : tr.current_A) add(i);
+  stage = "contact voltages";
   if (q.count("voltages"))
-    for (const auto& v : tr.voltage_V) add(v.value_or(std::nan("")));
+    for (const auto& v : tr.voltage_V) add_optional(v);
+  stage = "conductance matrix";
   if (q.count("conductance"))
     for (const auto& r : tr.conductance_S)
       for (double g : r) add(g);
@@ -198,24 +225,28 @@ std::string solve_point(const std::string& text, const std::string& path, const 
     std::vector<int> amps;
     for (std::size_t i = 0; i < d.wiring.size(); ++i)
       if (d.wiring[i].role == Role::kAmplifier) amps.push_back(static_cast<int>(i));
+    stage = "noise matrix";
     if (q.count("noise"))
       for (std::size_t a = 0; a < amps.size(); ++a)
         for (std::size_t b = a; b < amps.size(); ++b)
           add(n.excess_A2_per_Hz[static_cast<std::size_t>(amps[a])][static_cast<std::size_t>(amps[b])]);
+    stage = "amplifier signal-to-noise ratios";
     if (q.count("snr"))
       for (const AmplifierNoise& a : n.amplifiers) add(a.snr);
+    stage = "collider Fano factors";
     if (q.count("fano"))
       for (std::size_t k = 0; k < d.constrictions.size(); ++k) {
-        double p = std::nan("");
+        std::optional<double> p;
         for (const ColliderPrediction& c : n.colliders)
           if (c.constriction == static_cast<int>(k) && c.fano) p = *c.fano;
-        add(p);
+        add_optional(p);
       }
   }
+  stage = "saddle densities";
   if (q.count("saddle"))
     for (const Constriction& k : d.constrictions) {
       const auto gap = FindGap(d, k, nullptr);
-      add(map && gap ? map->At(gap->midpoint()) : std::nan(""));
+      add_optional(map && gap ? std::optional<double>(map->At(gap->midpoint())) : std::nullopt);
     }
   return row;
 }
@@ -226,9 +257,12 @@ int RunSweep(const SweepArgs& args, int argc, char** argv) {
   // MPI only when started by mpirun (OpenMPI sets OMPI_COMM_WORLD_SIZE).
   const bool use_mpi = std::getenv("OMPI_COMM_WORLD_SIZE") != nullptr;
   int rank = 0, size = 1;
+  bool threads_may_send = true;
   if (use_mpi) {
     int provided = 0;
-    MPI_Init_thread(&argc, &argv, MPI_THREAD_FUNNELED, &provided);
+    // Worker threads send rows one at a time under a mutex: serialized, not funnelled, use of MPI.
+    MPI_Init_thread(&argc, &argv, MPI_THREAD_SERIALIZED, &provided);
+    threads_may_send = provided >= MPI_THREAD_SERIALIZED;
     MPI_Comm_rank(MPI_COMM_WORLD, &rank);
     MPI_Comm_size(MPI_COMM_WORLD, &size);
   }
@@ -242,6 +276,8 @@ int RunSweep(const SweepArgs& args, int argc, char** argv) {
     if (rank == 0) std::cerr << "hallway: usage error: " << why << "\n";
     return kExitUsage;
   };
+  std::size_t max_memory = 0;
+  if (int code = 0; !ParseMaxMemory(args.max_memory, &max_memory, &code)) return code;
 
   Design base;
   if (int code = 0; !LoadOrReport(args.design_path, &base, &code)) return code;
@@ -281,6 +317,10 @@ int RunSweep(const SweepArgs& args, int argc, char** argv) {
     for (std::size_t i = 0; i < axes.front().values.size(); ++i)
       points.push_back({std::vector<std::size_t>(axes.size(), i)});
   } else {
+    // Count before listing: two axes of 100000 points would otherwise be listed before the check.
+    double count = 1.0;
+    for (const Axis& a : axes) count *= static_cast<double>(a.values.size());
+    if (count > 1e6) return usage("the grid has " + fmt::format("{:.3g}", count) + " points, more than a million");
     std::vector<std::size_t> idx(axes.size(), 0);
     while (true) {
       points.push_back({idx});
@@ -379,7 +419,9 @@ int RunSweep(const SweepArgs& args, int argc, char** argv) {
   for (int c = 0; c < chunks; ++c)
     if (todo[static_cast<std::size_t>(c)] && c % size == rank) mine.push_back(c);
   const int hw = std::max(1, static_cast<int>(std::thread::hardware_concurrency()) / size);
-  const int threads = std::max(1, std::min(args.threads > 0 ? args.threads : hw, static_cast<int>(mine.size())));
+  // An MPI library without serialized thread support gets one worker thread per rank.
+  const int threads =
+      threads_may_send ? std::max(1, std::min(args.threads > 0 ? args.threads : hw, static_cast<int>(mine.size()))) : 1;
   std::atomic<int> next{0}, done_points{0};
   SolveCounts counts;
   std::mutex mpi_mutex, error_mutex;
@@ -401,7 +443,18 @@ int RunSweep(const SweepArgs& args, int argc, char** argv) {
         }
         try {
           if (args.cold) chain.reset();
-          row += solve_point(text_of(points[p]), args.design_path, q, args.fast, at, &chain, &counts) + "\n";
+          row +=
+              solve_point(text_of(points[p]), args.design_path, q, args.fast, at, max_memory, &chain, &counts) + "\n";
+        } catch (const GridTooLarge& e) {
+          std::lock_guard<std::mutex> lock(error_mutex);
+          if (error.empty())
+            error = std::string(kLimitPrefix) + "point " + std::to_string(p) + ": " + e.what() +
+                    "; raise the limit with --max-memory or use --fast";
+          return;
+        } catch (const LimitReached& e) {
+          std::lock_guard<std::mutex> lock(error_mutex);
+          if (error.empty()) error = std::string(kLimitPrefix) + "point " + std::to_string(p) + ": " + e.what();
+          return;
         } catch (const std::exception& e) {
           std::lock_guard<std::mutex> lock(error_mutex);
           if (error.empty()) error = "point " + std::to_string(p) + ": " + e.what();
@@ -449,12 +502,13 @@ int RunSweep(const SweepArgs& args, int argc, char** argv) {
   for (auto& t : pool) t.join();
   if (rank != 0 && use_mpi)
     MPI_Send(error.data(), static_cast<int>(error.size()), MPI_CHAR, 0, kTagDone, MPI_COMM_WORLD);
-  if (rank != 0) return error.empty() ? kExitOk : kExitDesignError;
+  const int error_code = error.rfind(kLimitPrefix, 0) == 0 ? kExitResourceLimit : kExitDesignError;
+  if (rank != 0) return error.empty() ? kExitOk : error_code;
   out.close();
   if (!error.empty()) {
     std::cerr << "hallway: sweep stopped: " << error << "\n(the finished points are in " << args.output
               << "; fix the cause and run again with --resume)\n";
-    return kExitDesignError;
+    return error_code;
   }
   // All points done: the sorted file replaces the output atomically.
   std::string all = header;
@@ -469,8 +523,9 @@ int RunSweep(const SweepArgs& args, int argc, char** argv) {
             << args.output << "; " << counts.applications.load() << " electrostatic operator applications on rank 0";
   const long warm = counts.warm_solves.load(), cold = counts.cold_solves.load();
   if (warm + cold > 0)
-    std::cout << fmt::format(" ({} in {} solves from scratch, {} in {} warm-started solves)", counts.cold_applications.load(),
-                             cold, counts.applications.load() - counts.cold_applications.load(), warm);
+    std::cout << fmt::format(" ({} in {} solves from scratch, {} in {} warm-started solves)",
+                             counts.cold_applications.load(), cold,
+                             counts.applications.load() - counts.cold_applications.load(), warm);
   std::cout << "\n";
   return kExitOk;
 }

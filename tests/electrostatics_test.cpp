@@ -307,8 +307,15 @@ TEST(Electrostatics, MemoryGuardRefusesAHugeGrid) {
   try {
     ElectrostaticProblem p(d, o);
     FAIL() << "no error";
-  } catch (const std::length_error& e) {
+  } catch (const GridTooLarge& e) {
     EXPECT_NE(std::string(e.what()).find("MiB"), std::string::npos) << e.what();
+    EXPECT_GT(e.need_bytes, e.limit_bytes);
+    EXPECT_EQ(e.limit_bytes, o.max_memory_bytes);
+    // The suggested cell size must fit: the estimate is proportional to the number of cells.
+    EXPECT_GT(e.fitting_cell_m, o.grid_m);
+    o.grid_m = e.fitting_cell_m;
+    const ElectrostaticProblem coarse(d, o);
+    EXPECT_LE(coarse.memory_bytes(), o.max_memory_bytes);
   }
 }
 

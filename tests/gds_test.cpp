@@ -186,10 +186,11 @@ TEST(Gds, MalformedAndHostileFilesAreErrorsWithTheByteOffset) {
   EXPECT_NO_THROW(ReadGds(g.bytes, ""));
   ExpectGdsError(g.bytes.substr(0, g.bytes.size() - 3), "truncated");
   std::string bad = g.bytes;
-  bad[0] = 0;
-  bad[1] = 3;  // a record length below the header size
+  bad[6] = 0;
+  bad[7] = 3;  // the record after HEADER: a length below the record header's size
   ExpectGdsError(bad, "record length");
-  ExpectGdsError("", "truncated");
+  ExpectGdsError("", "not a GDSII stream file");
+  ExpectGdsError("hallway: 1\nname: a design file given as the layout\n", "not a GDSII stream file");
   // A structure that refers to itself through another.
   Gds c;
   c.begin("A");
@@ -263,8 +264,18 @@ TEST(Gds, LayoutErrorsNameWhatIsWrong) {
     LoadDesignFromString(test::replace(base, "file: hallbar.gds", "file: nowhere.gds"), dir + "/x.yaml");
     ADD_FAILURE() << "no error";
   } catch (const DesignError& e) {
-    EXPECT_NE(std::string(e.what()).find("cannot open the layout file"), std::string::npos) << e.what();
+    EXPECT_NE(std::string(e.what()).find("the layout file"), std::string::npos) << e.what();
     EXPECT_EQ(e.where().key_path, "layout.file");
+  }
+  // A folder and an endless device named as the layout: refused before reading, never read forever.
+  for (const std::string& name : {std::string("."), std::string("/dev/zero")}) {
+    try {
+      LoadDesignFromString(test::replace(base, "file: hallbar.gds", "file: " + name), dir + "/x.yaml");
+      ADD_FAILURE() << "no error for " << name;
+    } catch (const DesignError& e) {
+      EXPECT_NE(std::string(e.what()).find("is not a regular file"), std::string::npos) << e.what();
+      EXPECT_EQ(e.where().key_path, "layout.file");
+    }
   }
 }
 

@@ -169,6 +169,9 @@ GdsFlat ReadGds(const std::string& bytes, const std::string& top, const GdsLimit
   if (bytes.size() > limits.max_file_bytes)
     throw GdsError(0, "file larger than the limit of " + std::to_string(limits.max_file_bytes >> 20) + " MiB");
   const auto* base = reinterpret_cast<const unsigned char*>(bytes.data());
+  // A stream file opens with a 6-byte HEADER record (length 6, type HEADER, two-byte integer data).
+  if (bytes.size() < 6 || base[0] != 0 || base[1] != 6 || base[2] != kHeader || base[3] != 2)
+    throw GdsError(0, "not a GDSII stream file (it does not begin with a HEADER record)");
   std::size_t pos = 0;
   auto next = [&]() -> Record {
     if (pos + 4 > bytes.size()) throw GdsError(pos, "truncated: a record header is cut off");

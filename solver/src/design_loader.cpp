@@ -407,20 +407,39 @@ std::map<std::string, geometry::Polygon> named_objects(const Reader& r, const Va
   return out;
 }
 
+// Reads a whole file of at most max_bytes into *out; returns "" or what went wrong, as the end of a
+// sentence "the ... file <what>". Only regular files are read: a device, a pipe or a folder named
+// by mistake would block or never end.
+std::string read_bounded(const std::filesystem::path& file, std::size_t max_bytes, std::string* out) {
+  std::error_code ec;
+  const auto status = std::filesystem::status(file, ec);
+  if (ec || !std::filesystem::exists(status)) return "cannot be opened (it does not exist)";
+  if (!std::filesystem::is_regular_file(status)) return "is not a regular file (a folder, device or pipe)";
+  const auto size = std::filesystem::file_size(file, ec);
+  if (ec) return "cannot be read";
+  if (size > max_bytes) return "is larger than " + std::to_string(max_bytes >> 20) + " MiB";
+  std::ifstream in(file, std::ios::binary);
+  if (!in) return "cannot be opened (no permission?)";
+  out->assign(static_cast<std::size_t>(size), '\0');
+  in.read(out->data(), static_cast<std::streamsize>(size));
+  if (in.gcount() != static_cast<std::streamsize>(size)) return "cannot be read to its end";
+  return "";
+}
+
 Imported read_layout(const Reader& r, const Value& lv, const std::string& design_path, Design* d) {
   const auto lm = r.map(lv, {"file", "cell", "layers"});
   const Value fv = r.require(lm, "file");
   std::filesystem::path file(r.scalar(fv, "a file name"));
   if (file.is_relative()) file = std::filesystem::path(design_path).parent_path() / file;
-  std::ifstream in(file, std::ios::binary);
-  if (!in) r.fail(fv, "cannot open the layout file " + file.string());
-  std::stringstream ss;
-  ss << in.rdbuf();
+  const geometry::GdsLimits limits;
+  std::string bytes;
+  if (const std::string why = read_bounded(file, limits.max_file_bytes, &bytes); !why.empty())
+    r.fail(fv, "the layout file " + file.string() + " " + why);
   std::string cell;
   if (auto cv = lm.get("cell")) cell = r.scalar(*cv, "a structure name");
   geometry::GdsFlat flat;
   try {
-    flat = geometry::ReadGds(ss.str(), cell);
+    flat = geometry::ReadGds(bytes, cell, limits);
   } catch (const geometry::GdsError& e) {
     r.fail(fv, "layout file " + file.string() + ": " + e.what());
   }
@@ -808,17 +827,11 @@ Design LoadDesignFromString(const std::string& text, const std::string& path) {
 }
 
 Design LoadDesign(const std::string& path) {
-  std::ifstream in(path, std::ios::binary);
-  if (!in) throw DesignError({path, 0, 0, ""}, "cannot open the design file");
-  in.seekg(0, std::ios::end);
-  const auto size = in.tellg();
-  if (size < 0) throw DesignError({path, 0, 0, ""}, "cannot read the design file");
-  if (static_cast<std::size_t>(size) > kMaxDesignBytes)
-    throw DesignError({path, 0, 0, ""}, "the design file is larger than 8 MiB; that is not a hand-written design");
-  in.seekg(0);
-  std::string text(static_cast<std::size_t>(size), '\0');
-  in.read(text.data(), size);
-  if (!in) throw DesignError({path, 0, 0, ""}, "cannot read the design file");
+  std::string text;
+  if (const std::string why = read_bounded(path, kMaxDesignBytes, &text); !why.empty())
+    throw DesignError(
+        {path, 0, 0, ""},
+        "the design file " + why + (why.rfind("is larger", 0) == 0 ? "; that is not a hand-written design" : ""));
   return LoadDesignFromString(text, path);
 }
 

@@ -148,17 +148,28 @@ ElectrostaticProblem::ElectrostaticProblem(const Design& d, const Electrostatics
     m.h = std::max({h, 5e-9, std::sqrt(w * hgt / 1e6)});
   }
   const double cells_x = std::ceil(w / m.h), cells_y = std::ceil(hgt / m.h);
-  if (cells_x > 1e5 || cells_y > 1e5)
-    throw std::length_error("electrostatic grid of " + std::to_string(cells_x) + " x " + std::to_string(cells_y) +
-                            " cells is too large; use a coarser grid");
+  const int gates = static_cast<int>(d.gates.size());
+  // The cell size whose grid fits the limit: the estimate grows with the number of cells.
+  auto fitting_cell = [&](double need) {
+    return m.h * std::sqrt(need / static_cast<double>(opt.max_memory_bytes)) * 1.05;
+  };
+  auto mib = [](double bytes) { return std::to_string(static_cast<long long>(std::ceil(bytes / 1048576.0))); };
+  if (cells_x > 1e5 || cells_y > 1e5) {
+    const double need =
+        static_cast<double>(ElectrostaticMemoryEstimate(100000, 100000, gates)) * (cells_x / 1e5) * (cells_y / 1e5);
+    throw GridTooLarge(
+        "the electrostatic grid of " + std::to_string(static_cast<long long>(cells_x)) + " x " +
+            std::to_string(static_cast<long long>(cells_y)) + " cells is too large (more than 100000 a side)",
+        0, 0, m.h, static_cast<std::size_t>(std::min(need, 1e19)), opt.max_memory_bytes, fitting_cell(need));
+  }
   m.nx = std::max(4, static_cast<int>(cells_x));
   m.ny = std::max(4, static_cast<int>(cells_y));
-  const std::size_t need = ElectrostaticMemoryEstimate(m.nx, m.ny, static_cast<int>(d.gates.size()));
+  const std::size_t need = ElectrostaticMemoryEstimate(m.nx, m.ny, gates);
   if (need > opt.max_memory_bytes)
-    throw std::length_error("the electrostatic grid of " + std::to_string(m.nx) + " x " + std::to_string(m.ny) +
-                            " cells needs about " + std::to_string(need >> 20) + " MiB, above the limit of " +
-                            std::to_string(opt.max_memory_bytes >> 20) +
-                            " MiB; coarsen the grid or raise the memory limit");
+    throw GridTooLarge("the electrostatic grid of " + std::to_string(m.nx) + " x " + std::to_string(m.ny) +
+                           " cells needs about " + mib(static_cast<double>(need)) + " MiB, above the limit of " +
+                           mib(static_cast<double>(opt.max_memory_bytes)) + " MiB",
+                       m.nx, m.ny, m.h, need, opt.max_memory_bytes, fitting_cell(static_cast<double>(need)));
   // Zero padding to at least twice the grid makes the circular convolution an aperiodic one; pad to
   // a size with small prime factors, for which FFTW is fastest.
   m.px = fft_size(2 * m.nx);

@@ -289,6 +289,7 @@ void ComputeConstrictionModels(const Design& d, const PathOptions& opt, PathResu
     const double half = 0.5 * gap->distance_m + 12.0 * depth;
     const Design w = LocalWindow(d, mid, half, half);
     ElectrostaticsOptions lo;
+    lo.max_memory_bytes = opt.max_memory_bytes;
     lo.grid_m = std::max(2e-9, std::min(depth / 4.0, gap->distance_m / 8.0));
     lo.margin_m = 0.0;
     const ElectrostaticProblem problem(w, lo);

@@ -17,6 +17,7 @@
 #include <cstddef>
 #include <memory>
 #include <optional>
+#include <stdexcept>
 #include <string>
 #include <vector>
 
@@ -28,6 +29,8 @@ namespace hallway {
 // phi / V at q for a gate outline p (any orientation), 2DEG depth d. Exact, finite on edges and vertices.
 double GatePotentialPerVolt(const geometry::Polygon& p, geometry::Point q, double depth_m);
 
+inline constexpr std::size_t kDefaultMaxMemoryBytes = std::size_t{4} << 30;  // 4 GiB, a laptop's spare memory
+
 struct ElectrostaticsOptions {
   double grid_m = 0.0;      // cell size; 0: automatic, min(d / 3, smallest gap / 6), at least 5 nm,
                             // coarser only to stay within a million cells
@@ -36,7 +39,7 @@ struct ElectrostaticsOptions {
   int max_operator_applications = 5000;
   int max_active_set_steps = 100;
   int threads = 2;  // FFTW threads
-  std::size_t max_memory_bytes = std::size_t{4} << 30;
+  std::size_t max_memory_bytes = kDefaultMaxMemoryBytes;
   bool IsValid(std::string* why) const;
 };
 
@@ -56,6 +59,25 @@ struct DensityMap {
   ElectrostaticsStats stats;
   double At(geometry::Point p) const;        // bilinear interpolation of the density (0 outside)
   double EnergyAt(geometry::Point p) const;  // bilinear interpolation of U / E_F0
+};
+
+// Thrown by ElectrostaticProblem before anything is allocated when the grid would need more memory
+// than ElectrostaticsOptions::max_memory_bytes (or more than 1e5 cells on a side).
+class GridTooLarge : public std::length_error {
+ public:
+  GridTooLarge(const std::string& what, int nx, int ny, double cell_m, std::size_t need_bytes, std::size_t limit_bytes,
+               double fitting_cell_m)
+      : std::length_error(what),
+        nx(nx),
+        ny(ny),
+        cell_m(cell_m),
+        need_bytes(need_bytes),
+        limit_bytes(limit_bytes),
+        fitting_cell_m(fitting_cell_m) {}
+  int nx, ny;
+  double cell_m;
+  std::size_t need_bytes, limit_bytes;
+  double fitting_cell_m;  // about the finest cell size whose grid fits the limit
 };
 
 // The geometry-dependent set-up (grid, kernel transform, unit gate potentials, FFT plans) is built

@@ -38,6 +38,7 @@ struct PathOptions {
   double gate_voltage_limit_V = -2.0;         // conservative leakage onset of surface gates (common practice)
   int curve_points = 25;                      // transmission-versus-voltage samples per constriction
   std::optional<double> target_transmission;  // instead of each constriction's design transmission
+  std::size_t max_memory_bytes = kDefaultMaxMemoryBytes;  // of each constriction's electrostatic window
   bool IsValid(std::string* why) const;
 };
 
