@@ -223,6 +223,43 @@ TEST(Gds, MalformedAndHostileFilesAreErrorsWithTheByteOffset) {
   m.end_cell();
   m.end();
   ExpectGdsError(m.bytes, "array size");
+  // Nested arrays of an empty structure that multiply to 10^9 placements (limit 20 million), and one
+  // array of a structure with 30 labels that gives 3 x 10^7 labels (limit 100000): both must stop at
+  // their limits. The GDSII fuzz target found the kind as a slow input.
+  Gds nested;
+  nested.begin("LEAF");
+  nested.end_cell();
+  for (const std::string level : {"L1", "L2", "TOP"}) {
+    nested.begin(level);
+    nested.rec(0x0B, 0);  // AREF
+    nested.rec(0x12, 6, Gds::text(level == "L1" ? "LEAF" : level == "L2" ? "L1" : "L2"));
+    nested.rec(0x13, 2, Gds::i16(1000) + Gds::i16(1000));
+    nested.rec(0x10, 3, Gds::xy({{0, 0}, {1000, 0}, {0, 1000}}));
+    nested.rec(0x11, 0);
+    nested.end_cell();
+  }
+  nested.end();
+  ExpectGdsError(nested.bytes, "places structures more than 20000000 times");
+  Gds labels;
+  labels.begin("LEAF");
+  for (int k = 0; k < 30; ++k) {
+    labels.rec(0x0C, 0);                     // TEXT
+    labels.rec(0x0D, 2, Gds::i16(63));       // LAYER
+    labels.rec(0x16, 2, Gds::i16(0));        // TEXTTYPE
+    labels.rec(0x10, 3, Gds::xy({{k, 0}}));  // XY
+    labels.rec(0x19, 6, Gds::text("Q"));     // STRING
+    labels.rec(0x11, 0);                     // ENDEL
+  }
+  labels.end_cell();
+  labels.begin("TOP");
+  labels.rec(0x0B, 0);
+  labels.rec(0x12, 6, Gds::text("LEAF"));
+  labels.rec(0x13, 2, Gds::i16(1000) + Gds::i16(1000));  // 10^6 placements, within the limit
+  labels.rec(0x10, 3, Gds::xy({{0, 0}, {1000, 0}, {0, 1000}}));
+  labels.rec(0x11, 0);
+  labels.end_cell();
+  labels.end();
+  ExpectGdsError(labels.bytes, "more than 100000 labels");
 }
 
 TEST(Gds, LayoutDesignSolvesLikeTheSameDesignInline) {

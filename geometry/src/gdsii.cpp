@@ -335,7 +335,9 @@ GdsFlat ReadGds(const std::string& bytes, const std::string& top, const GdsLimit
   }
   if (!cells.count(root)) throw GdsError(0, "no structure named '" + root + "'");
   const double u = flat.database_unit_m;
-  std::size_t vertices = 0;
+  // Nested arrays multiply: a few hundred bytes can place a structure 10^12 times. Every placement
+  // and every emitted vertex or label counts against the limits, so that flattening always ends.
+  std::size_t vertices = 0, placements = 0, label_count = 0;
   std::vector<std::string> stack;
   std::function<void(const Cell&, const Transform&, int)> flatten = [&](const Cell& c, const Transform& t, int depth) {
     if (depth > limits.max_depth)
@@ -347,7 +349,8 @@ GdsFlat ReadGds(const std::string& bytes, const std::string& top, const GdsLimit
       auto emit = [&](std::vector<Point> pts) {
         vertices += pts.size();
         if (vertices > limits.max_output_vertices)
-          throw GdsError(e.offset, "the flattened layout has more than the vertex limit");
+          throw GdsError(e.offset, "the flattened layout has more than " + std::to_string(limits.max_output_vertices) +
+                                       " vertices");
         Polygon p;
         for (const Point& q : pts) {
           const Point w = t(q);
@@ -382,6 +385,9 @@ GdsFlat ReadGds(const std::string& bytes, const std::string& top, const GdsLimit
         }
         case kText:
           if (!e.xy.empty()) {
+            if (++label_count > limits.max_labels)
+              throw GdsError(e.offset,
+                             "the flattened layout has more than " + std::to_string(limits.max_labels) + " labels");
             const Point w = t(e.xy.front());
             flat.labels[{e.layer, e.datatype}].push_back({e.text, {w.x * u, w.y * u}});
           }
@@ -400,6 +406,9 @@ GdsFlat ReadGds(const std::string& bytes, const std::string& top, const GdsLimit
                 at.x += cc * (e.xy[1].x - e.xy[0].x) / cols + rr * (e.xy[2].x - e.xy[0].x) / rows;
                 at.y += cc * (e.xy[1].y - e.xy[0].y) / cols + rr * (e.xy[2].y - e.xy[0].y) / rows;
               }
+              if (++placements > limits.max_placements)
+                throw GdsError(e.offset, "the flattened layout places structures more than " +
+                                             std::to_string(limits.max_placements) + " times");
               flatten(it->second, placement(e.reflect, e.mag, e.angle, at).then(t), depth + 1);
             }
           break;

@@ -14,6 +14,7 @@ extern "C" int LLVMFuzzerTestOneInput(const std::uint8_t* data, std::size_t size
   hallway::geometry::GdsLimits limits;
   limits.max_file_bytes = 1u << 20;
   limits.max_output_vertices = 1'000'000;
+  limits.max_placements = 1'000'000;
   if (size > limits.max_file_bytes) return 0;
   const std::string bytes(reinterpret_cast<const char*>(data), size);
   hallway::geometry::GdsFlat flat;
@@ -33,6 +34,8 @@ extern "C" int LLVMFuzzerTestOneInput(const std::uint8_t* data, std::size_t size
   for (const auto& [layer, labels] : flat.labels)
     for (const auto& label : labels)
       if (!std::isfinite(label.at.x) || !std::isfinite(label.at.y)) __builtin_trap();
-  if (vertices > limits.max_output_vertices) __builtin_trap();
+  std::size_t labels = 0;
+  for (const auto& [layer, list] : flat.labels) labels += list.size();
+  if (vertices > limits.max_output_vertices || labels > limits.max_labels) __builtin_trap();
   return 0;
 }

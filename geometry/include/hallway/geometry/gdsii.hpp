@@ -51,7 +51,9 @@ struct GdsFlat {
 
 struct GdsLimits {
   std::size_t max_file_bytes = std::size_t{256} << 20;
-  std::size_t max_output_vertices = 20'000'000;
+  std::size_t max_output_vertices = 20'000'000;  // polygon vertices after flattening
+  std::size_t max_labels = 100'000;              // text labels after flattening (a design names dozens)
+  std::size_t max_placements = 20'000'000;       // structure placements visited while flattening
   int max_depth = 64;
 };
 
