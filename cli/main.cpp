@@ -83,7 +83,9 @@ int main(int argc, char** argv) {
       ->required();
   sw->add_flag("--zip", sweep.zip, "Vary the keys in lock-step instead of over a grid");
   sw->add_option("--output", sweep.output, "CSV file, one row per point")->required();
-  sw->add_option("--quantities", sweep.quantities, "Groups: currents,voltages,conductance,noise,snr,fano,saddle");
+  sw->add_option("--quantities", sweep.quantities,
+                 "Groups: currents,voltages,conductance,noise,snr,fano,saddle,pinchoff (default: all but conductance "
+                 "and pinchoff)");
   sw->add_option("--threads", sweep.threads, "Threads per process (default: the cores, shared among MPI ranks)");
   sw->add_flag("--resume", sweep.resume, "Keep the points already in the output file");
   sw->add_flag("--fast", sweep.fast, "Bare-potential boundaries, no electrostatic solves");

@@ -29,6 +29,7 @@
 #include "hallway/check.hpp"
 #include "hallway/design_loader.hpp"
 #include "hallway/electrostatics.hpp"
+#include "hallway/map.hpp"
 #include "hallway/network.hpp"
 #include "hallway/noise.hpp"
 #include "hallway/transport.hpp"
@@ -110,6 +111,8 @@ std::string quantities_header(const Design& d, const std::set<std::string>& q) {
     for (const Constriction& k : d.constrictions) add("P_" + k.name);
   if (q.count("saddle"))
     for (const Constriction& k : d.constrictions) add("saddle_density_" + k.name + "_m2");
+  if (q.count("pinchoff"))
+    for (const Constriction& k : d.constrictions) add("pinch_off_" + k.name + "_V");
   return h;
 }
 
@@ -129,6 +132,7 @@ struct WarmChain {
 
 struct SolveCounts {
   std::atomic<long> applications{0}, cold_applications{0}, cold_solves{0}, warm_solves{0};
+  std::atomic<long> pinch_applications{0}, pinch_solves{0};  // the pinch-off searches, apart
 };
 
 // True when x - last equals last - before on every axis (to rounding) and the step is not zero.
@@ -248,6 +252,26 @@ std::string solve_point(const std::string& text, const std::string& path, const 
       const auto gap = FindGap(d, k, nullptr);
       add_optional(map && gap ? std::optional<double>(map->At(gap->midpoint())) : std::nullopt);
     }
+  // Pinch-off of each constriction (both sides swept together) by the local-window search of
+  // `hallway map`; empty when the channel is still open at the search limit.
+  stage = "pinch-off voltages";
+  if (q.count("pinchoff")) {
+    MapOptions mo;
+    mo.constrictions_only = true;
+    mo.electrostatics.threads = 1;
+    mo.electrostatics.max_memory_bytes = max_memory;
+    const MapResult mr = ComputeMap(d, mo);
+    counts->pinch_applications += mr.operator_applications;
+    counts->pinch_solves += mr.solves;
+    if (!mr.all_converged)
+      throw LimitReached("a solve of the pinch-off search did not converge within its iteration bound");
+    for (const Constriction& k : d.constrictions) {
+      std::optional<double> v;
+      for (const ConstrictionMap& c : mr.constrictions)
+        if (c.name == k.name) v = c.pinch_off_V;
+      add_optional(v);
+    }
+  }
   return row;
 }
 
@@ -301,13 +325,16 @@ int RunSweep(const SweepArgs& args, int argc, char** argv) {
     const std::string list = args.quantities.empty() ? "currents,voltages,noise,snr,fano,saddle" : args.quantities;
     std::stringstream ss(list);
     std::string item;
-    const std::set<std::string> known{"currents", "voltages", "conductance", "noise", "snr", "fano", "saddle"};
+    const std::set<std::string> known{"currents", "voltages", "conductance", "noise",
+                                      "snr",      "fano",     "saddle",      "pinchoff"};
     while (std::getline(ss, item, ',')) {
       if (!known.count(item))
         return usage("--quantities: unknown group '" + item +
-                     "' (currents, voltages, conductance, noise, snr, fano, saddle)");
+                     "' (currents, voltages, conductance, noise, snr, fano, saddle, pinchoff)");
       q.insert(item);
     }
+    if (args.fast && q.count("pinchoff"))
+      return usage("--quantities pinchoff needs the electrostatic solves; it cannot be combined with --fast");
   }
   // Points: a Cartesian grid (first --vary slowest) or lock-step.
   std::vector<Point> points;
@@ -526,6 +553,9 @@ int RunSweep(const SweepArgs& args, int argc, char** argv) {
     std::cout << fmt::format(" ({} in {} solves from scratch, {} in {} warm-started solves)",
                              counts.cold_applications.load(), cold,
                              counts.applications.load() - counts.cold_applications.load(), warm);
+  if (counts.pinch_solves.load() > 0)
+    std::cout << fmt::format("; pinch-off searches: {} solves, {} operator applications", counts.pinch_solves.load(),
+                             counts.pinch_applications.load());
   std::cout << "\n";
   return kExitOk;
 }

@@ -307,6 +307,29 @@ TEST(Sweep, ResumedSweepEqualsAnUninterruptedOne) {
   EXPECT_EQ(read(part), read(full));
 }
 
+// The pinch-off group of a sweep runs the pinch-off search of `hallway map`: at the design's own
+// values both must give the same voltage (to the 1 mV bisection resolution).
+TEST(Sweep, PinchOffColumnAgreesWithTheMapCommand) {
+  const std::string design = "'" + test::SourcePath("designs/01_hallbar_qpc.yaml") + "'";
+  const fs::path csv = scratch("pinch.csv"), json_path = scratch("pinch_map.json");
+  const CommandRun sweep = hallway("sweep " + design + " --vary conditions.temperature=15mK:15mK:1 " +
+                                   "--quantities pinchoff --threads 1 --quiet --output '" + csv.string() + "'");
+  ASSERT_EQ(sweep.exit_code, 0) << sweep.output;
+  EXPECT_NE(sweep.output.find("pinch-off searches"), std::string::npos) << sweep.output;
+  const std::string text = read(csv);
+  EXPECT_EQ(text.substr(0, text.find('\n')), "point,conditions.temperature,pinch_off_Q_V");
+  const std::string row = text.substr(text.find('\n') + 1);
+  const double swept = std::stod(row.substr(row.rfind(',') + 1));
+  const CommandRun map = hallway("map " + design + " --quiet --json '" + json_path.string() + "'");
+  ASSERT_EQ(map.exit_code, 0) << map.output;
+  const auto j = nlohmann::json::parse(read(json_path));
+  EXPECT_NEAR(swept, j["constrictions"][0]["pinch_off_V"].get<double>(), 2e-3);
+  const CommandRun fast = hallway("sweep " + design + " --vary conditions.temperature=15mK:15mK:1 " +
+                                  "--quantities pinchoff --fast --output '" + scratch("never.csv").string() + "'");
+  EXPECT_EQ(fast.exit_code, 2) << fast.output;
+  EXPECT_NE(fast.output.find("cannot be combined with --fast"), std::string::npos) << fast.output;
+}
+
 TEST(Sweep, BadKeysRangesAndUnitsFailBeforeAnyWork) {
   const fs::path out = scratch("bad.csv");
   fs::remove(out);

@@ -105,15 +105,16 @@ MapResult ComputeMap(const Design& d, const MapOptions& opt) {
     if (!m.stats.converged) r.all_converged = false;
   };
 
-  const int stages = 1 + static_cast<int>(d.constrictions.size() + d.gates.size());
+  const int stages = opt.constrictions_only ? static_cast<int>(d.constrictions.size())
+                                            : 1 + static_cast<int>(d.constrictions.size() + d.gates.size());
   int stage = 0;
   auto report = [&](const std::string& what) {
     if (opt.progress) opt.progress(stage, stages, what);
     ++stage;
   };
   // The whole mesa at the design voltages.
-  report("whole mesa");
-  {
+  if (!opt.constrictions_only) {
+    report("whole mesa");
     const ElectrostaticProblem whole(d, opt.electrostatics);
     r.map = whole.Solve(design_volts);
     note(r.map);
@@ -170,7 +171,7 @@ MapResult ComputeMap(const Design& d, const MapOptions& opt) {
   }
 
   // Gates: depletion at actual size (alone, the others at 0 V) and the edge at the design voltage.
-  for (std::size_t gi = 0; gi < d.gates.size(); ++gi) {
+  for (std::size_t gi = 0; gi < (opt.constrictions_only ? 0 : d.gates.size()); ++gi) {
     const Gate& g = d.gates[gi];
     report("depletion of " + g.name);
     GateMap gm;

@@ -26,8 +26,9 @@ struct MapOptions {
   double local_grid_m = 0.0;             // cell size of the local windows; 0: min(d / 4, gap / 8)
   double window_m = 0.0;                 // half-size of a local window; 0: 12 d beyond the gap or gate
   double pinch_resolution_V = 1e-3;
-  double empty_fraction = 1e-3;   // "empty" means n < empty_fraction n_s
-  double search_limit_V = -10.0;  // no search below this gate voltage
+  double empty_fraction = 1e-3;     // "empty" means n < empty_fraction n_s
+  double search_limit_V = -10.0;    // no search below this gate voltage
+  bool constrictions_only = false;  // only the constriction windows (no whole-mesa map, no gates)
   // Called before each stage (the whole mesa, each constriction, each gate): step, total, what.
   std::function<void(int, int, const std::string&)> progress;
   bool IsValid(std::string* why) const;
