@@ -1,6 +1,7 @@
 // `hallway sweep`: a grid (or lock-step list) of design variants, solved in parallel with threads
 // and, under mpirun, across MPI ranks; one CSV row per point, written as points finish.
 //
+// Work: chunks are handed out one at a time from rank 0's queue as threads and ranks become free.
 // Determinism: the points are cut into consecutive chunks of kChunk; within a chunk each electrostatic
 // solve starts from the previous points' solutions (extrapolated linearly from the last two when the
 // points are equally spaced), the first from scratch, and FFTW runs on one thread
@@ -41,7 +42,7 @@ namespace hallway::cli {
 namespace {
 
 constexpr int kChunk = 4;
-constexpr int kTagRow = 1, kTagDone = 2;
+constexpr int kTagRow = 1, kTagDone = 2, kTagRequest = 3, kTagChunk = 4;
 
 struct Axis {
   std::string key;
@@ -441,24 +442,43 @@ int RunSweep(const SweepArgs& args, int argc, char** argv) {
     out << r;
     out.flush();
   };
-  // This rank's chunks, interleaved across ranks; threads take them one at a time.
-  std::vector<int> mine;
+  // Chunks are handed out one at a time as workers become free, so ranks and threads stay busy when
+  // points cost different amounts: rank 0 owns the queue; its threads take from it directly, the
+  // other ranks' threads ask rank 0 for their next chunk.
+  std::vector<int> queue;
   for (int c = 0; c < chunks; ++c)
-    if (todo[static_cast<std::size_t>(c)] && c % size == rank) mine.push_back(c);
+    if (todo[static_cast<std::size_t>(c)]) queue.push_back(c);
   const int hw = std::max(1, static_cast<int>(std::thread::hardware_concurrency()) / size);
   // An MPI library without serialized thread support gets one worker thread per rank.
-  const int threads =
-      threads_may_send ? std::max(1, std::min(args.threads > 0 ? args.threads : hw, static_cast<int>(mine.size()))) : 1;
+  const int threads = threads_may_send
+                          ? std::max(1, std::min(args.threads > 0 ? args.threads : hw, static_cast<int>(queue.size())))
+                          : 1;
   std::atomic<int> next{0}, done_points{0};
   SolveCounts counts;
   std::mutex mpi_mutex, error_mutex;
   std::string error;
-  const Progress progress("sweep", static_cast<int>(points.size()), args.quiet || rank != 0);
+  auto failed = [&] {
+    std::lock_guard<std::mutex> lock(error_mutex);
+    return !error.empty();
+  };
+  // The next chunk of rank 0's queue, or -1 when none is left (or a point has failed).
+  auto take = [&] {
+    const int i = next++;
+    return i < static_cast<int>(queue.size()) && !failed() ? queue[static_cast<std::size_t>(i)] : -1;
+  };
+  auto next_chunk = [&] {
+    if (rank == 0) return take();
+    std::lock_guard<std::mutex> lock(mpi_mutex);  // request and reply as one exchange
+    int c = -1;
+    MPI_Send(nullptr, 0, MPI_CHAR, 0, kTagRequest, MPI_COMM_WORLD);
+    MPI_Recv(&c, 1, MPI_INT, 0, kTagChunk, MPI_COMM_WORLD, MPI_STATUS_IGNORE);
+    return c;
+  };
+  const Progress progress("sweep", static_cast<int>(points.size() - kept_points), args.quiet || rank != 0);
   auto worker = [&] {
     while (true) {
-      const int i = next++;
-      if (i >= static_cast<int>(mine.size())) return;
-      const int c = mine[static_cast<std::size_t>(i)];
+      const int c = next_chunk();
+      if (c < 0) return;
       WarmChain chain;
       for (std::size_t p = static_cast<std::size_t>(c) * kChunk;
            p < std::min(points.size(), static_cast<std::size_t>(c + 1) * kChunk); ++p) {
@@ -500,7 +520,7 @@ int RunSweep(const SweepArgs& args, int argc, char** argv) {
   std::vector<std::thread> pool;
   for (int t = 0; t < threads; ++t) pool.emplace_back(worker);
   if (rank == 0 && use_mpi) {
-    // Receive the other ranks' rows while the local threads work.
+    // Hand out chunks and receive the other ranks' rows while the local threads work.
     int finished = 1;
     while (finished < size) {
       // Poll with a pause: a blocking probe spins and would take a core from the workers.
@@ -514,21 +534,35 @@ int RunSweep(const SweepArgs& args, int argc, char** argv) {
         std::this_thread::sleep_for(std::chrono::milliseconds(5));
         continue;
       }
+      std::lock_guard<std::mutex> lock(mpi_mutex);
       int count = 0;
       MPI_Get_count(&st, MPI_CHAR, &count);
       std::string buf(static_cast<std::size_t>(count), '\0');
       MPI_Recv(buf.data(), count, MPI_CHAR, st.MPI_SOURCE, st.MPI_TAG, MPI_COMM_WORLD, MPI_STATUS_IGNORE);
-      if (st.MPI_TAG == kTagDone) {
+      if (st.MPI_TAG == kTagRequest) {
+        const int c = take();
+        MPI_Send(&c, 1, MPI_INT, st.MPI_SOURCE, kTagChunk, MPI_COMM_WORLD);
+      } else if (st.MPI_TAG == kTagDone) {
         ++finished;
+        std::lock_guard<std::mutex> elock(error_mutex);
         if (!buf.empty() && error.empty()) error = buf;
-        continue;
+      } else {
+        write_row(std::stoul(buf.substr(0, buf.find(','))), buf);
+        progress.Step(done_points++, "points");
       }
-      write_row(std::stoul(buf.substr(0, buf.find(','))), buf);
     }
   }
   for (auto& t : pool) t.join();
   if (rank != 0 && use_mpi)
     MPI_Send(error.data(), static_cast<int>(error.size()), MPI_CHAR, 0, kTagDone, MPI_COMM_WORLD);
+  // The solver statistics of all ranks, summed on rank 0.
+  long totals[6] = {counts.applications.load(), counts.cold_applications.load(),  counts.cold_solves.load(),
+                    counts.warm_solves.load(),  counts.pinch_applications.load(), counts.pinch_solves.load()};
+  if (use_mpi) {
+    long sum[6] = {};
+    MPI_Reduce(totals, sum, 6, MPI_LONG, MPI_SUM, 0, MPI_COMM_WORLD);
+    std::copy(sum, sum + 6, totals);
+  }
   const int error_code = error.rfind(kLimitPrefix, 0) == 0 ? kExitResourceLimit : kExitDesignError;
   if (rank != 0) return error.empty() ? kExitOk : error_code;
   out.close();
@@ -547,15 +581,13 @@ int RunSweep(const SweepArgs& args, int argc, char** argv) {
     return kExitOutputError;
   }
   std::cout << "hallway sweep: " << points.size() << " points (" << kept_points << " kept from before) written to "
-            << args.output << "; " << counts.applications.load() << " electrostatic operator applications on rank 0";
-  const long warm = counts.warm_solves.load(), cold = counts.cold_solves.load();
-  if (warm + cold > 0)
-    std::cout << fmt::format(" ({} in {} solves from scratch, {} in {} warm-started solves)",
-                             counts.cold_applications.load(), cold,
-                             counts.applications.load() - counts.cold_applications.load(), warm);
-  if (counts.pinch_solves.load() > 0)
-    std::cout << fmt::format("; pinch-off searches: {} solves, {} operator applications", counts.pinch_solves.load(),
-                             counts.pinch_applications.load());
+            << args.output << "; " << totals[0] << " electrostatic operator applications";
+  if (totals[2] + totals[3] > 0)
+    std::cout << fmt::format(" ({} in {} solves from scratch, {} in {} warm-started solves)", totals[1], totals[2],
+                             totals[0] - totals[1], totals[3]);
+  if (totals[5] > 0)
+    std::cout << fmt::format("; pinch-off searches: {} solves, {} operator applications", totals[5], totals[4]);
+  if (use_mpi) std::cout << " over " << size << " MPI ranks";
   std::cout << "\n";
   return kExitOk;
 }

@@ -268,9 +268,18 @@ std::string sweep_cmd(const fs::path& out, const std::string& extra) {
          "' " + extra;
 }
 
+// The solver statistics of a run: "N electrostatic operator applications (...)".
+std::string applications_of(const std::string& output) {
+  const auto end = output.find(" warm-started solves)");
+  const auto begin = output.rfind("; ", end);
+  return begin == std::string::npos || end == std::string::npos ? "" : output.substr(begin + 2, end - begin - 2);
+}
+
 TEST(Sweep, SerialThreadsAndMpiWriteTheSameFile) {
   const fs::path a = scratch("serial.csv"), b = scratch("threads.csv"), c = scratch("mpi.csv");
-  ASSERT_EQ(hallway(sweep_cmd(a, "--threads 1")).exit_code, 0);
+  const CommandRun serial_run = hallway(sweep_cmd(a, "--threads 1"));
+  ASSERT_EQ(serial_run.exit_code, 0);
+  ASSERT_FALSE(applications_of(serial_run.output).empty()) << serial_run.output;
   ASSERT_EQ(hallway(sweep_cmd(b, "--threads 2")).exit_code, 0);
   const std::string serial = read(a);
   EXPECT_EQ(std::count(serial.begin(), serial.end(), '\n'), 9);
@@ -284,10 +293,17 @@ TEST(Sweep, SerialThreadsAndMpiWriteTheSameFile) {
   const std::string env =
       "OMPI_ALLOW_RUN_AS_ROOT=1 OMPI_ALLOW_RUN_AS_ROOT_CONFIRM=1 OMPI_MCA_rmaps_base_oversubscribe=1 "
       "ASAN_OPTIONS=\"${ASAN_OPTIONS:+$ASAN_OPTIONS:}detect_leaks=0\" ";
+  const fs::path log = scratch("mpi.log");
   const int rc = std::system(
-      (env + "mpirun -np 2 '" + HALLWAY_EXE + "' " + sweep_cmd(c, "--threads 1") + " > /dev/null 2>&1").c_str());
-  ASSERT_EQ(WIFEXITED(rc) ? WEXITSTATUS(rc) : -1, 0);
+      (env + "mpirun -np 2 '" + HALLWAY_EXE + "' " + sweep_cmd(c, "--threads 1") + " > '" + log.string() + "' 2>&1")
+          .c_str());
+  ASSERT_EQ(WIFEXITED(rc) ? WEXITSTATUS(rc) : -1, 0) << read(log);
   EXPECT_EQ(serial, read(c));
+  // Chunks are solved the same way whoever takes them: the statistics summed over the ranks equal
+  // the serial run's, and the run reports both ranks.
+  const std::string mpi_out = read(log);
+  EXPECT_EQ(applications_of(mpi_out), applications_of(serial_run.output)) << mpi_out;
+  EXPECT_NE(mpi_out.find("over 2 MPI ranks"), std::string::npos) << mpi_out;
 }
 
 TEST(Sweep, ResumedSweepEqualsAnUninterruptedOne) {
