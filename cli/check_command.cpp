@@ -120,9 +120,10 @@ std::string render_text(const Design& d, const CheckResult& r) {
       for (const ConstrictionGap& g : r.constrictions)
         if (g.name == k.name) {
           gap = FormatSI(g.gap_m, "m");
-          pinch = g.bare_pinch_off_V ? fmt::format("; bare pinch-off estimate {} (physics 1.4 i, long fingers)",
-                                                   FormatSI(*g.bare_pinch_off_V, "V"))
-                                     : std::string("; gate against the etched edge, no closed-form estimate");
+          pinch = g.bare_pinch_off_V
+                      ? fmt::format("; pinch-off, bare (no screening) {} (`hallway map` gives the self-consistent one)",
+                                    FormatSI(*g.bare_pinch_off_V, "V"))
+                      : std::string("; no bare pinch-off estimate (the gate potential at the saddle does not grow)");
         }
       row(out, k.name + " (" + k.first + " | " + k.second + ")",
           fmt::format("gap {}{}; transmission [{}]", gap, pinch, t));
@@ -215,12 +216,15 @@ std::string render_json(const Design& d, const CheckResult& r) {
     json x = {{"name", k.name}, {"sides", {k.first, k.second}}, {"transmission", k.transmission}};
     x["regime"] = k.regime ? json(ToString(*k.regime)) : json(nullptr);
     x["gap_m"] = nullptr;
-    x["bare_pinch_off_V"] = nullptr;
+    x["pinch_off_bare_V"] = nullptr;
     for (const ConstrictionGap& g : r.constrictions)
       if (g.name == k.name) {
         x["gap_m"] = g.gap_m;
         x["gap_ends_m"] = {{g.on_first.x, g.on_first.y}, {g.on_second.x, g.on_second.y}};
-        if (g.bare_pinch_off_V) x["bare_pinch_off_V"] = *g.bare_pinch_off_V;
+        if (g.bare_pinch_off_V) {
+          x["pinch_off_bare_V"] = *g.bare_pinch_off_V;
+          x["saddle_bare_m"] = {g.bare_saddle.x, g.bare_saddle.y};
+        }
       }
     ks.push_back(x);
   }

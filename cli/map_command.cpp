@@ -89,12 +89,17 @@ int RunMap(const MapArgs& args) {
         g.drift_velocity_m_per_s ? fmt::format("{:.3g} m/s", *g.drift_velocity_m_per_s) : std::string("n/a"));
   if (!m.constrictions.empty()) {
     out += "\nConstrictions (both sides swept together, other gates at their design voltages)\n";
-    out += fmt::format("  {:<8} {:>10} {:>22} {:>16} {:>16}\n", "name", "gap", "saddle density", "pinch-off",
-                       "bare estimate");
+    out += fmt::format("  {:<8} {:>10} {:>22} {:>22} {:>22}\n", "name", "gap", "saddle density", "pinch-off (n = 0)",
+                       "bare (no screening)");
     for (const ConstrictionMap& c : m.constrictions)
       out +=
-          fmt::format("  {:<8} {:>10} {:>16.4g} m^-2 {:>16} {:>16}\n", c.name, FormatSI(c.gap_m, "m"),
+          fmt::format("  {:<8} {:>10} {:>16.4g} m^-2 {:>22} {:>22}\n", c.name, FormatSI(c.gap_m, "m"),
                       c.saddle_density_per_m2, volts(c.pinch_off_V, "below limit"), volts(c.bare_pinch_off_V, "n/a"));
+    out +=
+        "  pinch-off (n = 0): the self-consistent density at the saddle (the highest point of the best path through\n"
+        "  the gap, found anew at each voltage) falls below 1e-3 n_s. bare (no screening): the gates' own potential\n"
+        "  at the saddle reaches the wide-gate depletion voltage. `hallway paths` adds a third figure, the voltage\n"
+        "  at which the saddle-point model closes each channel (docs/models.md, \"Saddle of a constriction\").\n";
   }
   out +=
       "\nPinch-off and depletion voltages are estimates; approach them slowly. A gate driven past its leakage or\n"
@@ -115,9 +120,12 @@ int RunMap(const MapArgs& args) {
   doc["gates"] = gates;
   json ks = json::array();
   for (const ConstrictionMap& c : m.constrictions) {
-    json x = {{"name", c.name}, {"gap_m", c.gap_m}, {"saddle_density_m2", c.saddle_density_per_m2}};
-    x["pinch_off_V"] = c.pinch_off_V ? json(*c.pinch_off_V) : json(nullptr);
-    x["bare_pinch_off_V"] = c.bare_pinch_off_V ? json(*c.bare_pinch_off_V) : json(nullptr);
+    json x = {{"name", c.name},
+              {"gap_m", c.gap_m},
+              {"saddle_m", {c.saddle.x, c.saddle.y}},
+              {"saddle_density_per_m2", c.saddle_density_per_m2}};
+    x["pinch_off_density_zero_V"] = c.pinch_off_V ? json(*c.pinch_off_V) : json(nullptr);
+    x["pinch_off_bare_V"] = c.bare_pinch_off_V ? json(*c.bare_pinch_off_V) : json(nullptr);
     ks.push_back(x);
   }
   doc["constrictions"] = ks;

@@ -33,6 +33,7 @@
 #include "hallway/map.hpp"
 #include "hallway/network.hpp"
 #include "hallway/noise.hpp"
+#include "hallway/saddle.hpp"
 #include "hallway/transport.hpp"
 #include "hallway/units.hpp"
 #include "output.hpp"
@@ -111,9 +112,9 @@ std::string quantities_header(const Design& d, const std::set<std::string>& q) {
   if (q.count("fano"))
     for (const Constriction& k : d.constrictions) add("P_" + k.name);
   if (q.count("saddle"))
-    for (const Constriction& k : d.constrictions) add("saddle_density_" + k.name + "_m2");
+    for (const Constriction& k : d.constrictions) add("saddle_density_" + k.name + "_per_m2");
   if (q.count("pinchoff"))
-    for (const Constriction& k : d.constrictions) add("pinch_off_" + k.name + "_V");
+    for (const Constriction& k : d.constrictions) add("pinch_off_density_zero_" + k.name + "_V");
   return h;
 }
 
@@ -250,8 +251,15 @@ std::string solve_point(const std::string& text, const std::string& path, const 
   stage = "saddle densities";
   if (q.count("saddle"))
     for (const Constriction& k : d.constrictions) {
+      // The saddle of saddle.hpp on the point's whole-mesa map (the same definition as `hallway map`,
+      // whose figure comes from its finer window around the gap).
       const auto gap = FindGap(d, k, nullptr);
-      add_optional(map && gap ? std::optional<double>(map->At(gap->midpoint())) : std::nullopt);
+      std::optional<double> n;
+      if (map && gap) {
+        const Saddle s = DensitySaddle(*map, SaddleStrip::For(d, k, *gap, 0.5 * map->cell_m));
+        n = d.heterostructure.density_per_m2 * std::max(0.0, 1.0 - s.energy);
+      }
+      add_optional(n);
     }
   // Pinch-off of each constriction (both sides swept together) by the local-window search of
   // `hallway map`; empty when the channel is still open at the search limit.

@@ -1,5 +1,6 @@
 // Geometry and wiring checks on whole designs: each failure names the objects involved.
 #include "hallway/check.hpp"
+#include "hallway/electrostatics.hpp"
 
 #include <gtest/gtest.h>
 
@@ -97,7 +98,19 @@ TEST(Check, ConstrictionBetweenAGateAndTheMesaEdge) {
   const CheckResult r = check(replace(kBase, "gates: [QL, QR]", "gates: [mesa, QR]"));
   ASSERT_EQ(r.constrictions.size(), 1u);
   EXPECT_NEAR(r.constrictions[0].gap_m, 10.15e-6, 1e-12);
-  EXPECT_FALSE(r.constrictions[0].bare_pinch_off_V);
+  // The bare (no screening) estimate: QL, still at -0.9 V, covers the stretch between QR's tip and the
+  // mesa edge, so the best path crosses between the two tips, and the saddle lies there. The estimate
+  // is V where V phi_QR / V + (-0.9 V) phi_QL / V = V_dep at that point (the potential of each gate in
+  // closed form, Davies, Larkin & Sukhorukov, J. Appl. Phys. 77, 4504 (1995)).
+  ASSERT_TRUE(r.constrictions[0].bare_pinch_off_V);
+  const Design d = LoadDesignFromString(replace(kBase, "gates: [QL, QR]", "gates: [mesa, QR]"), "base.yaml");
+  const geometry::Point s = r.constrictions[0].bare_saddle;
+  EXPECT_NEAR(s.x, 10.5e-6, 0.05e-6);
+  EXPECT_NEAR(s.y, 0.0, 0.15e-6);
+  const double qr = GatePotentialPerVolt(d.gates[1].outline, s, 95e-9);
+  const double ql = GatePotentialPerVolt(d.gates[0].outline, s, 95e-9);
+  EXPECT_TRUE(
+      test::NearRel(*r.constrictions[0].bare_pinch_off_V, (r.figures.depletion_voltage_V + 0.9 * ql) / qr, 1e-9));
   EXPECT_NE(find(r, "constriction-wide"), nullptr);
 }
 

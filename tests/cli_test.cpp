@@ -248,9 +248,10 @@ TEST(Cli, MapReportsPinchOffAndWritesTheDensityGrid) {
   ASSERT_EQ(r.exit_code, 0) << r.output;
   const auto j = nlohmann::json::parse(read(js));
   ASSERT_EQ(j["constrictions"].size(), 2u);
-  for (const char* key : {"name", "gap_m", "saddle_density_m2", "pinch_off_V"})
+  for (const char* key :
+       {"name", "gap_m", "saddle_m", "saddle_density_per_m2", "pinch_off_density_zero_V", "pinch_off_bare_V"})
     EXPECT_TRUE(j["constrictions"][0].contains(key)) << key;
-  EXPECT_LT(j["constrictions"][0]["pinch_off_V"].get<double>(), -0.5);
+  EXPECT_LT(j["constrictions"][0]["pinch_off_density_zero_V"].get<double>(), -0.5);
   EXPECT_TRUE(j["gates"][0].contains("depletion_V"));
   EXPECT_TRUE(j["solver"]["converged"].get<bool>());
   std::stringstream lines(read(csv));
@@ -333,13 +334,13 @@ TEST(Sweep, PinchOffColumnAgreesWithTheMapCommand) {
   ASSERT_EQ(sweep.exit_code, 0) << sweep.output;
   EXPECT_NE(sweep.output.find("pinch-off searches"), std::string::npos) << sweep.output;
   const std::string text = read(csv);
-  EXPECT_EQ(text.substr(0, text.find('\n')), "point,conditions.temperature,pinch_off_Q_V");
+  EXPECT_EQ(text.substr(0, text.find('\n')), "point,conditions.temperature,pinch_off_density_zero_Q_V");
   const std::string row = text.substr(text.find('\n') + 1);
   const double swept = std::stod(row.substr(row.rfind(',') + 1));
   const CommandRun map = hallway("map " + design + " --quiet --json '" + json_path.string() + "'");
   ASSERT_EQ(map.exit_code, 0) << map.output;
   const auto j = nlohmann::json::parse(read(json_path));
-  EXPECT_NEAR(swept, j["constrictions"][0]["pinch_off_V"].get<double>(), 2e-3);
+  EXPECT_NEAR(swept, j["constrictions"][0]["pinch_off_density_zero_V"].get<double>(), 2e-3);
   const CommandRun fast = hallway("sweep " + design + " --vary conditions.temperature=15mK:15mK:1 " +
                                   "--quantities pinchoff --fast --output '" + scratch("never.csv").string() + "'");
   EXPECT_EQ(fast.exit_code, 2) << fast.output;

@@ -2,6 +2,7 @@
 // exact arithmetic (the exact kernel behind exact.hpp) and against brute-force sampling.
 #include <gtest/gtest.h>
 
+#include <algorithm>
 #include <cmath>
 #include <limits>
 #include <numbers>
@@ -79,6 +80,30 @@ TEST(Polygon, ClosestPointsOfSplitGateTips) {
   EXPECT_NEAR(cp.distance_m, 0.3, 1e-12);
   EXPECT_NEAR(cp.midpoint().x, 0.0, 1e-12);
   EXPECT_NEAR(cp.midpoint().y, 0.0, 1e-12);
+}
+
+// Square-ended fingers (common practice in split-gate layouts) face each other along a whole edge:
+// every pair across the facing stretch is equally close. The middle of that stretch is returned
+// whatever the vertex order or the first vertex, and for a finger end facing a long gate side too.
+TEST(Polygon, ClosestPointsOfSquareEndsAreTheMiddleOfTheFacingStretch) {
+  Polygon west = rect(-2000, -100, -150, 100), east = rect(150, -100, 2000, 100);
+  for (int rev = 0; rev < 2; ++rev)
+    for (int rot = 0; rot < 4; ++rot) {
+      Polygon w = west, e = east;
+      if (rev) std::reverse(w.vertices.begin(), w.vertices.end());
+      std::rotate(w.vertices.begin(), w.vertices.begin() + rot, w.vertices.end());
+      std::rotate(e.vertices.begin(), e.vertices.begin() + (3 - rot), e.vertices.end());
+      const ClosestPair cp = closest_boundary_points(w, e);
+      EXPECT_NEAR(cp.distance_m, 300.0, 1e-9);
+      EXPECT_NEAR(cp.midpoint().x, 0.0, 1e-9) << "rev " << rev << " rot " << rot;
+      EXPECT_NEAR(cp.midpoint().y, 0.0, 1e-9) << "rev " << rev << " rot " << rot;
+    }
+  // A finger end (x in [-100, 100]) facing the side of a wide gate 300 above it: the middle of the end.
+  const Polygon finger = rect(-100, -2000, 100, 0), side = rect(-3000, 300, 500, 900);
+  const ClosestPair cp = closest_boundary_points(finger, side);
+  EXPECT_NEAR(cp.distance_m, 300.0, 1e-9);
+  EXPECT_NEAR(cp.midpoint().x, 0.0, 1e-9);
+  EXPECT_NEAR(cp.midpoint().y, 150.0, 1e-9);
 }
 
 TEST(Polygon, CrossingBoundariesHaveZeroDistance) {

@@ -122,6 +122,37 @@ void consider_segments(Point a0, Point a1, Point b0, Point b1, ClosestPair& best
 
 }  // namespace
 
+namespace {
+
+// The closest pairs of two segments at distance `dist` (within `tol`): none, one, or, for parallel
+// facing segments, the two ends of the stretch along which they face each other.
+void minimal_pairs(Point a0, Point a1, Point b0, Point b1, double dist, double tol, std::vector<ClosestPair>& out) {
+  const Point cands[4][2] = {{a0, closest_on_segment(a0, b0, b1)},
+                             {a1, closest_on_segment(a1, b0, b1)},
+                             {closest_on_segment(b0, a0, a1), b0},
+                             {closest_on_segment(b1, a0, a1), b1}};
+  std::vector<ClosestPair> here;
+  for (const auto& c : cands)
+    if (distance(c[0], c[1]) <= dist + tol) here.push_back({c[0], c[1], dist});
+  if (here.empty()) return;
+  // The extreme two along the stretch (all lie on one line when there are several).
+  std::size_t i0 = 0, i1 = 0;
+  double far = -1.0;
+  for (std::size_t i = 0; i < here.size(); ++i)
+    for (std::size_t j = i + 1; j < here.size(); ++j) {
+      const double dd = distance(here[i].midpoint(), here[j].midpoint());
+      if (dd > far) {
+        far = dd;
+        i0 = i;
+        i1 = j;
+      }
+    }
+  out.push_back(here[i0]);
+  out.push_back(here[i1]);  // equal to the first when the closest pair is unique
+}
+
+}  // namespace
+
 ClosestPair closest_boundary_points(const Polygon& a, const Polygon& b, const std::vector<std::size_t>& b_edges) {
   ClosestPair best{{}, {}, std::numeric_limits<double>::infinity()};
   const auto& va = a.vertices;
@@ -129,6 +160,39 @@ ClosestPair closest_boundary_points(const Polygon& a, const Polygon& b, const st
   for (std::size_t i = 0; i < va.size() && best.distance_m > 0.0; ++i)
     for (std::size_t j : b_edges)
       consider_segments(va[i], va[(i + 1) % va.size()], vb[j], vb[(j + 1) % vb.size()], best);
+  if (!(best.distance_m > 0.0) || !std::isfinite(best.distance_m)) return best;
+  // Facing parallel edges (square finger ends) are equally close all along the stretch where they
+  // face each other; the first pair found would be a corner, which depends on the vertex order. Take
+  // the middle of the set of closest pairs instead: each edge pair contributes a stretch (two ends,
+  // equal for a unique pair); the pair nearest to their length-weighted centre is returned.
+  const double tol = 1e-7 * best.distance_m;
+  std::vector<ClosestPair> ends;
+  for (std::size_t i = 0; i < va.size(); ++i)
+    for (std::size_t j : b_edges)
+      minimal_pairs(va[i], va[(i + 1) % va.size()], vb[j], vb[(j + 1) % vb.size()], best.distance_m, tol, ends);
+  double wsum = 0.0, cx = 0.0, cy = 0.0;
+  for (std::size_t k = 0; k + 1 < ends.size(); k += 2) {
+    const Point m0 = ends[k].midpoint(), m1 = ends[k + 1].midpoint();
+    const double w = distance(m0, m1) + 1e-12 * best.distance_m;
+    cx += w * 0.5 * (m0.x + m1.x);
+    cy += w * 0.5 * (m0.y + m1.y);
+    wsum += w;
+  }
+  const Point centre{cx / wsum, cy / wsum};
+  double nearest = std::numeric_limits<double>::infinity();
+  for (std::size_t k = 0; k + 1 < ends.size(); k += 2) {
+    const Point m0 = ends[k].midpoint(), m1 = ends[k + 1].midpoint();
+    const Point on = closest_on_segment(centre, m0, m1);
+    const double dd = distance(on, centre);
+    if (dd >= nearest) continue;
+    nearest = dd;
+    const double len = distance(m0, m1);
+    const double t = len > 0.0 ? distance(on, m0) / len : 0.0;
+    best.on_a = {ends[k].on_a.x + t * (ends[k + 1].on_a.x - ends[k].on_a.x),
+                 ends[k].on_a.y + t * (ends[k + 1].on_a.y - ends[k].on_a.y)};
+    best.on_b = {ends[k].on_b.x + t * (ends[k + 1].on_b.x - ends[k].on_b.x),
+                 ends[k].on_b.y + t * (ends[k + 1].on_b.y - ends[k].on_b.y)};
+  }
   return best;
 }
 

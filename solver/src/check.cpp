@@ -8,6 +8,7 @@
 
 #include "hallway/constants.hpp"
 #include "hallway/geometry/exact.hpp"
+#include "hallway/saddle.hpp"
 #include "hallway/units.hpp"
 
 namespace hallway {
@@ -162,7 +163,10 @@ CheckResult CheckDesign(const Design& d, const CheckOptions& opt) {
           k.where);
       continue;
     }
-    if (!against_mesa) gap.bare_pinch_off_V = BareSplitGatePinchOff_V(vdep, cp.distance_m, d.heterostructure.depth_m);
+    if (const auto bare = FindBarePinchOff(d, k, cp)) {
+      gap.bare_pinch_off_V = bare->voltage_V;
+      gap.bare_saddle = bare->saddle;
+    }
     if (cp.distance_m > opt.wide_gap_in_depths * d.heterostructure.depth_m)
       add(Severity::kWarning, "constriction-wide",
           "constriction " + k.name + " has a gap of " + units::FormatSI(cp.distance_m, "m") + ", more than " +

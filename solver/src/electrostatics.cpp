@@ -69,23 +69,22 @@ int fft_size(int n) {
 std::mutex fftw_planner_mutex;  // FFTW planning is not thread-safe
 }  // namespace
 
-struct ElectrostaticProblem::Impl {
+namespace {
+
+// The image kernel h^2 K on a grid of nx x ny cells of size h, applied by a zero-padded FFT. The
+// self cell and its near neighbours hold the cell average of the kernel; farther cells the point value.
+struct KernelGrid {
   int nx = 0, ny = 0, px = 0, py = 0;
-  double h = 0.0, x0 = 0.0, y0 = 0.0;
-  double beta = 0.0;                          // e^2 D
-  double ef0 = 0.0, ns = 0.0;                 // E_F0, n_s
-  std::vector<char> free;                     // cell may hold electrons
-  std::vector<double> chi;                    // background on the mesa
-  std::vector<std::vector<double>> unit_phi;  // per gate, phi / V
-  std::vector<double> k_direct;               // kernel by offset, (2ny-1) x (2nx-1), for the direct sum
-  std::vector<double> khat, phat;             // transforms: kernel; 1 / (1 + beta khat)
+  double h = 0.0;
+  std::vector<double> khat;  // transform of the kernel (real: the kernel is even)
   mutable std::vector<double> real;
   fftw_complex* spec = nullptr;
   fftw_plan forward = nullptr, backward = nullptr;
-  mutable int applications = 0;
-  ElectrostaticsOptions opt;
 
-  ~Impl() {
+  KernelGrid() = default;
+  KernelGrid(const KernelGrid&) = delete;
+  KernelGrid& operator=(const KernelGrid&) = delete;
+  ~KernelGrid() {
     std::lock_guard<std::mutex> lock(fftw_planner_mutex);
     if (forward) fftw_destroy_plan(forward);
     if (backward) fftw_destroy_plan(backward);
@@ -95,8 +94,63 @@ struct ElectrostaticProblem::Impl {
   std::size_t half() const { return static_cast<std::size_t>(py) * static_cast<std::size_t>(px / 2 + 1); }
   std::size_t n() const { return static_cast<std::size_t>(nx) * static_cast<std::size_t>(ny); }
 
+  // Kernel h^2 K(r) of cell offset (di, dj), in V m^2 / C times 1 / (4 pi eps) already applied.
+  static double Kernel(int di, int dj, double h, double depth, double eps) {
+    const double pref = 1.0 / (4.0 * std::numbers::pi * eps);
+    auto point_kernel = [&](double r) { return 1.0 / r - 1.0 / std::sqrt(r * r + 4.0 * depth * depth); };
+    if (di == 0 && dj == 0) return pref * (4.0 * h * std::log(1.0 + std::numbers::sqrt2) - h * h / (2.0 * depth));
+    if (std::abs(di) <= 3 && std::abs(dj) <= 3) {
+      // Near cells: the cell average of the kernel by an 8 x 8 midpoint rule.
+      double sum = 0.0;
+      for (int a = 0; a < 8; ++a)
+        for (int b = 0; b < 8; ++b)
+          sum += point_kernel(h * std::hypot(di + (a + 0.5) / 8.0 - 0.5, dj + (b + 0.5) / 8.0 - 0.5));
+      return pref * h * h * sum / 64.0;
+    }
+    // Farther cells: the cell average to fourth order, point value + (h^2 / 24) laplacian (the midpoint
+    // rule's leading correction). The point value alone would miss about h / (144 d) of the kernel's
+    // integral d / eps (1/r is convex), which moves every depletion voltage by that fraction.
+    const double r = h * std::hypot(static_cast<double>(di), static_cast<double>(dj));
+    const double r2 = r * r, big2 = r2 + 4.0 * depth * depth, big = std::sqrt(big2);
+    const double laplacian = 1.0 / (r2 * r) - (r2 - 8.0 * depth * depth) / (big2 * big2 * big);
+    return pref * h * h * (point_kernel(r) + h * h / 24.0 * laplacian);
+  }
+
+  // Plans the transforms and transforms the kernel; `direct`, when given, receives the kernel by
+  // offset, (2 ny - 1) x (2 nx - 1), for the direct sum of the tests.
+  void Build(int nx_, int ny_, double h_, double depth, double eps, int threads, std::vector<double>* direct) {
+    nx = nx_;
+    ny = ny_;
+    h = h_;
+    // Zero padding to at least twice the grid makes the circular convolution an aperiodic one; pad
+    // to a size with small prime factors, for which FFTW is fastest.
+    px = fft_size(2 * nx);
+    py = fft_size(2 * ny);
+    real.assign(static_cast<std::size_t>(px) * py, 0.0);
+    if (direct) direct->assign(static_cast<std::size_t>(2 * nx - 1) * static_cast<std::size_t>(2 * ny - 1), 0.0);
+    for (int dj = -(ny - 1); dj <= ny - 1; ++dj)
+      for (int di = -(nx - 1); di <= nx - 1; ++di) {
+        const double k = Kernel(di, dj, h, depth, eps);
+        if (direct) (*direct)[static_cast<std::size_t>(dj + ny - 1) * (2 * nx - 1) + (di + nx - 1)] = k;
+        const int wi = (di + px) % px, wj = (dj + py) % py;
+        real[static_cast<std::size_t>(wj) * px + wi] = k;
+      }
+    {
+      std::call_once(fftw_threads_once, [] { fftw_init_threads(); });
+      std::lock_guard<std::mutex> lock(fftw_planner_mutex);
+      fftw_plan_with_nthreads(threads);
+      spec = fftw_alloc_complex(half());
+      std::vector<double> scratch(real.size());
+      forward = fftw_plan_dft_r2c_2d(py, px, scratch.data(), spec, FFTW_ESTIMATE);
+      backward = fftw_plan_dft_c2r_2d(py, px, spec, scratch.data(), FFTW_ESTIMATE);
+    }
+    fftw_execute_dft_r2c(forward, real.data(), spec);
+    khat.resize(half());
+    for (std::size_t k = 0; k < half(); ++k) khat[k] = spec[k][0];
+  }
+
   // out = (transform^-1 (weights * transform(pad(in))))[crop]
-  void convolve(const std::vector<double>& in, const std::vector<double>& weights, std::vector<double>& out) const {
+  void Convolve(const std::vector<double>& in, const std::vector<double>& weights, std::vector<double>& out) const {
     std::fill(real.begin(), real.end(), 0.0);
     for (int j = 0; j < ny; ++j)
       for (int i = 0; i < nx; ++i)
@@ -113,19 +167,149 @@ struct ElectrostaticProblem::Impl {
       for (int i = 0; i < nx; ++i)
         out[static_cast<std::size_t>(j) * nx + i] = real[static_cast<std::size_t>(j) * px + i];
   }
+};
+
+// The 2DEG outside a window, held at its local-capacitance density u = [1 - phi_g / V_dep]_+ (the
+// Thomas-Fermi density of a uniform gate, physics of the plate capacitor with quantum capacitance;
+// exact far from edges) on a coarse grid of the whole mesa, whose cells tile the window exactly.
+// Its net charge (u - chi) outside the window acts on the window through the image kernel.
+struct Exterior {
+  KernelGrid grid;
+  double x0 = 0.0, y0 = 0.0;                  // centre of coarse cell (0, 0)
+  std::vector<char> outside;                  // coarse cell outside the window
+  std::vector<char> free;                     // may hold electrons
+  std::vector<double> chi;                    // background on the mesa
+  std::vector<std::vector<double>> unit_phi;  // per gate
+  double vdep = 0.0;
+};
+
+}  // namespace
+
+struct ElectrostaticProblem::Impl {
+  int nx = 0, ny = 0;
+  double h = 0.0, x0 = 0.0, y0 = 0.0;
+  double beta = 0.0;                          // e^2 D
+  double ef0 = 0.0, ns = 0.0;                 // E_F0, n_s
+  std::vector<char> free;                     // cell may hold electrons
+  std::vector<double> chi;                    // background on the mesa
+  std::vector<std::vector<double>> unit_phi;  // per gate, phi / V
+  std::vector<double> k_direct;               // kernel by offset, (2ny-1) x (2nx-1), for the direct sum
+  std::vector<double> phat;                   // 1 / (1 + beta khat)
+  KernelGrid grid;
+  std::unique_ptr<Exterior> exterior;  // windows only
+  mutable int applications = 0;
+  ElectrostaticsOptions opt;
+
+  std::size_t n() const { return grid.n(); }
+  void convolve(const std::vector<double>& in, const std::vector<double>& weights, std::vector<double>& out) const {
+    grid.Convolve(in, weights, out);
+  }
 
   // H u = u + beta K u.
   void apply(const std::vector<double>& u, std::vector<double>& out) const {
     ++applications;
-    convolve(u, khat, out);
+    convolve(u, grid.khat, out);
     for (std::size_t i = 0; i < n(); ++i) out[i] = u[i] + beta * out[i];
   }
+
+  // beta K (chi - u) of the charge outside the window, at the window's cells (empty without one).
+  std::vector<double> ExteriorTerm(const std::vector<double>& volts) const;
 };
 
+std::vector<double> ElectrostaticProblem::Impl::ExteriorTerm(const std::vector<double>& volts) const {
+  if (!exterior) return {};
+  const Exterior& e = *exterior;
+  const std::size_t nc = e.grid.n();
+  std::vector<double> sigma(nc, 0.0), pot;
+  for (std::size_t c = 0; c < nc; ++c) {
+    if (!e.outside[c]) continue;
+    double phi = 0.0;
+    for (std::size_t g = 0; g < volts.size(); ++g) phi += volts[g] * e.unit_phi[g][c];
+    const double u = e.free[c] ? std::max(0.0, 1.0 - phi / e.vdep) : 0.0;
+    sigma[c] = e.chi[c] - u;
+  }
+  e.grid.Convolve(sigma, e.grid.khat, pot);
+  std::vector<double> out(n(), 0.0);
+  for (int j = 0; j < ny; ++j)
+    for (int i = 0; i < nx; ++i) {
+      // Bilinear interpolation between coarse cell centres.
+      const double fx = (x0 + i * h - e.x0) / e.grid.h, fy = (y0 + j * h - e.y0) / e.grid.h;
+      const int ci = std::clamp(static_cast<int>(std::floor(fx)), 0, e.grid.nx - 2);
+      const int cj = std::clamp(static_cast<int>(std::floor(fy)), 0, e.grid.ny - 2);
+      const double tx = std::clamp(fx - ci, 0.0, 1.0), ty = std::clamp(fy - cj, 0.0, 1.0);
+      auto at = [&](int a, int b) { return pot[static_cast<std::size_t>(b) * e.grid.nx + a]; };
+      out[static_cast<std::size_t>(j) * nx + i] =
+          beta * ((1 - tx) * (1 - ty) * at(ci, cj) + tx * (1 - ty) * at(ci + 1, cj) + (1 - tx) * ty * at(ci, cj + 1) +
+                  tx * ty * at(ci + 1, cj + 1));
+    }
+  return out;
+}
+
+namespace {
+
+struct Box {
+  double xmin, ymin, xmax, ymax;
+};
+
+// The cell size, number of cells and origin of the grid over `box` (plus `margin` on every side).
+struct GridChoice {
+  double h = 0.0;
+  double cells_x = 0.0, cells_y = 0.0;
+};
+
+GridChoice ChooseGrid(const Design& d, const ElectrostaticsOptions& opt, double w, double hgt) {
+  GridChoice c;
+  if (opt.grid_m > 0.0) {
+    c.h = opt.grid_m;
+  } else {
+    // Resolve the 2DEG depth and every constriction gap with a few cells, within a million cells.
+    double h = d.heterostructure.depth_m / 3.0;
+    for (const Constriction& k : d.constrictions)
+      if (const auto gap = FindGap(d, k, nullptr)) h = std::min(h, gap->distance_m / 6.0);
+    c.h = std::max({h, 5e-9, std::sqrt(w * hgt / 1e6)});
+  }
+  c.cells_x = std::ceil(w / c.h);
+  c.cells_y = std::ceil(hgt / c.h);
+  return c;
+}
+
+// Throws GridTooLarge when nx x ny cells (with `extra` bytes besides) exceed the limit.
+void CheckMemory(double cells_x, double cells_y, double h, int gates, std::size_t extra, std::size_t limit) {
+  auto fitting_cell = [&](double need) { return h * std::sqrt(need / static_cast<double>(limit)) * 1.05; };
+  auto mib = [](double bytes) { return std::to_string(static_cast<long long>(std::ceil(bytes / 1048576.0))); };
+  if (cells_x > 1e5 || cells_y > 1e5) {
+    const double need =
+        static_cast<double>(ElectrostaticMemoryEstimate(100000, 100000, gates)) * (cells_x / 1e5) * (cells_y / 1e5);
+    throw GridTooLarge("the electrostatic grid of " + std::to_string(static_cast<long long>(cells_x)) + " x " +
+                           std::to_string(static_cast<long long>(cells_y)) +
+                           " cells is too large (more than 100000 a side)",
+                       0, 0, h, static_cast<std::size_t>(std::min(need, 1e19)), limit, fitting_cell(need));
+  }
+  const int nx = std::max(4, static_cast<int>(cells_x)), ny = std::max(4, static_cast<int>(cells_y));
+  const std::size_t need = ElectrostaticMemoryEstimate(nx, ny, gates) + extra;
+  if (need > limit)
+    throw GridTooLarge("the electrostatic grid of " + std::to_string(nx) + " x " + std::to_string(ny) +
+                           " cells needs about " + mib(static_cast<double>(need)) + " MiB, above the limit of " +
+                           mib(static_cast<double>(limit)) + " MiB",
+                       nx, ny, h, need, limit, fitting_cell(static_cast<double>(need)));
+}
+
+}  // namespace
+
 ElectrostaticProblem::ElectrostaticProblem(const Design& d, const ElectrostaticsOptions& opt)
+    : ElectrostaticProblem(d, opt, nullptr) {}
+
+ElectrostaticProblem::ElectrostaticProblem(const Design& d, const ElectrostaticsOptions& opt,
+                                           const ElectrostaticWindow& window)
+    : ElectrostaticProblem(d, opt, &window) {}
+
+ElectrostaticProblem::ElectrostaticProblem(const Design& d, const ElectrostaticsOptions& opt,
+                                           const ElectrostaticWindow* window)
     : impl_(std::make_unique<Impl>()) {
   std::string why;
   if (!opt.IsValid(&why)) throw std::invalid_argument("ElectrostaticsOptions: " + why);
+  if (window && !(window->half_x_m > 0.0 && window->half_y_m > 0.0))
+    throw std::invalid_argument("ElectrostaticWindow: the half sizes must be > 0");
   Impl& m = *impl_;
   m.opt = opt;
   const auto& hs = d.heterostructure;
@@ -136,49 +320,28 @@ ElectrostaticProblem::ElectrostaticProblem(const Design& d, const Electrostatics
   m.ef0 = fig.fermi_energy_J;
   m.beta = constants::kElementaryCharge_C * constants::kElementaryCharge_C * fig.density_of_states_per_J_m2;
   const auto bb = geometry::bounding_box(d.mesa.outline);
-  const double margin = opt.margin_m > 0.0 ? opt.margin_m : 3.0 * depth;
-  const double w = bb.width() + 2 * margin, hgt = bb.height() + 2 * margin;
-  if (opt.grid_m > 0.0) {
-    m.h = opt.grid_m;
-  } else {
-    // Resolve the 2DEG depth and every constriction gap with a few cells, within a million cells.
-    double h = depth / 3.0;
-    for (const Constriction& k : d.constrictions)
-      if (const auto gap = FindGap(d, k, nullptr)) h = std::min(h, gap->distance_m / 6.0);
-    m.h = std::max({h, 5e-9, std::sqrt(w * hgt / 1e6)});
+  Box box{bb.xmin, bb.ymin, bb.xmax, bb.ymax};
+  double margin = opt.margin_m > 0.0 ? opt.margin_m : 3.0 * depth;
+  if (window) {
+    box = {window->centre.x - window->half_x_m, window->centre.y - window->half_y_m,
+           window->centre.x + window->half_x_m, window->centre.y + window->half_y_m};
+    margin = 0.0;
   }
-  const double cells_x = std::ceil(w / m.h), cells_y = std::ceil(hgt / m.h);
+  const double w = box.xmax - box.xmin + 2 * margin, hgt = box.ymax - box.ymin + 2 * margin;
+  const GridChoice grid = ChooseGrid(d, opt, w, hgt);
+  m.h = grid.h;
   const int gates = static_cast<int>(d.gates.size());
-  // The cell size whose grid fits the limit: the estimate grows with the number of cells.
-  auto fitting_cell = [&](double need) {
-    return m.h * std::sqrt(need / static_cast<double>(opt.max_memory_bytes)) * 1.05;
-  };
-  auto mib = [](double bytes) { return std::to_string(static_cast<long long>(std::ceil(bytes / 1048576.0))); };
-  if (cells_x > 1e5 || cells_y > 1e5) {
-    const double need =
-        static_cast<double>(ElectrostaticMemoryEstimate(100000, 100000, gates)) * (cells_x / 1e5) * (cells_y / 1e5);
-    throw GridTooLarge(
-        "the electrostatic grid of " + std::to_string(static_cast<long long>(cells_x)) + " x " +
-            std::to_string(static_cast<long long>(cells_y)) + " cells is too large (more than 100000 a side)",
-        0, 0, m.h, static_cast<std::size_t>(std::min(need, 1e19)), opt.max_memory_bytes, fitting_cell(need));
-  }
-  m.nx = std::max(4, static_cast<int>(cells_x));
-  m.ny = std::max(4, static_cast<int>(cells_y));
-  const std::size_t need = ElectrostaticMemoryEstimate(m.nx, m.ny, gates);
-  if (need > opt.max_memory_bytes)
-    throw GridTooLarge("the electrostatic grid of " + std::to_string(m.nx) + " x " + std::to_string(m.ny) +
-                           " cells needs about " + mib(static_cast<double>(need)) + " MiB, above the limit of " +
-                           mib(static_cast<double>(opt.max_memory_bytes)) + " MiB",
-                       m.nx, m.ny, m.h, need, opt.max_memory_bytes, fitting_cell(static_cast<double>(need)));
-  // Zero padding to at least twice the grid makes the circular convolution an aperiodic one; pad to
-  // a size with small prime factors, for which FFTW is fastest.
-  m.px = fft_size(2 * m.nx);
-  m.py = fft_size(2 * m.ny);
-  // Centre the grid on the mesa, so that a mirror-symmetric layout has a mirror-symmetric grid.
-  m.x0 = 0.5 * (bb.xmin + bb.xmax) - 0.5 * (m.nx - 1) * m.h;
-  m.y0 = 0.5 * (bb.ymin + bb.ymax) - 0.5 * (m.ny - 1) * m.h;
+  CheckMemory(grid.cells_x, grid.cells_y, m.h, gates, 0, opt.max_memory_bytes);
+  m.nx = std::max(4, static_cast<int>(grid.cells_x));
+  m.ny = std::max(4, static_cast<int>(grid.cells_y));
+  // A window's cells tile it exactly (square cells, the finer of the two fits), so that no charge is
+  // counted both inside and outside it.
+  if (window) m.h = std::min(w / m.nx, hgt / m.ny);
+  // Centre the grid on the box, so that a mirror-symmetric layout has a mirror-symmetric grid.
+  m.x0 = 0.5 * (box.xmin + box.xmax) - 0.5 * (m.nx - 1) * m.h;
+  m.y0 = 0.5 * (box.ymin + box.ymax) - 0.5 * (m.ny - 1) * m.h;
 
-  const std::size_t n = m.n();
+  const std::size_t n = static_cast<std::size_t>(m.nx) * static_cast<std::size_t>(m.ny);
   m.free.assign(n, 0);
   m.chi.assign(n, 0.0);
   m.unit_phi.assign(d.gates.size(), std::vector<double>(n, 0.0));
@@ -193,47 +356,61 @@ ElectrostaticProblem::ElectrostaticProblem(const Design& d, const Electrostatics
       for (std::size_t g = 0; g < d.gates.size(); ++g)
         m.unit_phi[g][c] = GatePotentialPerVolt(d.gates[g].outline, q, depth);
     }
+  m.grid.Build(m.nx, m.ny, m.h, depth, eps, opt.threads, &m.k_direct);
+  m.phat.resize(m.grid.half());
+  for (std::size_t k = 0; k < m.grid.half(); ++k) m.phat[k] = 1.0 / (1.0 + m.beta * std::max(0.0, m.grid.khat[k]));
+  if (window) BuildExterior(d, *window);
+}
 
-  // Kernel h^2 K(r) by offset; the self cell holds the cell average of 1/r, 4 h ln(1 + sqrt 2) / h^2.
-  const double pref = 1.0 / (4.0 * std::numbers::pi * eps);
-  auto point_kernel = [&](double r) { return 1.0 / r - 1.0 / std::sqrt(r * r + 4.0 * depth * depth); };
-  auto kernel = [&](int di, int dj) {
-    if (di == 0 && dj == 0) return pref * (4.0 * m.h * std::log(1.0 + std::numbers::sqrt2) - m.h * m.h / (2.0 * depth));
-    if (std::abs(di) <= 3 && std::abs(dj) <= 3) {
-      // Near cells: the cell average of the kernel by an 8 x 8 midpoint rule.
-      double sum = 0.0;
-      for (int a = 0; a < 8; ++a)
-        for (int b = 0; b < 8; ++b)
-          sum += point_kernel(m.h * std::hypot(di + (a + 0.5) / 8.0 - 0.5, dj + (b + 0.5) / 8.0 - 0.5));
-      return pref * m.h * m.h * sum / 64.0;
+void ElectrostaticProblem::BuildExterior(const Design& d, const ElectrostaticWindow& win) {
+  Impl& m = *impl_;
+  const double depth = d.heterostructure.depth_m;
+  const double eps = d.heterostructure.permittivity * constants::kVacuumPermittivity_F_per_m;
+  auto e = std::make_unique<Exterior>();
+  e->vdep = DeriveFigures(d.heterostructure, d.conditions.field_T, d.conditions.temperature_K).depletion_voltage_V;
+  // Coarse cells of about a depth (the exterior acts from at least a window's half size away), a whole
+  // number of them across the window, and at most about 4e5 cells (or 2e7 cell-gates) over the mesa.
+  const auto bb = geometry::bounding_box(d.mesa.outline);
+  const double area =
+      (std::max(bb.xmax, win.centre.x + win.half_x_m) - std::min(bb.xmin, win.centre.x - win.half_x_m)) *
+      (std::max(bb.ymax, win.centre.y + win.half_y_m) - std::min(bb.ymin, win.centre.y - win.half_y_m));
+  const double cap = std::min(4e5, 2e7 / std::max<std::size_t>(1, d.gates.size()));
+  const double hc = std::max({depth, m.h, std::sqrt(area / cap)});
+  const int mx = std::max(1, static_cast<int>(std::round(2.0 * win.half_x_m / hc)));
+  const int my = std::max(1, static_cast<int>(std::round(2.0 * win.half_y_m / hc)));
+  const double hx = 2.0 * win.half_x_m / mx, hy = 2.0 * win.half_y_m / my;
+  const double h = std::max(hx, hy);  // square cells; the window's far side may be cut a fraction short
+  const double wx0 = win.centre.x - win.half_x_m, wy0 = win.centre.y - win.half_y_m;
+  const int left = static_cast<int>(std::ceil(std::max(0.0, wx0 - bb.xmin) / h)) + 1;
+  const int below = static_cast<int>(std::ceil(std::max(0.0, wy0 - bb.ymin) / h)) + 1;
+  const int right = static_cast<int>(std::ceil(std::max(0.0, bb.xmax - (win.centre.x + win.half_x_m)) / h)) + 1;
+  const int above = static_cast<int>(std::ceil(std::max(0.0, bb.ymax - (win.centre.y + win.half_y_m)) / h)) + 1;
+  const int nx = left + mx + right, ny = below + my + above;
+  CheckMemory(nx, ny, h, static_cast<int>(d.gates.size()), ElectrostaticMemoryEstimate(m.nx, m.ny, 0),
+              m.opt.max_memory_bytes);
+  e->x0 = wx0 - (left - 0.5) * h;
+  e->y0 = wy0 - (below - 0.5) * h;
+  const std::size_t n = static_cast<std::size_t>(nx) * static_cast<std::size_t>(ny);
+  e->outside.assign(n, 1);
+  e->free.assign(n, 0);
+  e->chi.assign(n, 0.0);
+  e->unit_phi.assign(d.gates.size(), std::vector<double>(n, 0.0));
+  for (int j = 0; j < ny; ++j)
+    for (int i = 0; i < nx; ++i) {
+      const std::size_t c = static_cast<std::size_t>(j) * nx + i;
+      if (i >= left && i < left + mx && j >= below && j < below + my) {
+        e->outside[c] = 0;
+        continue;
+      }
+      const Point q{e->x0 + i * h, e->y0 + j * h};
+      if (!geometry::contains(d.mesa.outline, q)) continue;
+      e->chi[c] = 1.0;
+      e->free[c] = geometry::distance_to_boundary(d.mesa.outline, q) >= d.mesa.etch_depletion_m;
+      for (std::size_t g = 0; g < d.gates.size(); ++g)
+        e->unit_phi[g][c] = GatePotentialPerVolt(d.gates[g].outline, q, depth);
     }
-    return pref * m.h * m.h * point_kernel(m.h * std::hypot(static_cast<double>(di), static_cast<double>(dj)));
-  };
-  m.k_direct.assign(static_cast<std::size_t>(2 * m.nx - 1) * static_cast<std::size_t>(2 * m.ny - 1), 0.0);
-  m.real.assign(static_cast<std::size_t>(m.px) * m.py, 0.0);
-  for (int dj = -(m.ny - 1); dj <= m.ny - 1; ++dj)
-    for (int di = -(m.nx - 1); di <= m.nx - 1; ++di) {
-      const double k = kernel(di, dj);
-      m.k_direct[static_cast<std::size_t>(dj + m.ny - 1) * (2 * m.nx - 1) + (di + m.nx - 1)] = k;
-      const int wi = (di + m.px) % m.px, wj = (dj + m.py) % m.py;
-      m.real[static_cast<std::size_t>(wj) * m.px + wi] = k;
-    }
-  {
-    std::call_once(fftw_threads_once, [] { fftw_init_threads(); });
-    std::lock_guard<std::mutex> lock(fftw_planner_mutex);
-    fftw_plan_with_nthreads(opt.threads);
-    m.spec = fftw_alloc_complex(m.half());
-    std::vector<double> scratch(m.real.size());
-    m.forward = fftw_plan_dft_r2c_2d(m.py, m.px, scratch.data(), m.spec, FFTW_ESTIMATE);
-    m.backward = fftw_plan_dft_c2r_2d(m.py, m.px, m.spec, scratch.data(), FFTW_ESTIMATE);
-  }
-  fftw_execute_dft_r2c(m.forward, m.real.data(), m.spec);
-  m.khat.resize(m.half());
-  m.phat.resize(m.half());
-  for (std::size_t k = 0; k < m.half(); ++k) {
-    m.khat[k] = m.spec[k][0];  // the kernel is even: its transform is real
-    m.phat[k] = 1.0 / (1.0 + m.beta * std::max(0.0, m.khat[k]));
-  }
+  e->grid.Build(nx, ny, h, depth, eps, m.opt.threads, nullptr);
+  m.exterior = std::move(e);
 }
 
 ElectrostaticProblem::~ElectrostaticProblem() = default;
@@ -247,7 +424,11 @@ double ElectrostaticProblem::cell_m() const {
   return impl_->h;
 }
 std::size_t ElectrostaticProblem::memory_bytes() const {
-  return ElectrostaticMemoryEstimate(impl_->nx, impl_->ny, static_cast<int>(impl_->unit_phi.size()));
+  std::size_t bytes = ElectrostaticMemoryEstimate(impl_->nx, impl_->ny, static_cast<int>(impl_->unit_phi.size()));
+  if (impl_->exterior)
+    bytes += ElectrostaticMemoryEstimate(impl_->exterior->grid.nx, impl_->exterior->grid.ny,
+                                         static_cast<int>(impl_->unit_phi.size()));
+  return bytes;
 }
 
 std::vector<double> ElectrostaticProblem::ApplyOperator(const std::vector<double>& u) const {
@@ -279,12 +460,14 @@ DensityMap ElectrostaticProblem::Solve(const std::vector<double>& volts, const D
   const std::size_t n = m.n();
   m.applications = 0;
   // b = 1 + e phi_g / E_F0 + beta K chi.
+  // A window adds beta K (chi - u) of the 2DEG held outside it.
   std::vector<double> b;
-  m.convolve(m.chi, m.khat, b);
+  m.convolve(m.chi, m.grid.khat, b);
+  const std::vector<double> outside = m.ExteriorTerm(volts);
   for (std::size_t c = 0; c < n; ++c) {
     double phi = 0.0;
     for (std::size_t g = 0; g < volts.size(); ++g) phi += volts[g] * m.unit_phi[g][c];
-    b[c] = 1.0 + constants::kElementaryCharge_C * phi / m.ef0 + m.beta * b[c];
+    b[c] = 1.0 + constants::kElementaryCharge_C * phi / m.ef0 + m.beta * b[c] + (outside.empty() ? 0.0 : outside[c]);
   }
   std::vector<double> u(n, 0.0);
   if (start && start->density_per_m2.size() == n) {
@@ -301,7 +484,7 @@ DensityMap ElectrostaticProblem::Solve(const std::vector<double>& volts, const D
   int steps = 0;
   // Spectrum of H on the padded grid: 1 + beta min(khat) <= lambda <= 1 + beta max(khat).
   double kmax = 0.0, kmin = HUGE_VAL;
-  for (double k : m.khat) {
+  for (double k : m.grid.khat) {
     kmax = std::max(kmax, k);
     kmin = std::min(kmin, k);
   }

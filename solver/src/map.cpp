@@ -10,6 +10,7 @@
 #include "hallway/constants.hpp"
 #include "hallway/geometry/region.hpp"
 #include "hallway/heterostructure.hpp"
+#include "hallway/saddle.hpp"
 #include "hallway/units.hpp"
 
 namespace hallway {
@@ -29,18 +30,6 @@ bool MapOptions::IsValid(std::string* why) const {
   if (!(empty_fraction > 0.0 && empty_fraction < 0.5)) return bad("empty_fraction must lie in (0, 0.5)");
   if (!(search_limit_V < 0.0 && search_limit_V >= -50.0)) return bad("search_limit_V must lie in [-50, 0)");
   return true;
-}
-
-Design LocalWindow(const Design& d, Point c, double hx, double hy) {
-  const Polygon box{{{c.x - hx, c.y - hy}, {c.x + hx, c.y - hy}, {c.x + hx, c.y + hy}, {c.x - hx, c.y + hy}}};
-  const auto pieces = geometry::Region(d.mesa.outline).Intersection(geometry::Region(box)).Pieces();
-  if (pieces.empty()) throw std::invalid_argument("LocalWindow: the window does not meet the mesa");
-  const geometry::PolygonWithHoles* best = &pieces.front();
-  for (const auto& p : pieces)
-    if (geometry::contains(p.outer, c)) best = &p;
-  Design w = d;
-  w.mesa.outline = best->outer;
-  return w;
 }
 
 namespace {
@@ -86,6 +75,56 @@ std::optional<double> find_empty(const std::function<double(double)>& density, d
   return 0.5 * (hi + lo);
 }
 
+// One constriction on its window: the saddle density at the design voltages, the self-consistent
+// pinch-off (both sides together, bisection on the density at the saddle found anew at each voltage)
+// and the bare estimate.
+std::optional<ConstrictionMap> MapConstriction(const Design& d, const Constriction& k, const MapOptions& opt,
+                                               const std::vector<double>& design_volts,
+                                               const std::function<void(const DensityMap&)>& note,
+                                               std::vector<Finding>* findings) {
+  const auto gap = FindGap(d, k, nullptr);
+  if (!gap) return std::nullopt;
+  const double depth = d.heterostructure.depth_m;
+  const double ns = d.heterostructure.density_per_m2;
+  const double vdep =
+      DeriveFigures(d.heterostructure, d.conditions.field_T, d.conditions.temperature_K).depletion_voltage_V;
+  ConstrictionMap cm;
+  cm.name = k.name;
+  cm.gap_m = gap->distance_m;
+  const double half = opt.window_m > 0.0 ? opt.window_m : 0.5 * gap->distance_m + 12.0 * depth;
+  ElectrostaticsOptions lo = opt.electrostatics;
+  lo.grid_m = opt.local_grid_m > 0.0 ? opt.local_grid_m : std::max(2e-9, std::min(depth / 4.0, gap->distance_m / 8.0));
+  const ElectrostaticProblem local(d, lo, ElectrostaticWindow{gap->midpoint(), half, half});
+  const SaddleStrip strip = SaddleStrip::For(d, k, *gap, 0.25 * local.cell_m());
+  const int ga = gate_index(d, k.first), gb = gate_index(d, k.second);
+  DensityMap last = local.Solve(design_volts);
+  note(last);
+  bool ok = last.stats.converged;
+  const Saddle s0 = DensitySaddle(last, strip);
+  cm.saddle = s0.point;
+  cm.saddle_density_per_m2 = ns * std::max(0.0, 1.0 - s0.energy);
+  auto density = [&](double v) {
+    std::vector<double> volts = design_volts;
+    if (ga >= 0) volts[static_cast<std::size_t>(ga)] = v;
+    if (gb >= 0) volts[static_cast<std::size_t>(gb)] = v;
+    last = local.Solve(volts, &last);
+    note(last);
+    ++cm.solves;
+    ok = ok && last.stats.converged;
+    return ns * std::max(0.0, 1.0 - DensitySaddle(last, strip).energy);
+  };
+  cm.pinch_off_V = find_empty(density, opt.empty_fraction * ns, vdep, opt.search_limit_V, opt.pinch_resolution_V);
+  if (const auto bare = FindBarePinchOff(d, k, *gap)) cm.bare_pinch_off_V = bare->voltage_V;
+  if (!ok) {
+    findings->push_back({Severity::kError, "pinch-not-converged",
+                         "constriction " + k.name +
+                             ": a solve of the pinch-off search did not converge; its pinch-off voltage is not given",
+                         k.where});
+    cm.pinch_off_V.reset();
+  }
+  return cm;
+}
+
 }  // namespace
 
 MapResult ComputeMap(const Design& d, const MapOptions& opt) {
@@ -128,46 +167,7 @@ MapResult ComputeMap(const Design& d, const MapOptions& opt) {
   // Constrictions on local windows.
   for (const Constriction& k : d.constrictions) {
     report("pinch-off of " + k.name);
-    ConstrictionMap cm;
-    cm.name = k.name;
-    const auto gap = FindGap(d, k, nullptr);
-    if (!gap) continue;
-    cm.gap_m = gap->distance_m;
-    const Point mid = gap->midpoint();
-    const double half = opt.window_m > 0.0 ? opt.window_m : 0.5 * gap->distance_m + 12.0 * depth;
-    const Design w = LocalWindow(d, mid, half, half);
-    ElectrostaticsOptions lo = opt.electrostatics;
-    lo.grid_m =
-        opt.local_grid_m > 0.0 ? opt.local_grid_m : std::max(2e-9, std::min(depth / 4.0, gap->distance_m / 8.0));
-    lo.margin_m = 0.0;
-    const ElectrostaticProblem local(w, lo);
-    const int ga = gate_index(d, k.first), gb = gate_index(d, k.second);
-    DensityMap last = local.Solve(design_volts);
-    note(last);
-    cm.saddle_density_per_m2 = last.At(mid);
-    bool ok = last.stats.converged;
-    auto density = [&](double v) {
-      std::vector<double> volts = design_volts;
-      if (ga >= 0) volts[static_cast<std::size_t>(ga)] = v;
-      if (gb >= 0) volts[static_cast<std::size_t>(gb)] = v;
-      last = local.Solve(volts, &last);
-      note(last);
-      ++cm.solves;
-      ok = ok && last.stats.converged;
-      return last.At(mid);
-    };
-    cm.pinch_off_V = find_empty(density, empty, fig.depletion_voltage_V, opt.search_limit_V, opt.pinch_resolution_V);
-    if (ga >= 0 && gb >= 0)
-      cm.bare_pinch_off_V = BareSplitGatePinchOff_V(fig.depletion_voltage_V, gap->distance_m, depth);
-    if (!ok) {
-      r.findings.push_back(
-          {Severity::kError, "pinch-not-converged",
-           "constriction " + k.name +
-               ": a solve of the pinch-off search did not converge; its pinch-off voltage is not given",
-           k.where});
-      cm.pinch_off_V.reset();
-    }
-    r.constrictions.push_back(cm);
+    if (auto cm = MapConstriction(d, k, opt, design_volts, note, &r.findings)) r.constrictions.push_back(*cm);
   }
 
   // Gates: depletion at actual size (alone, the others at 0 V) and the edge at the design voltage.
@@ -195,11 +195,9 @@ MapResult ComputeMap(const Design& d, const MapOptions& opt) {
       }
     if (best > 0.0) {
       const double half = opt.window_m > 0.0 ? opt.window_m : 15.0 * depth;
-      const Design w = LocalWindow(d, deepest, half, half);
       ElectrostaticsOptions lo = opt.electrostatics;
       lo.grid_m = opt.local_grid_m > 0.0 ? opt.local_grid_m : depth / 3.0;
-      lo.margin_m = 0.0;
-      const ElectrostaticProblem local(w, lo);
+      const ElectrostaticProblem local(d, lo, ElectrostaticWindow{deepest, half, half});
       DensityMap last;
       bool have = false, ok = true;
       auto density = [&](double v) {

@@ -14,6 +14,7 @@
 #include "hallway/geometry/exact.hpp"
 #include "hallway/geometry/point_index.hpp"
 #include "hallway/heterostructure.hpp"
+#include "hallway/saddle.hpp"
 #include "hallway/units.hpp"
 
 namespace hallway {
@@ -53,6 +54,64 @@ std::string fmt_g(double x) {
   char buf[32];
   std::snprintf(buf, sizeof buf, "%.3g", x);
   return buf;
+}
+
+// The local filling nu n / n_s... at p: n h / (e |B|) from the density map.
+double FillingAt(const DensityMap& m, const Design& d, Point p) {
+  return m.At(p) * constants::kPlanck_Js / (constants::kElementaryCharge_C * std::abs(d.conditions.field_T));
+}
+
+// The slit of constriction k: across its gap through the saddle, reaching through the grown depletion
+// into each side so that it always cuts the channel.
+ChannelGeometry::Slit MakeSlit(const Design& d, const Constriction& k, const NetworkOptions& opt,
+                               const std::vector<double>& lateral_depletion_m, const std::vector<double>& volts) {
+  ChannelGeometry::Slit s;
+  const auto cp = FindGap(d, k, nullptr);
+  if (!cp) return s;
+  s.gap_m = cp->distance_m;
+  const Point u{(cp->on_b.x - cp->on_a.x) / s.gap_m, (cp->on_b.y - cp->on_a.y) / s.gap_m};
+  s.n = {-u.y, u.x};
+  const double step = std::min(s.gap_m, d.heterostructure.depth_m) / 8.0;
+  const SaddleStrip st = SaddleStrip::For(d, k, *cp, opt.density ? 0.5 * opt.density->cell_m : step);
+  const Saddle sd = opt.density ? DensitySaddle(*opt.density, st) : BareSaddle(d, st, volts);
+  s.centre = sd.found ? sd.point : cp->midpoint();
+  // The slit runs along the gap segment, moved along the current to pass through the saddle.
+  const double shift = (s.centre.x - cp->midpoint().x) * s.n.x + (s.centre.y - cp->midpoint().y) * s.n.y;
+  s.a = add(cp->on_a, s.n, shift);
+  s.b = add(cp->on_b, s.n, shift);
+  s.half_width_m = opt.slit_fraction * s.gap_m;
+  int ga = -1, gb = -1;
+  for (std::size_t i = 0; i < d.gates.size(); ++i) {
+    if (d.gates[i].name == k.first) ga = static_cast<int>(i);
+    if (d.gates[i].name == k.second) gb = static_cast<int>(i);
+  }
+  s.ext_a_m = (ga >= 0 ? lateral_depletion_m[static_cast<std::size_t>(ga)] : 0.0) + 0.5 * s.gap_m;
+  s.ext_b_m = (gb >= 0 ? lateral_depletion_m[static_cast<std::size_t>(gb)] : d.mesa.etch_depletion_m) + 0.5 * s.gap_m;
+  return s;
+}
+
+Polygon SlitOutline(const ChannelGeometry::Slit& s) {
+  const Point u{s.n.y, -s.n.x};
+  return strip(s.a, s.b, u, s.n, s.ext_a_m, s.ext_b_m, s.half_width_m);
+}
+
+// The corridor that lets a channel through a gap its region closes (the design's transmission then
+// decides what passes): the middle half of the gap, along the current from the saddle out to where the
+// region is open on each side (square finger ends make the gap a channel as long as the finger is
+// wide), plus two slit widths. Where the gap is open it lies inside the region and changes nothing.
+Region Corridor(const ChannelGeometry::Slit& s, const Region& region) {
+  const double h = s.half_width_m;
+  const double cap = 10.0 * s.gap_m + 20.0 * h;
+  auto reach = [&](double sign) {
+    for (double t = 2.0 * h; t <= cap; t += h)
+      if (region.ContainsInterior(add(s.centre, s.n, sign * t))) return t + 2.0 * h;
+    return 2.0 * h;
+  };
+  const double up = reach(1.0), down = reach(-1.0);
+  const Point u{(s.b.x - s.a.x) / s.gap_m, (s.b.y - s.a.y) / s.gap_m};
+  const double w = 0.25 * s.gap_m;
+  const Point lo = add(s.centre, s.n, -down), hi = add(s.centre, s.n, up);
+  return Region(Polygon{{add(lo, u, -w), add(lo, u, w), add(hi, u, w), add(hi, u, -w)}});
 }
 
 }  // namespace
@@ -128,24 +187,12 @@ ChannelGeometry BuildChannelGeometry(const Design& d, const NetworkOptions& opt)
          "the etch depletion (" + units::FormatSI(d.mesa.etch_depletion_m, "m") + ") leaves no 2DEG in the mesa",
          d.mesa.where});
 
-  // Slits across every constriction's gap.
-  for (const Constriction& k : d.constrictions) {
-    ChannelGeometry::Slit s;
-    if (const auto cp = FindGap(d, k, nullptr)) {
-      s.a = cp->on_a;
-      s.b = cp->on_b;
-      s.gap_m = cp->distance_m;
-      const Point u{(s.b.x - s.a.x) / s.gap_m, (s.b.y - s.a.y) / s.gap_m};
-      s.n = {-u.y, u.x};
-      s.half_width_m = opt.slit_fraction * s.gap_m;
-      // Reach through the grown depletion into each side, so the slit always cuts the channel.
-      const int ga = gate_index(k.first), gb = gate_index(k.second);
-      s.ext_a_m = (ga >= 0 ? g.lateral_depletion_m[static_cast<std::size_t>(ga)] : 0.0) + 0.5 * s.gap_m;
-      s.ext_b_m =
-          (gb >= 0 ? g.lateral_depletion_m[static_cast<std::size_t>(gb)] : d.mesa.etch_depletion_m) + 0.5 * s.gap_m;
-    }
-    g.slits.push_back(s);
-  }
+  // Slits across every constriction's gap, through its saddle (saddle.hpp): of the self-consistent
+  // density when one is given, else of the bare gate potential at the design voltages.
+  std::vector<double> design_volts;
+  for (const Gate& gate : d.gates) design_volts.push_back(gate.voltage_V);
+  for (const Constriction& k : d.constrictions)
+    g.slits.push_back(MakeSlit(d, k, opt, g.lateral_depletion_m, design_volts));
 
   Fraction cumulative{0, 1};
   for (std::size_t ch = 0; ch < d.channels.size(); ++ch) {
@@ -199,7 +246,7 @@ ChannelGeometry BuildChannelGeometry(const Design& d, const NetworkOptions& opt)
         cr.estimate_open.push_back(false);
         continue;
       }
-      const Point mid{(s.a.x + s.b.x) / 2, (s.a.y + s.b.y) / 2};
+      const Point mid = s.centre;
       const bool open = bare.ContainsInterior(mid);
       cr.estimate_open.push_back(open);
       const int ga = gate_index(k.first), gb = gate_index(k.second);
@@ -219,21 +266,23 @@ ChannelGeometry BuildChannelGeometry(const Design& d, const NetworkOptions& opt)
                k.where);
         continue;
       }
+      const std::string model =
+          opt.density ? "the self-consistent density (on the whole-mesa grid; at its saddle, local filling " +
+                            fmt_g(FillingAt(*opt.density, d, mid)) + " against the level " + fmt_g(level) +
+                            " where this channel's boundary runs)"
+                      : "the bare depletion estimate";
       if (!open && t > 0.0)
         warn("estimate-closes",
-             "constriction " + k.name + ": the depletion estimate closes the gap for " + chname +
-                 ", but the design gives transmission " + fmt_g(t) + "; the design's value is used",
+             "constriction " + k.name + ": " + model + " closes the gap for " + chname +
+                 " at the design voltages, but the design gives transmission " + fmt_g(t) +
+                 "; the design's value is used (the channel is let through the gap)",
              k.where);
       if (open && t == 0.0)
         warn("estimate-opens",
-             "constriction " + k.name + ": the depletion estimate leaves the gap open for " + chname +
+             "constriction " + k.name + ": " + model + " leaves the gap open for " + chname +
                  ", but the design gives transmission 0; the design's value is used",
              k.where);
-      const Point u{s.n.y, -s.n.x};
-      const double h = s.half_width_m;
-      const Region corridor = Region(strip(s.a, s.b, u, s.n, 0.0, 0.0, 2.0 * h)).Intersection(mesa);
-      const Region slit(strip(s.a, s.b, u, s.n, s.ext_a_m, s.ext_b_m, h));
-      r = r.Union(corridor).Difference(slit);
+      r = r.Union(Corridor(s, bare).Intersection(mesa)).Difference(Region(SlitOutline(s)));
       cr.slit_constrictions.push_back(static_cast<int>(ki));
     }
     cr.region = std::move(r);

@@ -13,6 +13,7 @@
 #include "hallway/geometry/exact.hpp"
 #include "hallway/heterostructure.hpp"
 #include "hallway/map.hpp"
+#include "hallway/saddle.hpp"
 
 namespace hallway {
 
@@ -287,12 +288,11 @@ void ComputeConstrictionModels(const Design& d, const PathOptions& opt, PathResu
     const Point u{(gap->on_b.x - gap->on_a.x) / gap->distance_m, (gap->on_b.y - gap->on_a.y) / gap->distance_m};
     const Point nrm{-u.y, u.x};
     const double half = 0.5 * gap->distance_m + 12.0 * depth;
-    const Design w = LocalWindow(d, mid, half, half);
     ElectrostaticsOptions lo;
     lo.max_memory_bytes = opt.max_memory_bytes;
     lo.grid_m = std::max(2e-9, std::min(depth / 4.0, gap->distance_m / 8.0));
-    lo.margin_m = 0.0;
-    const ElectrostaticProblem problem(w, lo);
+    const ElectrostaticProblem problem(d, lo, ElectrostaticWindow{mid, half, half});
+    const SaddleStrip strip = SaddleStrip::For(d, k, *gap, 0.5 * problem.cell_m());
     int ga = -1, gb = -1;
     for (std::size_t i = 0; i < d.gates.size(); ++i) {
       if (d.gates[i].name == k.first) ga = static_cast<int>(i);
@@ -308,24 +308,8 @@ void ComputeConstrictionModels(const Design& d, const PathOptions& opt, PathResu
     auto saddle_of = [&](const DensityMap& m) {
       Saddle s;
       auto U = [&](Point p) { return m.EnergyAt(p) * ef0; };
-      const double step = 0.5 * m.cell_m;
-      double best = -HUGE_VAL;
-      for (double tn = -2.0 * depth; tn <= 2.0 * depth; tn += step) {
-        double low = HUGE_VAL;
-        Point where{};
-        for (double tu = -0.45 * gap->distance_m; tu <= 0.45 * gap->distance_m; tu += step) {
-          const Point p{mid.x + tu * u.x + tn * nrm.x, mid.y + tu * u.y + tn * nrm.y};
-          const double e = U(p);
-          if (e < low) {
-            low = e;
-            where = p;
-          }
-        }
-        if (low > best) {
-          best = low;
-          s.at = where;
-        }
-      }
+      // The same saddle as `hallway map` (saddle.hpp).
+      s.at = DensitySaddle(m, strip).point;
       const double h = std::max(m.cell_m, gap->distance_m / 20.0);
       auto along = [&](Point dir, double t) { return U({s.at.x + t * dir.x, s.at.y + t * dir.y}); };
       const double uu = (along(u, h) - 2 * along(u, 0) + along(u, -h)) / (h * h);

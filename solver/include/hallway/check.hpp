@@ -27,10 +27,13 @@ struct Finding {
 struct ConstrictionGap {
   std::string name;
   std::string first, second;
-  double gap_m = 0.0;                      // shortest distance between the two outlines
-  geometry::Point on_first, on_second;     // where it is attained
-  std::optional<double> bare_pinch_off_V;  // split gates only (physics.md 1.4 (i), infinite fingers)
-  double most_positive_gate_V = 0.0;       // of the gates that form it
+  double gap_m = 0.0;                   // shortest distance between the two outlines
+  geometry::Point on_first, on_second;  // where it is attained
+  // Bare (no screening) pinch-off: the gates' closed-form potential at the bare saddle reaches the
+  // wide-gate depletion voltage (FindBarePinchOff, saddle.hpp); nullopt where no such voltage exists.
+  std::optional<double> bare_pinch_off_V;
+  geometry::Point bare_saddle;
+  double most_positive_gate_V = 0.0;  // of the gates that form it
 };
 
 struct CheckOptions {

@@ -80,11 +80,25 @@ class GridTooLarge : public std::length_error {
   double fitting_cell_m;  // about the finest cell size whose grid fits the limit
 };
 
+// A window of the mesa solved on its own finer grid (pinch-off and depletion searches). The mesa keeps
+// its real outline: only its real edges are etched. The 2DEG outside the window is held at its
+// local-capacitance density n = n_s [1 - phi_g / V_dep]_+ (the Thomas-Fermi density under a uniform
+// gate, docs/models.md "Electrostatics"; exact where the gates vary slowly on the scale of the depth),
+// on a coarse grid of the whole mesa whose cells tile the window, and its charge acts on the window
+// through the image kernel. Without it the depleted 2DEG around a window would be missing and a large
+// gate would deplete early by about depth / window.
+struct ElectrostaticWindow {
+  geometry::Point centre;
+  double half_x_m = 0.0, half_y_m = 0.0;
+};
+
 // The geometry-dependent set-up (grid, kernel transform, unit gate potentials, FFT plans) is built
 // once; Solve() then takes any gate voltages and an optional starting density.
 class ElectrostaticProblem {
  public:
   ElectrostaticProblem(const Design& design, const ElectrostaticsOptions& options = {});
+  // The window only (grid_m as above; margin_m is not used).
+  ElectrostaticProblem(const Design& design, const ElectrostaticsOptions& options, const ElectrostaticWindow& window);
   ~ElectrostaticProblem();
   ElectrostaticProblem(const ElectrostaticProblem&) = delete;
   ElectrostaticProblem& operator=(const ElectrostaticProblem&) = delete;
@@ -100,6 +114,8 @@ class ElectrostaticProblem {
   std::vector<double> ApplyOperatorDirect(const std::vector<double>& u) const;
 
  private:
+  ElectrostaticProblem(const Design& design, const ElectrostaticsOptions& options, const ElectrostaticWindow* window);
+  void BuildExterior(const Design& design, const ElectrostaticWindow& window);
   struct Impl;
   std::unique_ptr<Impl> impl_;
 };

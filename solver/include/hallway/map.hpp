@@ -3,11 +3,13 @@
 // For each gate: the wide-gate depletion voltage (physics.md 1.3) and the voltage at which the 2DEG
 // under the gate itself empties (the gate alone, the others at 0 V), the lateral depletion width
 // at the design voltages, and the E x B drift velocity v = E / |B| of the edge there (physics.md 7).
-// For each constriction: the gap, the density at its saddle (the middle of the gap) at the design
+// For each constriction: the gap, the saddle (found, saddle.hpp) and its density at the design
 // voltages, and the pinch-off voltage: both sides swept together, the other gates at their design
-// voltages, bisection on the self-consistent saddle density to `pinch_resolution_V`, each solve
-// starting from the previous one. Constrictions and gates are solved on a local window of the mesa
-// (`window_m` around the gap or the gate), the whole mesa once at the design voltages.
+// voltages, bisection on the self-consistent density at the saddle (found anew at each voltage) to
+// `pinch_resolution_V`, each solve starting from the previous one; beside it the bare (no screening)
+// estimate. Constrictions and gates are solved on a window of the mesa (`window_m` around the gap or
+// the gate) embedded in the 2DEG outside it (ElectrostaticWindow), the whole mesa once at the design
+// voltages.
 #pragma once
 
 #include <functional>
@@ -45,8 +47,13 @@ struct GateMap {
 struct ConstrictionMap {
   std::string name;
   double gap_m = 0.0;
-  double saddle_density_per_m2 = 0.0;  // at the design voltages
-  std::optional<double> pinch_off_V;   // nullopt: not pinched off above the search limit
+  geometry::Point saddle;              // found in the self-consistent density at the design voltages
+  double saddle_density_per_m2 = 0.0;  // there
+  // Self-consistent pinch-off: the density at the saddle (found anew at each voltage) falls below
+  // empty_fraction n_s. nullopt: not pinched off above the search limit.
+  std::optional<double> pinch_off_V;
+  // Bare (no screening): the gate potential at the bare saddle reaches the wide-gate depletion
+  // voltage (FindBarePinchOff, saddle.hpp).
   std::optional<double> bare_pinch_off_V;
   int solves = 0;
 };
@@ -63,10 +70,5 @@ struct MapResult {
 };
 
 MapResult ComputeMap(const Design& design, const MapOptions& options = {});
-
-// The window around a point: the part of the mesa within half-size `half` (the piece that contains
-// `centre`), as a design whose mesa is that window and whose gates, heterostructure and conditions
-// are the design's.
-Design LocalWindow(const Design& design, geometry::Point centre, double half_x_m, double half_y_m);
 
 }  // namespace hallway

@@ -10,8 +10,9 @@
 //     physics.md 1.3) and reflects the channels whose cumulative filling (outermost first)
 //     exceeds that, at its footprint;
 //   with each constriction whose sides reflect channel k cut across its gap (a thin slit along the
-//     shortest segment between the two sides; the gap is first re-opened by a corridor, so the
-//     design's transmission decides what passes, and a warning says when the estimate disagrees).
+//     shortest segment between the two sides, moved along the current to pass through the saddle of
+//     saddle.hpp; the gap is first re-opened by a corridor along the current through the saddle, so
+//     the design's transmission decides what passes, and a warning says when the estimate disagrees).
 // Edges follow the boundary of each region with the chirality of physics.md A: for B > 0 the 2DEG
 // is on the electron's right-hand side, i.e. clockwise around the outer boundary seen from above.
 // They are cut where they enter and leave ohmic contacts and where they meet a constriction's slit:
@@ -93,6 +94,7 @@ struct ChannelGeometry {
   // The slit of constriction c: its centre line from a to b and unit normal n (towards face 0).
   struct Slit {
     geometry::Point a, b, n;
+    geometry::Point centre;  // the saddle the slit passes through
     double half_width_m = 0.0;
     double ext_a_m = 0.0, ext_b_m = 0.0;  // how far the slit reaches beyond a and beyond b
     double gap_m = 0.0;

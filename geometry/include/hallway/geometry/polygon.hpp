@@ -55,7 +55,9 @@ struct ClosestPair {
   Point midpoint() const { return {(on_a.x + on_b.x) / 2, (on_a.y + on_b.y) / 2}; }
 };
 // Brute force over all edge pairs, O(n m). Exact in the sense that it returns the minimum of the
-// segment-segment distances evaluated in floating point; segments that cross give 0.
+// segment-segment distances evaluated in floating point; segments that cross give 0. Where many pairs
+// are equally close (parallel facing edges, such as two square finger ends), the pair in the middle of
+// that set is returned, so the result does not depend on the vertex order or the starting vertex.
 ClosestPair closest_boundary_points(const Polygon& a, const Polygon& b);
 // The same, restricted to the edges of `b` whose indices are listed (edge k joins vertex k and k+1).
 ClosestPair closest_boundary_points(const Polygon& a, const Polygon& b, const std::vector<std::size_t>& b_edges);
