@@ -369,12 +369,19 @@ void ElectrostaticProblem::BuildExterior(const Design& d, const ElectrostaticWin
   auto e = std::make_unique<Exterior>();
   e->vdep = DeriveFigures(d.heterostructure, d.conditions.field_T, d.conditions.temperature_K).depletion_voltage_V;
   // Coarse cells of about a depth (the exterior acts from at least a window's half size away), a whole
-  // number of them across the window, and at most about 4e5 cells (or 2e7 cell-gates) over the mesa.
-  const auto bb = geometry::bounding_box(d.mesa.outline);
+  // number of them across the window, and at most about 1.5e5 cells (or 1e7 cell-gates), over the mesa
+  // within max(10 um, 16 half sizes) of the window. Farther out the held 2DEG is neutral except under
+  // gates and along etched edges, whose potential falls off as (depth / distance)^2 or faster.
+  auto bb = geometry::bounding_box(d.mesa.outline);
+  const double reach = std::max(10e-6, 16.0 * std::max(win.half_x_m, win.half_y_m));
+  bb.xmin = std::max(bb.xmin, win.centre.x - win.half_x_m - reach);
+  bb.xmax = std::min(bb.xmax, win.centre.x + win.half_x_m + reach);
+  bb.ymin = std::max(bb.ymin, win.centre.y - win.half_y_m - reach);
+  bb.ymax = std::min(bb.ymax, win.centre.y + win.half_y_m + reach);
   const double area =
       (std::max(bb.xmax, win.centre.x + win.half_x_m) - std::min(bb.xmin, win.centre.x - win.half_x_m)) *
       (std::max(bb.ymax, win.centre.y + win.half_y_m) - std::min(bb.ymin, win.centre.y - win.half_y_m));
-  const double cap = std::min(4e5, 2e7 / std::max<std::size_t>(1, d.gates.size()));
+  const double cap = std::min(1.5e5, 1e7 / static_cast<double>(std::max<std::size_t>(1, d.gates.size())));
   const double hc = std::max({depth, m.h, std::sqrt(area / cap)});
   const int mx = std::max(1, static_cast<int>(std::round(2.0 * win.half_x_m / hc)));
   const int my = std::max(1, static_cast<int>(std::round(2.0 * win.half_y_m / hc)));

@@ -1,11 +1,11 @@
 // hallway/electrostatics.hpp: surface gates over a 2DEG at depth d, pinned surface
-// (physics.md sections 1.1 - 1.4).
+// (docs/models.md: "Bare gate potential", "Thomas-Fermi electrostatics", "Depletion under a wide gate").
 //
 // Bare potential of a polygon gate at voltage V in the 2DEG plane (solid angle of the polygon seen
 // from the point, Davies, Larkin & Sukhorukov, J. Appl. Phys. 77, 4504 (1995); per-edge form of
-// physics.md 1.1 with the Van Oosterom-Strackee triangle formula):
+// docs/models.md "Bare gate potential", with the Van Oosterom-Strackee triangle formula):
 //   phi = (V s / pi) sum_edges atan2(a x b, R_a R_b + d (R_a + R_b) + a.b + d^2),  R = sqrt(a^2 + d^2).
-// Thomas-Fermi self-consistency (physics.md 1.2): U = -e phi_g + e^2 K * (n - n_bg),
+// Thomas-Fermi self-consistency (docs/models.md "Thomas-Fermi electrostatics"): U = -e phi_g + e^2 K * (n - n_bg),
 // n = D [E_F0 - U]_+, with the image kernel K(r) = (1/4 pi eps)(1/r - 1/sqrt(r^2 + 4 d^2)), the
 // background n_bg = n_s on the mesa, and n = 0 outside the mesa eroded by the etch depletion. With
 // u = n / n_s this is the bound-constrained convex quadratic programme
@@ -83,7 +83,7 @@ class GridTooLarge : public std::length_error {
 // A window of the mesa solved on its own finer grid (pinch-off and depletion searches). The mesa keeps
 // its real outline: only its real edges are etched. The 2DEG outside the window is held at its
 // local-capacitance density n = n_s [1 - phi_g / V_dep]_+ (the Thomas-Fermi density under a uniform
-// gate, docs/models.md "Electrostatics"; exact where the gates vary slowly on the scale of the depth),
+// gate, docs/models.md "Windows embedded in the outer 2DEG"; exact where the gates vary slowly on the scale of the depth),
 // on a coarse grid of the whole mesa whose cells tile the window, and its charge acts on the window
 // through the image kernel. Without it the depleted 2DEG around a window would be missing and a large
 // gate would deplete early by about depth / window.
