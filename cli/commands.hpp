@@ -44,6 +44,7 @@ struct NoiseArgs {
   bool fast = false;
   bool phase_given = false;
   double phase_rad = 0.0;
+  std::string collider_model = "zero-temperature";  // or finite-temperature
   double target_sigmas = 10.0;
   bool quiet = false;
   std::string max_memory;  // --max-memory, e.g. "8GiB"; empty: 4 GiB

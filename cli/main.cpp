@@ -44,6 +44,9 @@ int main(int argc, char** argv) {
   auto* phase =
       n->add_option("--phase", noise.phase_rad, "Fix the interferometer loop phase (rad) instead of averaging");
   n->add_option("--target", noise.target_sigmas, "Signal-to-noise asked of every correlation (default 10)");
+  n->add_option("--collider-model", noise.collider_model,
+                "Collider P in the contact matrix: zero-temperature (default) or finite-temperature")
+      ->check(CLI::IsMember({"zero-temperature", "finite-temperature"}));
   n->add_flag("--quiet", noise.quiet, "No progress line on standard error");
 
   MapArgs map;

@@ -107,6 +107,49 @@ void print_matrix(std::string& out, const Design& d, const Matrix& m) {
   }
 }
 
+// What feeds a collider input: a constriction, or a contact (one-beam partitioning).
+std::string FeedName(const Design& d, int source, int contact) {
+  if (source >= 0) return d.constrictions[static_cast<std::size_t>(source)].name;
+  if (contact >= 0) return "contact " + d.contacts[static_cast<std::size_t>(contact)].name;
+  return "?";
+}
+
+std::string ColliderText(const Design& d, const ColliderPrediction& c) {
+  std::string out = fmt::format("  collider {} (channel {}, fed by {} and {}{})\n",
+                                d.constrictions[static_cast<std::size_t>(c.constriction)].name, c.channel + 1,
+                                FeedName(d, c.source_first, c.contact_first),
+                                FeedName(d, c.source_second, c.contact_second), c.one_beam ? "; one beam" : "");
+  out += fmt::format(
+      "    I1 = {}, I2 = {} (arriving, from the transport solution; {:.3g} and {:.3g} of their sources' bias), I+ = "
+      "{}, I- = {}; collider tunnelling {:.3g}; e* = {:.4g} e, theta = {:.4g} pi, delta = {:.4g}\n",
+      FormatSI(c.stream_first_A, "A"), FormatSI(c.stream_second_A, "A"), c.dilution_first, c.dilution_second,
+      FormatSI(c.i_plus_A, "A"), FormatSI(c.i_minus_A, "A"), c.tunnelling, c.charge_e, c.exchange_pi, c.scaling);
+  if (!c.not_computed.empty()) {
+    out += "    not computed: " + c.not_computed + "\n";
+  } else {
+    out += fmt::format("    P = {:.5g} at T = 0, P = {:.5g} at the design temperature (zeta = {:.3g})\n", *c.fano,
+                       *c.fano_finite_temperature, c.rate_over_temperature);
+    out += fmt::format("    S_34 = {} A^2/Hz ({} form; {}); {}; time for P to +-0.1: {}\n", sci(*c.s34_A2_per_Hz),
+                       ToString(c.model_in_matrix),
+                       c.in_contact_matrix ? "the value in the contact matrix" : "not in the contact matrix",
+                       c.in_contact_matrix ? "S_33, S_44 and the correlations with every other contact follow from "
+                                             "current conservation"
+                                           : "the matrix uses the independent partition model",
+                       opt_time(c.time_for_fano_s));
+  }
+  out += fmt::format(
+      "    validity: dilute inputs {} (limit 0.1 of the bias, common practice), weak tunnelling {}, theta < pi/2 {}\n",
+      c.dilute ? "yes" : "NO", c.weak_tunnelling ? "yes" : "NO", c.exchange_below_half_pi ? "yes" : "NO");
+  if (c.not_computed.empty() && c.one_beam)
+    out += fmt::format(
+        "    one beam: excess noise of the tunnelling current S_TT - S_TT(0) = {} A^2/Hz (below equilibrium: braiding "
+        "with thermally excited pairs, Lee, Han & Sim, Phys. Rev. Lett. 123, 016803 (2019)); the drain that collects "
+        "it also sees its input edge's thermal correlation with the tunnelling (docs/models.md \"Anyon collider\")\n",
+        sci(c.shape.stt_A2_per_Hz));
+  for (const auto& cv : c.caveats) out += "    caveat: " + cv + "\n";
+  return out;
+}
+
 std::string print_noise(const Design& d, const NoiseResult& n) {
   std::string out = fmt::format("\nAt B = {:+.4g} T\n", n.field_T);
   out += "  excess current noise S_exc (A^2/Hz; total minus zero bias at the same temperature)\n";
@@ -129,31 +172,20 @@ std::string print_noise(const Design& d, const NoiseResult& n) {
                          std::isfinite(a.sample_resistance_Ohm) ? FormatSI(a.sample_resistance_Ohm, "Ohm") : "open",
                          FormatSI(a.effective_resistance_Ohm, "Ohm"), sci(a.excess_current_A2_per_Hz),
                          sci(a.signal_V2_per_Hz), sci(a.floor_V2_per_Hz), a.snr, opt_time(a.time_for_target_s));
+    for (const AmplifierNoise& a : n.amplifiers)
+      out +=
+          fmt::format("    {}: load at {}{}{}\n", d.contacts[static_cast<std::size_t>(a.contact)].name,
+                      FormatSI(a.load_temperature_K, "K"),
+                      a.load_temperature_from_design ? " (the design temperature: no amplifier.load_temperature given)"
+                                                     : " (amplifier.load_temperature)",
+                      a.reference_subtraction ? "; on/off reference subtraction: twice the variance" : "");
     for (const CrossNoise& c : n.cross)
       out += fmt::format("    cross {}-{}: S_exc {} A^2/Hz, signal {} V^2/Hz, SNR {:.3g}, time for target {}\n",
                          d.contacts[static_cast<std::size_t>(c.first)].name,
                          d.contacts[static_cast<std::size_t>(c.second)].name, sci(c.excess_current_A2_per_Hz),
                          sci(c.signal_V2_per_Hz), c.snr, opt_time(c.time_for_target_s));
   }
-  for (const ColliderPrediction& c : n.colliders) {
-    out += fmt::format("  collider {} (channel {}, fed by {} and {})\n",
-                       d.constrictions[static_cast<std::size_t>(c.constriction)].name, c.channel + 1,
-                       d.constrictions[static_cast<std::size_t>(c.source_first)].name,
-                       d.constrictions[static_cast<std::size_t>(c.source_second)].name);
-    out += fmt::format(
-        "    I1 = {}, I2 = {}, I+ = {}, I- = {}; collider tunnelling {:.3g}; e* = {:.4g} e, theta = {:.4g} pi, delta = "
-        "{:.4g}\n",
-        FormatSI(c.stream_first_A, "A"), FormatSI(c.stream_second_A, "A"), FormatSI(c.i_plus_A, "A"),
-        FormatSI(c.i_minus_A, "A"), c.tunnelling, c.charge_e, c.exchange_pi, c.scaling);
-    if (c.fano)
-      out += fmt::format("    P = {:.5g}; expected S_34 = {} A^2/Hz; time for P to +-0.1: {}\n", *c.fano,
-                         sci(*c.s34_A2_per_Hz), opt_time(c.time_for_fano_s));
-    out += fmt::format(
-        "    validity: dilute sources {}, weak tunnelling {}, theta <= pi/2 {}, zeta (rate/temperature) = {:.3g}\n",
-        c.dilute ? "yes" : "NO", c.weak_tunnelling ? "yes" : "NO", c.exchange_below_half_pi ? "yes" : "NO",
-        c.rate_over_temperature);
-    for (const auto& cv : c.caveats) out += "    caveat: " + cv + "\n";
-  }
+  for (const ColliderPrediction& c : n.colliders) out += ColliderText(d, c);
   return out;
 }
 
@@ -175,7 +207,10 @@ json noise_json(const Design& d, const NoiseResult& n) {
               {"signal_V2_per_Hz", a.signal_V2_per_Hz},
               {"floor_V2_per_Hz", a.floor_V2_per_Hz},
               {"floor_A2_per_Hz", a.floor_current_A2_per_Hz},
-              {"snr", a.snr}};
+              {"snr", a.snr},
+              {"load_temperature_K", a.load_temperature_K},
+              {"load_temperature_from_design", a.load_temperature_from_design},
+              {"reference_subtraction", a.reference_subtraction}};
     x["time_for_target_s"] = a.time_for_target_s ? json(*a.time_for_target_s) : json(nullptr);
     amps[d.contacts[static_cast<std::size_t>(a.contact)].name] = x;
   }
@@ -196,9 +231,6 @@ json noise_json(const Design& d, const NoiseResult& n) {
   for (const ColliderPrediction& c : n.colliders) {
     json x = {{"constriction", d.constrictions[static_cast<std::size_t>(c.constriction)].name},
               {"channel", c.channel + 1},
-              {"sources",
-               {d.constrictions[static_cast<std::size_t>(c.source_first)].name,
-                d.constrictions[static_cast<std::size_t>(c.source_second)].name}},
               {"I1_A", c.stream_first_A},
               {"I2_A", c.stream_second_A},
               {"I_plus_A", c.i_plus_A},
@@ -209,8 +241,16 @@ json noise_json(const Design& d, const NoiseResult& n) {
               {"exchange_below_half_pi", c.exchange_below_half_pi},
               {"rate_over_temperature", c.rate_over_temperature},
               {"caveats", c.caveats}};
+    x["sources"] = {FeedName(d, c.source_first, c.contact_first), FeedName(d, c.source_second, c.contact_second)};
+    x["dilution"] = {c.dilution_first, c.dilution_second};
+    x["one_beam"] = c.one_beam;
+    x["in_contact_matrix"] = c.in_contact_matrix;
+    x["not_computed"] = c.not_computed.empty() ? json(nullptr) : json(c.not_computed);
     x["P"] = c.fano ? json(*c.fano) : json(nullptr);
+    x["P_finite_temperature"] = c.fano_finite_temperature ? json(*c.fano_finite_temperature) : json(nullptr);
     x["S34_A2_per_Hz"] = c.s34_A2_per_Hz ? json(*c.s34_A2_per_Hz) : json(nullptr);
+    x["model_in_contact_matrix"] = ToString(c.model_in_matrix);
+    x["S_TT_excess_A2_per_Hz"] = c.s34_A2_per_Hz ? json(c.shape.stt_A2_per_Hz) : json(nullptr);
     x["time_for_P_s"] = c.time_for_fano_s ? json(*c.time_for_fano_s) : json(nullptr);
     colliders.push_back(x);
   }
@@ -249,6 +289,7 @@ int RunNoise(const NoiseArgs& args) {
   NoiseOptions opt;
   opt.target_sigmas = args.target_sigmas;
   if (args.phase_given) opt.loop_phase_rad = args.phase_rad;
+  opt.collider_model = ColliderModelFromString(args.collider_model).value_or(ColliderModel::kZeroTemperature);
   ChannelGeometry geometry;
   std::string es_note;
   if (int code = 0; !BuildGeometry(d, args.fast, &geometry, &es_note, &code, nullptr, max_memory)) return code;

@@ -209,5 +209,81 @@ TEST(Loader, MissingFileIsADesignError) {
   EXPECT_THROW(LoadDesign("/nonexistent/hallway/design.yaml"), DesignError);
 }
 
+// The base design's amplifier block ends at line 31 (`integration`); one optional key is added after it.
+std::string with_amplifier_line(const std::string& line) {
+  return replace(kBase, "  integration: 20 min\n", "  integration: 20 min\n  " + line + "\n");
+}
+
+TEST(Loader, AmplifierLoadTemperatureAndReferenceSubtractionDefaultsAndValues) {
+  const Design base = LoadDesignFromString(kBase, "t.yaml");
+  ASSERT_TRUE(base.wiring[1].amplifier);
+  EXPECT_FALSE(base.wiring[1].amplifier->load_temperature_K);  // default: the design temperature
+  EXPECT_FALSE(base.wiring[1].amplifier->reference_subtraction);
+
+  const Design cold = LoadDesignFromString(with_amplifier_line("load_temperature: 4.2 K"), "t.yaml");
+  ASSERT_TRUE(cold.wiring[1].amplifier && cold.wiring[1].amplifier->load_temperature_K);
+  EXPECT_TRUE(NearRel(*cold.wiring[1].amplifier->load_temperature_K, 4.2, 1e-15));
+  EXPECT_TRUE(NearRel(*cold.amplifier->load_temperature_K, 4.2, 1e-15));
+  const Design milli = LoadDesignFromString(with_amplifier_line("load_temperature: 800 mK"), "t.yaml");
+  EXPECT_TRUE(NearRel(*milli.wiring[1].amplifier->load_temperature_K, 0.8, 1e-15));
+
+  for (const char* yes : {"true", "True", "TRUE"}) {
+    const Design on = LoadDesignFromString(with_amplifier_line(std::string("reference_subtraction: ") + yes), "t.yaml");
+    EXPECT_TRUE(on.wiring[1].amplifier->reference_subtraction) << yes;
+  }
+  const Design off = LoadDesignFromString(with_amplifier_line("reference_subtraction: false"), "t.yaml");
+  EXPECT_FALSE(off.wiring[1].amplifier->reference_subtraction);
+
+  // Per contact, like the other amplifier keys: the long form overrides the shared block.
+  std::string t = with_amplifier_line("load_temperature: 4.2 K\n  reference_subtraction: true");
+  t = replace(t, "E: amplifier", "E: {role: amplifier, load_temperature: 1.5 K, reference_subtraction: false}");
+  const Design over = LoadDesignFromString(t, "t.yaml");
+  EXPECT_TRUE(NearRel(*over.wiring[1].amplifier->load_temperature_K, 1.5, 1e-15));
+  EXPECT_FALSE(over.wiring[1].amplifier->reference_subtraction);
+  EXPECT_TRUE(over.amplifier->reference_subtraction);  // the shared block keeps its own
+  // A contact that overrides something else inherits both from the shared block.
+  t = replace(with_amplifier_line("load_temperature: 4.2 K\n  reference_subtraction: true"), "E: amplifier",
+              "E: {role: amplifier, load: 100 kOhm}");
+  const Design inherit = LoadDesignFromString(t, "t.yaml");
+  EXPECT_TRUE(NearRel(*inherit.wiring[1].amplifier->load_temperature_K, 4.2, 1e-15));
+  EXPECT_TRUE(inherit.wiring[1].amplifier->reference_subtraction);
+}
+
+TEST(Loader, AmplifierLoadTemperatureNeedsATemperatureUnit) {
+  ExpectError(with_amplifier_line("load_temperature: 4.2 V"), 32, "amplifier.load_temperature",
+              {"expected a temperature"});
+  ExpectError(with_amplifier_line("load_temperature: 4.2"), 32, "amplifier.load_temperature",
+              {"a temperature needs a unit"});
+  ExpectError(replace(kBase, "E: amplifier", "E: {role: amplifier, load_temperature: 4 mV}"), 25,
+              "wiring.E.load_temperature", {"expected a temperature"});
+}
+
+TEST(Loader, AmplifierLoadTemperatureOutsidePhysicalRange) {
+  ExpectError(with_amplifier_line("load_temperature: -4.2 K"), 32, "amplifier.load_temperature", {"absolute zero"});
+  ExpectError(with_amplifier_line("load_temperature: 0 K"), 32, "amplifier.load_temperature", {"absolute zero"});
+  ExpectError(with_amplifier_line("load_temperature: 400 K"), 32, "amplifier.load_temperature",
+              {"above 300 K", "room temperature"});
+}
+
+TEST(Loader, ReferenceSubtractionMustBeABoolean) {
+  ExpectError(with_amplifier_line("reference_subtraction: yes"), 32, "amplifier.reference_subtraction",
+              {"expected true or false", "'yes'"});
+  ExpectError(with_amplifier_line("reference_subtraction: 1"), 32, "amplifier.reference_subtraction",
+              {"expected true or false"});
+  ExpectError(with_amplifier_line("reference_subtraction: \"true\""), 32, "amplifier.reference_subtraction",
+              {"unquoted"});
+  ExpectError(with_amplifier_line("reference_subtraction: [true]"), 32, "amplifier.reference_subtraction",
+              {"true or false", "not a list"});
+}
+
+TEST(Loader, NewAmplifierKeysAreCheckedLikeTheOthers) {
+  ExpectError(with_amplifier_line("reference_subtract: true"), 32, "amplifier.reference_subtract",
+              {"unknown key 'reference_subtract'", "reference_subtraction", "load_temperature"});
+  ExpectError(with_amplifier_line("load_temperature: 4.2 K\n  load_temperature: 1 K"), 33, "amplifier.load_temperature",
+              {"given twice"});
+  ExpectError(replace(kBase, "W: source 10 uV", "W: {role: source, bias: 10 uV, reference_subtraction: true}"), 24,
+              "wiring.W", {"only for amplifier contacts"});
+}
+
 }  // namespace
 }  // namespace hallway

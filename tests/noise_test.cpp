@@ -336,5 +336,106 @@ TEST(Noise, DefaultOptionsAreValid) {
   EXPECT_NE(why.find("phase_samples"), std::string::npos);
 }
 
+// Johnson noise of a resistor at its own temperature, 4 k_B T R (Johnson, Phys. Rev. 32, 97 (1928);
+// Nyquist, Phys. Rev. 32, 110 (1928)), each divided by the other resistor: the split floor of
+// AmplifierChain written with resistances, independently of the code's conductance form.
+double split_johnson(double rs, double ts, double rl, double tl) {
+  const double k = kBoltzmann_J_per_K;
+  return 4 * k * ts * rs * (rl / (rs + rl)) * (rl / (rs + rl)) + 4 * k * tl * rl * (rs / (rs + rl)) * (rs / (rs + rl));
+}
+
+TEST(Measurement, SplitJohnsonFloorEqualsParallelJohnsonWhenLoadIsAtTheSampleTemperature) {
+  // The two terms add up to 4 k_B T (R_s || R_L) when T_L = T_s (Johnson 1928; Nyquist 1928).
+  const double rs = 3 * constants::kVonKlitzing_Ohm, rl = 1e5, t = 0.020;
+  const double r = rs * rl / (rs + rl);
+  EXPECT_TRUE(NearRel(split_johnson(rs, t, rl, t), 4 * kBoltzmann_J_per_K * t * r, 1e-14));  // rounding only
+  const double en2 = 0.25e-9 * 0.25e-9;  // amp(): e_n = 0.25 nV/rtHz, i_n = 0
+  Amplifier same = amp(rl);
+  same.load_temperature_K = t;
+  const AmplifierNoise given = AmplifierChain(1 / rs, same, t, 1e-29, 10);
+  const AmplifierNoise dflt = AmplifierChain(1 / rs, amp(rl), t, 1e-29, 10);  // no load_temperature
+  EXPECT_TRUE(NearRel(given.floor_V2_per_Hz, en2 + 4 * kBoltzmann_J_per_K * t * r, 1e-14));
+  EXPECT_TRUE(NearRel(dflt.floor_V2_per_Hz, en2 + 4 * kBoltzmann_J_per_K * t * r, 1e-14));
+  EXPECT_TRUE(dflt.load_temperature_from_design);
+  EXPECT_DOUBLE_EQ(dflt.load_temperature_K, t);
+  EXPECT_FALSE(given.load_temperature_from_design);
+  EXPECT_DOUBLE_EQ(given.load_temperature_K, t);
+}
+
+TEST(Measurement, LoadAtFourKelvinOnTwelveKilohmSampleAddsItsJohnsonNoiseThroughTheDivider) {
+  // A 12 kOhm load at 4.2 K (a cold load near the helium bath, common practice) on a 12 kOhm sample at
+  // 20 mK: each divider ratio is 1/2, so J = k_B * 12 kOhm * (20 mK + 4.2 K) = 6.9916e-19 V^2/Hz with the
+  // exact SI k_B = 1.380649e-23 J/K (from memory).
+  const double rs = 12e3, rl = 12e3, ts = 0.020, tl = 4.2;
+  Amplifier a = amp(rl);
+  a.current_noise_A_per_rtHz = 5e-15;
+  a.load_temperature_K = tl;
+  const double excess = 1e-28;
+  const AmplifierNoise n = AmplifierChain(1 / rs, a, ts, excess, 10);
+  const double r = 6e3, j = split_johnson(rs, ts, rl, tl);
+  EXPECT_TRUE(NearRel(j, 6.99160654e-19, 1e-8));  // hand value quoted to 9 digits
+  EXPECT_TRUE(NearRel(n.effective_resistance_Ohm, r, 1e-14));
+  const double floor = 0.25e-9 * 0.25e-9 + r * r * 5e-15 * 5e-15 + j;
+  EXPECT_TRUE(NearRel(n.floor_V2_per_Hz, floor, 1e-13));
+  EXPECT_TRUE(NearRel(n.floor_current_A2_per_Hz, floor / (r * r), 1e-13));
+  // Radiometer SNR with the new floor (Dicke, Rev. Sci. Instrum. 17, 268 (1946), from memory).
+  const double signal = r * r * excess;
+  EXPECT_TRUE(NearRel(n.snr, signal / (signal + floor) * std::sqrt(1e5 * 1.0), 1e-13));
+  EXPECT_DOUBLE_EQ(n.load_temperature_K, tl);
+  EXPECT_FALSE(n.load_temperature_from_design);
+}
+
+TEST(Measurement, WarmerLoadRaisesTheFloorByTheLoadTermOnly) {
+  // d floor / d T_L = 4 k_B R_L (R_s / (R_s + R_L))^2 (Johnson 1928; Nyquist 1928); nothing else moves.
+  const double rs = 3 * constants::kVonKlitzing_Ohm, rl = 1e5, ts = 0.020;
+  Amplifier cold = amp(rl), warm = amp(rl);
+  cold.current_noise_A_per_rtHz = warm.current_noise_A_per_rtHz = 2e-15;
+  cold.load_temperature_K = 1.0;
+  warm.load_temperature_K = 4.2;
+  const double excess = 2 * kElementaryCharge_C / 3 * 100e-12;
+  const AmplifierNoise c = AmplifierChain(1 / rs, cold, ts, excess, 10);
+  const AmplifierNoise w = AmplifierChain(1 / rs, warm, ts, excess, 10);
+  const double divider = rs / (rs + rl);
+  // 1e-13: a difference of two floors of the same order as it, each good to ~1e-15.
+  EXPECT_TRUE(
+      NearRel(w.floor_V2_per_Hz - c.floor_V2_per_Hz, 4 * kBoltzmann_J_per_K * 3.2 * rl * divider * divider, 1e-13));
+  EXPECT_DOUBLE_EQ(w.effective_resistance_Ohm, c.effective_resistance_Ohm);
+  EXPECT_DOUBLE_EQ(w.signal_V2_per_Hz, c.signal_V2_per_Hz);
+  EXPECT_LT(w.snr, c.snr);
+  ASSERT_TRUE(w.time_for_target_s && c.time_for_target_s);
+  EXPECT_GT(*w.time_for_target_s, *c.time_for_target_s);
+}
+
+TEST(Measurement, OpenSampleLeavesOnlyTheLoadJohnsonNoiseAndNoNaN) {
+  // R_s = infinity (sample conductance 0): R = R_L and J = 4 k_B T_L R_L (Johnson 1928; Nyquist 1928).
+  Amplifier a = amp(1e5);
+  a.load_temperature_K = 4.2;
+  const AmplifierNoise n = AmplifierChain(0.0, a, 0.020, 0.0, 10);
+  EXPECT_TRUE(std::isinf(n.sample_resistance_Ohm));
+  EXPECT_TRUE(NearRel(n.effective_resistance_Ohm, 1e5, 1e-15));
+  EXPECT_TRUE(NearRel(n.floor_V2_per_Hz, 0.25e-9 * 0.25e-9 + 4 * kBoltzmann_J_per_K * 4.2 * 1e5, 1e-14));
+  EXPECT_TRUE(std::isfinite(n.floor_current_A2_per_Hz));
+  EXPECT_EQ(n.snr, 0.0);
+  EXPECT_FALSE(n.time_for_target_s);
+}
+
+TEST(Measurement, ReferenceSubtractionHalvesSnrSquaredAndDoublesTheTime) {
+  // On/off: the estimate is the difference of two independent averages of equal length, so its variance
+  // is twice that of one (common practice): SNR / sqrt(2) and twice the averaging time for the target.
+  const double ib = 100e-12, e = kElementaryCharge_C;
+  Amplifier on = amp(1e5);
+  on.reference_subtraction = true;
+  const AmplifierNoise plain = AmplifierChain(kConductanceQuantum_S / 3, amp(1e5), 0.020, 2 * e / 3 * ib, 10);
+  const AmplifierNoise diff = AmplifierChain(kConductanceQuantum_S / 3, on, 0.020, 2 * e / 3 * ib, 10);
+  EXPECT_FALSE(plain.reference_subtraction);
+  EXPECT_TRUE(diff.reference_subtraction);
+  EXPECT_TRUE(NearRel(diff.snr * diff.snr, plain.snr * plain.snr / 2, 1e-14));
+  EXPECT_TRUE(NearRel(diff.snr, 49.1 / std::sqrt(2.0), 0.05 / 49.1));  // physics.md 8 worked example / sqrt 2
+  ASSERT_TRUE(plain.time_for_target_s && diff.time_for_target_s);
+  EXPECT_TRUE(NearRel(*diff.time_for_target_s, 2 * *plain.time_for_target_s, 1e-14));
+  EXPECT_DOUBLE_EQ(diff.floor_V2_per_Hz, plain.floor_V2_per_Hz);  // the floor itself is unchanged
+  EXPECT_DOUBLE_EQ(diff.signal_V2_per_Hz, plain.signal_V2_per_Hz);
+}
+
 }  // namespace
 }  // namespace hallway

@@ -112,6 +112,16 @@ class Reader {
     return x;
   }
 
+  // A YAML boolean: true or false (also True, TRUE, False, FALSE), unquoted.
+  bool boolean(const Value& v) const {
+    const std::string text = scalar(v, "true or false");
+    if (v.node.Tag() != "!") {
+      if (text == "true" || text == "True" || text == "TRUE") return true;
+      if (text == "false" || text == "False" || text == "FALSE") return false;
+    }
+    fail(v, "expected true or false (unquoted), got '" + text + "'");
+  }
+
   long integer(const Value& v) const {
     const std::string text = scalar(v, "a whole number");
     long x = 0;
@@ -217,6 +227,14 @@ Amplifier read_amplifier(const Reader& r, const Reader::Map& m, const std::optio
       r.fail(*v, std::string(f.key) + (f.may_be_zero ? " must not be negative" : " must be positive"));
     a.*(f.member) = x;
   }
+  // Optional: absent keeps the shared block's value (or the default: the design temperature, no reference).
+  if (auto v = m.get("load_temperature")) {
+    const double t = r.quantity(*v, Kind::kTemperature);
+    if (!(t > 0.0)) r.fail(*v, "load_temperature must be above absolute zero");
+    if (t > 300.0) r.fail(*v, "load_temperature above 300 K: a load resistor is at most at room temperature");
+    a.load_temperature_K = t;
+  }
+  if (auto v = m.get("reference_subtraction")) a.reference_subtraction = r.boolean(*v);
   return a;
 }
 
@@ -267,7 +285,8 @@ Wiring read_wiring(const Reader& r, const std::string& contact, const Value& v,
   std::string bias_text;
   std::optional<Reader::Map> overrides;
   if (v.node.IsMap()) {
-    auto m = r.map(v, {"role", "bias", "load", "voltage_noise", "current_noise", "bandwidth", "integration"});
+    auto m = r.map(v, {"role", "bias", "load", "voltage_noise", "current_noise", "bandwidth", "integration",
+                       "load_temperature", "reference_subtraction"});
     role_text = r.scalar(r.require(m, "role"), "a role");
     if (auto b = m.get("bias")) {
       bias_value = *b;
@@ -796,7 +815,9 @@ Design LoadDesignFromString(const std::string& text, const std::string& path) {
 
   // Amplifier block.
   if (auto av = m.get("amplifier"))
-    d.amplifier = read_amplifier(r, r.map(*av, {"load", "voltage_noise", "current_noise", "bandwidth", "integration"}),
+    d.amplifier = read_amplifier(r,
+                                 r.map(*av, {"load", "voltage_noise", "current_noise", "bandwidth", "integration",
+                                             "load_temperature", "reference_subtraction"}),
                                  std::nullopt);
 
   // Wiring: every contact exactly once.

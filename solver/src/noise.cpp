@@ -186,21 +186,30 @@ struct CoherentNetwork {
 
 AmplifierNoise AmplifierChain(double gs, const Amplifier& a, double temperature_K, double excess_A2_per_Hz,
                               double target_sigmas) {
-  const double kt = kBoltzmann_J_per_K * temperature_K;
   AmplifierNoise an;
+  an.load_temperature_from_design = !a.load_temperature_K.has_value();
+  an.load_temperature_K = a.load_temperature_K.value_or(temperature_K);
+  an.reference_subtraction = a.reference_subtraction;
+  const double g_sample = std::max(gs, 0.0), g_load = 1.0 / a.load_Ohm;
   an.sample_resistance_Ohm = gs > 0.0 ? 1.0 / gs : HUGE_VAL;
-  an.effective_resistance_Ohm = 1.0 / (std::max(gs, 0.0) + 1.0 / a.load_Ohm);
+  an.effective_resistance_Ohm = 1.0 / (g_sample + g_load);
   const double re = an.effective_resistance_Ohm;
   an.excess_current_A2_per_Hz = excess_A2_per_Hz;
   an.signal_V2_per_Hz = re * re * excess_A2_per_Hz;
+  // Johnson noise of each resistor, divided by the other: 4 k_B T_s R_s (R_L / (R_s + R_L))^2 =
+  // 4 k_B T_s g_s R^2 and 4 k_B T_L R_L (R_s / (R_s + R_L))^2 = 4 k_B T_L g_L R^2 (finite at g_s = 0).
+  const double johnson =
+      4.0 * kBoltzmann_J_per_K * re * re * (temperature_K * g_sample + an.load_temperature_K * g_load);
   an.floor_V2_per_Hz = a.voltage_noise_V_per_rtHz * a.voltage_noise_V_per_rtHz +
-                       re * re * a.current_noise_A_per_rtHz * a.current_noise_A_per_rtHz + 4.0 * kt * re;
+                       re * re * a.current_noise_A_per_rtHz * a.current_noise_A_per_rtHz + johnson;
   an.floor_current_A2_per_Hz = an.floor_V2_per_Hz / (re * re);
   const double total = an.signal_V2_per_Hz + an.floor_V2_per_Hz;
-  an.snr = std::abs(an.signal_V2_per_Hz) / total * std::sqrt(a.bandwidth_Hz * a.integration_s);
+  // On/off: the difference of two averages of equal length has twice the variance of one.
+  const double variance_factor = a.reference_subtraction ? 2.0 : 1.0;
+  an.snr = std::abs(an.signal_V2_per_Hz) / total * std::sqrt(a.bandwidth_Hz * a.integration_s / variance_factor);
   if (std::abs(an.signal_V2_per_Hz) > 0.0) {
     const double ratio = target_sigmas * total / std::abs(an.signal_V2_per_Hz);
-    an.time_for_target_s = ratio * ratio / a.bandwidth_Hz;
+    an.time_for_target_s = variance_factor * ratio * ratio / a.bandwidth_Hz;
   }
   return an;
 }
@@ -213,6 +222,269 @@ double FractionalPartitionNoise_A2_per_Hz(double charge_C, double voltage_V, dou
   const double bracket = u < 1e-4 ? u / 3.0 : 1.0 / std::tanh(u) - 1.0 / u;
   return 2.0 * x * conductance_S * t * (1.0 - t) * bracket;
 }
+
+std::string ToString(ColliderModel m) {
+  return m == ColliderModel::kZeroTemperature ? "zero-temperature" : "finite-temperature";
+}
+std::optional<ColliderModel> ColliderModelFromString(const std::string& s) {
+  if (s == "zero-temperature") return ColliderModel::kZeroTemperature;
+  if (s == "finite-temperature") return ColliderModel::kFiniteTemperature;
+  return std::nullopt;
+}
+
+namespace {
+
+// The regime of a fractional constriction: the design's, else weak backscattering at every t, so the
+// charge does not jump where t crosses 1/2 (docs/models.md "Fractional constriction").
+Regime EffectiveRegime(const Constriction& c) {
+  return c.regime.value_or(Regime::kWeak);
+}
+
+// What arrives at one input of a possible collider (channel k, input piece `in`).
+struct Feed {
+  int source = -1, contact = -1, source_face = 0;
+  double stream_A = 0.0;    // g (mu - 0): the excess current above the grounds
+  double dilution = 0.0;    // fraction of the feeding constriction's hot input that the stream carries
+  bool equilibrium = true;  // no stream
+  std::string problem;      // why this input is not a dilute anyon stream (empty when it is)
+};
+
+Feed FeedOf(const Design& d, const EdgeNetwork& net, const TransportResult& tr, int k, int in, double scale_V) {
+  const EdgePiece& p = net.pieces[static_cast<std::size_t>(in)];
+  const double g = d.channels[static_cast<std::size_t>(k)].conductance.value() * kConductanceQuantum_S;
+  const double mu = tr.piece_potential_V[static_cast<std::size_t>(in)];
+  Feed f;
+  f.stream_A = g * mu;
+  f.equilibrium = std::abs(mu) <= 1e-9 * scale_V;
+  if (p.from.kind == EdgeEnd::Kind::kContact) {
+    f.contact = p.from.index;
+    f.dilution = f.equilibrium ? 0.0 : 1.0;
+    if (!f.equilibrium)
+      f.problem = "its edge comes straight from contact " + d.contacts[static_cast<std::size_t>(p.from.index)].name +
+                  " at " + std::to_string(mu * 1e6).substr(0, 7) + " uV: a full edge, not a dilute stream";
+    return f;
+  }
+  f.source = p.from.index;
+  f.source_face = p.from.face;
+  const Constriction& src = d.constrictions[static_cast<std::size_t>(p.from.index)];
+  const int i0 = PortPiece(net, k, p.from.index, 0, false), i1 = PortPiece(net, k, p.from.index, 1, false);
+  double hot = 0.0;
+  for (int i : {i0, i1})
+    if (i >= 0) hot = std::max(hot, std::abs(tr.piece_potential_V[static_cast<std::size_t>(i)]));
+  f.dilution = hot > 0.0 ? std::abs(mu) / hot : 0.0;
+  if (!f.equilibrium && EffectiveRegime(src) == Regime::kStrong)
+    f.problem = "constriction " + src.name + " is in strong backscattering: its stream carries electrons";
+  return f;
+}
+
+// Colliders: constrictions on a fractional channel with 0 < t < 1 fed on at least one input by the
+// output of an upstream constriction that carries a stream, the other input a stream or an edge at
+// equilibrium (one-beam partitioning). P is computed where the model's domain allows; the collider is
+// put into the contact matrix when both inputs are dilute (or at equilibrium) and it tunnels weakly.
+std::vector<ColliderPrediction> FindColliders(const Design& d, const EdgeNetwork& net, const TransportResult& tr,
+                                              const NoiseOptions& opt, std::vector<Finding>* findings) {
+  std::vector<ColliderPrediction> out;
+  const double temperature = d.conditions.temperature_K;
+  double scale = 0.0;
+  for (const auto& v : tr.voltage_V) scale = std::max(scale, std::abs(v.value_or(0.0)));
+  for (std::size_t k = 0; k < d.channels.size(); ++k) {
+    const Channel& ch = d.channels[k];
+    if (is_integer_channel(ch)) continue;
+    for (std::size_t q = 0; q < d.constrictions.size(); ++q) {
+      const Constriction& c = d.constrictions[q];
+      const double t = c.transmission[k];
+      const int kk = static_cast<int>(k), qq = static_cast<int>(q);
+      const int in0 = in_piece(net, kk, qq, 0), in1 = in_piece(net, kk, qq, 1);
+      if (!(t > 0.0 && t < 1.0) || in0 < 0 || in1 < 0) continue;
+      const EdgePiece& p0 = net.pieces[static_cast<std::size_t>(in0)];
+      const EdgePiece& p1 = net.pieces[static_cast<std::size_t>(in1)];
+      auto upstream = [&](const EdgePiece& p) {
+        return p.from.kind == EdgeEnd::Kind::kConstriction && p.from.index != qq;
+      };
+      if (!upstream(p0) && !upstream(p1)) continue;
+      const Feed a = FeedOf(d, net, tr, kk, in0, scale), b = FeedOf(d, net, tr, kk, in1, scale);
+      if (a.equilibrium && b.equilibrium) continue;  // nothing arrives: no collider at this bias
+      // Fed by one upstream constriction only: a one-beam collider when that stream is dilute and the
+      // other input is at equilibrium; otherwise two constrictions in series, not a collider.
+      if (!(upstream(p0) && upstream(p1))) {
+        const Feed& fed = upstream(p0) ? a : b;
+        const Feed& other = upstream(p0) ? b : a;
+        if (!other.equilibrium || fed.equilibrium || fed.dilution > opt.dilution_limit) continue;
+      }
+      ColliderPrediction cp;
+      cp.constriction = qq;
+      cp.channel = kk;
+      cp.source_first = a.source;
+      cp.source_second = b.source;
+      cp.contact_first = a.contact;
+      cp.contact_second = b.contact;
+      cp.stream_first_A = a.equilibrium ? 0.0 : a.stream_A;
+      cp.stream_second_A = b.equilibrium ? 0.0 : b.stream_A;
+      cp.dilution_first = a.dilution;
+      cp.dilution_second = b.dilution;
+      cp.one_beam = a.equilibrium || b.equilibrium;
+      cp.i_plus_A = cp.stream_first_A + cp.stream_second_A;
+      cp.i_minus_A = cp.stream_first_A - cp.stream_second_A;
+      const Regime reg = EffectiveRegime(c);
+      cp.tunnelling = reg == Regime::kWeak ? 1.0 - t : t;
+      cp.charge_e = ch.charge_e;
+      cp.exchange_pi = ch.exchange_pi.value_or(0.0);
+      cp.scaling = ch.scaling.value_or(0.0);
+      cp.dilute = a.dilution <= opt.dilution_limit && b.dilution <= opt.dilution_limit;
+      cp.weak_tunnelling = reg == Regime::kWeak && cp.tunnelling <= opt.weak_tunnelling_limit;
+      cp.exchange_below_half_pi = ch.exchange_pi && *ch.exchange_pi < 0.5;
+      for (int f = 0; f < 2; ++f) {
+        const int o = out_piece(net, kk, qq, f);
+        int best = -1;
+        double most = 0.0;
+        for (std::size_t x = 0; o >= 0 && x < d.contacts.size(); ++x)
+          if (tr.piece_absorption[static_cast<std::size_t>(o)][x] > most) {
+            most = tr.piece_absorption[static_cast<std::size_t>(o)][x];
+            best = static_cast<int>(x);
+          }
+        // Output 1 continues input 1 across the gap (face 1), output 2 continues input 2 (face 0).
+        (f == 1 ? cp.output_first : cp.output_second) = best;
+      }
+      if (!ch.note.empty()) cp.caveats.push_back(ch.note);
+      // Why P is not computed, in order of precedence.
+      if (!ch.exchange_pi || !ch.scaling || !cp.exchange_below_half_pi)
+        cp.not_computed =
+            "exchange phase " + (ch.exchange_pi ? std::to_string(*ch.exchange_pi).substr(0, 5) + " pi" : "unknown") +
+            ": the sharp-step braiding model of P does not apply above pi/2 (finite anyon width: Thamm & Rosenow, "
+            "arXiv:2312.04475; Rosenow & Halperin, arXiv:2510.04319); the collider is not computed";
+      else if (!(cp.scaling > 0.0 && cp.scaling < 0.5))
+        cp.not_computed = "scaling dimension outside (0, 1/2): the collider formula does not apply";
+      else if (!a.problem.empty() || !b.problem.empty())
+        cp.not_computed = "input " + std::string(a.problem.empty() ? "2: " + b.problem : "1: " + a.problem);
+      else if (cp.stream_first_A * cp.stream_second_A < 0.0)
+        cp.not_computed =
+            "the two input streams have opposite signs (one source biased negative): outside the domain of the "
+            "formula, which assumes streams of one sign";
+      cp.rate_over_temperature = ColliderRateOverTemperature(
+          cp.exchange_below_half_pi ? cp.exchange_pi * std::numbers::pi : std::numbers::pi / 2, std::abs(cp.i_plus_A),
+          cp.charge_e * kElementaryCharge_C, temperature);
+      if (cp.not_computed.empty()) {
+        const double theta = cp.exchange_pi * std::numbers::pi;
+        const double x = cp.i_minus_A / cp.i_plus_A;  // same signs: |x| <= 1
+        const ColliderNoiseShape zero = ColliderShape(x, theta, cp.scaling, HUGE_VAL);
+        const ColliderNoiseShape warm = ColliderShape(x, theta, cp.scaling, cp.rate_over_temperature);
+        cp.fano = zero.p;
+        cp.fano_finite_temperature = warm.p;
+        // One beam: the published effect (braiding with thermally excited pairs at the constriction; Lee,
+        // Han & Sim, Phys. Rev. Lett. 123, 016803 (2019)) exists only at finite temperature, so that form
+        // fills the matrix whatever the option.
+        const bool warm_used = opt.collider_model == ColliderModel::kFiniteTemperature || cp.one_beam;
+        const ColliderNoiseShape& used = warm_used ? warm : zero;
+        cp.model_in_matrix = warm_used ? ColliderModel::kFiniteTemperature : ColliderModel::kZeroTemperature;
+        const double unit =
+            2.0 * cp.charge_e * kElementaryCharge_C * std::abs(cp.i_plus_A) * cp.tunnelling * (1.0 - cp.tunnelling);
+        cp.s34_A2_per_Hz = used.p * unit;
+        cp.in_contact_matrix = cp.dilute && cp.weak_tunnelling;
+        cp.shape = {used.p * unit, used.s1t * unit, used.s2t * unit, used.stt * unit};
+      }
+      if (!cp.dilute)
+        cp.caveats.push_back("an input is not dilute (it carries more than " +
+                             std::to_string(static_cast<int>(opt.dilution_limit * 100 + 0.5)) +
+                             " % of the bias of its feeding constriction's hot input, common practice): the P "
+                             "prediction does not apply and the contact matrix uses the independent partition model");
+      if (!cp.weak_tunnelling)
+        cp.caveats.push_back("the collider is not in weak tunnelling (tunnelling above " +
+                             std::to_string(opt.weak_tunnelling_limit).substr(0, 4) +
+                             "): the contact matrix uses the independent partition model");
+      if (cp.not_computed.empty() && cp.rate_over_temperature < 1.0)
+        cp.caveats.push_back(
+            "injection rate below the temperature (zeta = " + std::to_string(cp.rate_over_temperature).substr(0, 5) +
+            " < 1): P at the design temperature differs from the T = 0 value; published comparisons with measurements "
+            "use the T = 0 form");
+      if (!cp.dilute || !cp.not_computed.empty())
+        findings->push_back(
+            {Severity::kWarning, "collider-not-applicable",
+             "collider " + c.name + ": " + (cp.not_computed.empty() ? cp.caveats.back() : cp.not_computed), c.where});
+      out.push_back(cp);
+    }
+  }
+  return out;
+}
+
+const ColliderPrediction* MatrixColliderAt(const std::vector<ColliderPrediction>& cs, int k, int q) {
+  for (const ColliderPrediction& c : cs)
+    if (c.in_contact_matrix && c.channel == k && c.constriction == q) return &c;
+  return nullptr;
+}
+
+// Adds the fractional channels' excess noise to `excess`; returns whether there was any fractional channel.
+bool AddFractionalNoise(const Design& d, const EdgeNetwork& net, const TransportResult& tr,
+                        const std::vector<ColliderPrediction>& colliders, double temperature, Mat& excess,
+                        std::vector<Finding>* findings) {
+  const int nc = static_cast<int>(d.contacts.size());
+  auto absorb = [&](int piece) {
+    Eigen::VectorXd a = Eigen::VectorXd::Zero(nc);
+    for (int x = 0; piece >= 0 && x < nc; ++x)
+      a(x) = tr.piece_absorption[static_cast<std::size_t>(piece)][static_cast<std::size_t>(x)];
+    return a;
+  };
+  bool any = false;
+  for (std::size_t k = 0; k < d.channels.size(); ++k) {
+    if (is_integer_channel(d.channels[k])) continue;
+    any = true;
+    const int kk = static_cast<int>(k);
+    const double g = d.channels[k].conductance.value() * kConductanceQuantum_S;
+    // The inputs' noise vectors of each matrix collider, filled while the sources are visited.
+    std::vector<Eigen::VectorXd> w_in(2 * d.constrictions.size(), Eigen::VectorXd::Zero(nc));
+    for (std::size_t q = 0; q < d.constrictions.size(); ++q) {
+      const Constriction& c = d.constrictions[q];
+      const int qq = static_cast<int>(q);
+      const double t = c.transmission[k];
+      if (!(t > 0.0 && t < 1.0) || MatrixColliderAt(colliders, kk, qq)) continue;
+      const int i0 = in_piece(net, kk, qq, 0), i1 = in_piece(net, kk, qq, 1);
+      const int o0 = out_piece(net, kk, qq, 0), o1 = out_piece(net, kk, qq, 1);
+      if (i0 < 0 || i1 < 0 || o0 < 0 || o1 < 0) continue;
+      const double vq = std::abs(tr.piece_potential_V[static_cast<std::size_t>(i0)] -
+                                 tr.piece_potential_V[static_cast<std::size_t>(i1)]);
+      const bool weak = EffectiveRegime(c) == Regime::kWeak;
+      if (!c.regime && t < 0.8 && vq > 0.0)
+        findings->push_back(
+            {Severity::kWarning, "fractional-charge-uncertain",
+             "constriction " + c.name + ": transmission " + std::to_string(t).substr(0, 5) + " of channel " +
+                 std::to_string(k + 1) +
+                 " lies in the crossover from weak backscattering (charge e*) to electron tunnelling (charge e); "
+                 "the noise uses e* throughout; give `regime: strong` for the electron picture (Kane & Fisher, Phys. "
+                 "Rev. Lett. 72, 724 (1994))",
+             c.where});
+      const double charge = (weak ? d.channels[k].charge_e : 1.0) * kElementaryCharge_C;
+      const double sq = FractionalPartitionNoise_A2_per_Hz(charge, vq, g, t, temperature);
+      // +dI on output o1, -dI on o0; a source of a matrix collider carries its stream's fluctuation
+      // across that collider (the collider's own block carries the tunnelling).
+      Eigen::VectorXd w = absorb(o1) - absorb(o0);
+      for (const ColliderPrediction& cp : colliders) {
+        if (!cp.in_contact_matrix || cp.channel != kk) continue;
+        for (int input = 0; input < 2; ++input) {
+          if ((input == 0 ? cp.source_first : cp.source_second) != qq) continue;
+          const int stream_piece = in_piece(net, kk, cp.constriction, input);
+          const int self_face = net.pieces[static_cast<std::size_t>(stream_piece)].from.face;
+          w = absorb(out_piece(net, kk, cp.constriction, 1 - input)) - absorb(out_piece(net, kk, qq, 1 - self_face));
+          w_in[2 * static_cast<std::size_t>(cp.constriction) + static_cast<std::size_t>(input)] = w;
+        }
+      }
+      excess += sq * w * w.transpose();
+    }
+    // Each matrix collider: dI_T moves current from output 1 (face 1) to output 2 (face 0);
+    // S_1T and S_2T pair it with its inputs' fluctuations, S_TT with itself.
+    for (const ColliderPrediction& cp : colliders) {
+      if (!cp.in_contact_matrix || cp.channel != kk) continue;
+      const Eigen::VectorXd wt =
+          absorb(out_piece(net, kk, cp.constriction, 0)) - absorb(out_piece(net, kk, cp.constriction, 1));
+      const Eigen::VectorXd& wa = w_in[2 * static_cast<std::size_t>(cp.constriction)];
+      const Eigen::VectorXd& wb = w_in[2 * static_cast<std::size_t>(cp.constriction) + 1];
+      excess += cp.shape.stt_A2_per_Hz * wt * wt.transpose() +
+                cp.shape.s1t_A2_per_Hz * (wa * wt.transpose() + wt * wa.transpose()) +
+                cp.shape.s2t_A2_per_Hz * (wb * wt.transpose() + wt * wb.transpose());
+    }
+  }
+  return any;
+}
+
+}  // namespace
 
 NoiseResult SolveNoise(const Design& d, const EdgeNetwork& net, const TransportResult& tr, const NoiseOptions& opt) {
   std::string why;
@@ -308,41 +580,16 @@ NoiseResult SolveNoise(const Design& d, const EdgeNetwork& net, const TransportR
   }
   Mat excess = s_bias - s_eq;
 
-  // ---- Fractional channels: independent partition noise at each constriction ----
-  bool any_fractional = false;
-  for (std::size_t k = 0; k < d.channels.size(); ++k) {
-    if (is_integer_channel(d.channels[k])) continue;
-    any_fractional = true;
-    const double g = d.channels[k].conductance.value() * kConductanceQuantum_S;
-    for (std::size_t q = 0; q < d.constrictions.size(); ++q) {
-      const Constriction& c = d.constrictions[q];
-      const double t = c.transmission[k];
-      if (!(t > 0.0 && t < 1.0)) continue;
-      const int i0 = in_piece(net, static_cast<int>(k), static_cast<int>(q), 0),
-                i1 = in_piece(net, static_cast<int>(k), static_cast<int>(q), 1);
-      const int o0 = out_piece(net, static_cast<int>(k), static_cast<int>(q), 0),
-                o1 = out_piece(net, static_cast<int>(k), static_cast<int>(q), 1);
-      if (i0 < 0 || i1 < 0 || o0 < 0 || o1 < 0) continue;
-      const double vq = std::abs(tr.piece_potential_V[static_cast<std::size_t>(i0)] -
-                                 tr.piece_potential_V[static_cast<std::size_t>(i1)]);
-      const Regime regime = c.regime.value_or(t >= 0.5 ? Regime::kWeak : Regime::kStrong);
-      const double charge = (regime == Regime::kWeak ? d.channels[k].charge_e : 1.0) * kElementaryCharge_C;
-      const double sq = FractionalPartitionNoise_A2_per_Hz(charge, vq, g, t, temperature);
-      Eigen::VectorXd w(nc);
-      for (int a = 0; a < nc; ++a)
-        w(a) = tr.piece_absorption[static_cast<std::size_t>(o1)][static_cast<std::size_t>(a)] -
-               tr.piece_absorption[static_cast<std::size_t>(o0)][static_cast<std::size_t>(a)];
-      excess += sq * w * w.transpose();
-    }
-  }
-  if (any_fractional)
+  // ---- Fractional channels: colliders first (they decide how their inputs' noise is carried), then
+  // the partition noise of every constriction and each collider's own block ----
+  r.colliders = FindColliders(d, net, tr, opt, &r.findings);
+  if (AddFractionalNoise(d, net, tr, r.colliders, temperature, excess, &r.findings))
     r.models.push_back(
-        "fractional channels: independent partition noise at each constriction, 2 e* V g t(1-t)[coth(e*V/2kT) - "
-        "2kT/e*V], with "
-        "e* of its regime (Kane & Fisher, Phys. Rev. Lett. 72, 724 (1994); physics.md 5), carried to the contacts by "
-        "the "
-        "incoherent network; correlations between constrictions and anyonic braiding are not included here (see "
-        "colliders)");
+        "fractional channels: partition noise at each constriction, 2 e* V g t(1-t)[coth(e*V/2kT) - 2kT/e*V], with "
+        "e* of its regime (weak backscattering unless the design says `regime: strong`; Kane & Fisher, Phys. Rev. "
+        "Lett. 72, 724 (1994)), carried to the contacts by the incoherent network; a collider in the contact matrix "
+        "replaces the splitting of its inputs' noise by its own block (S_34 from P, the rest from current "
+        "conservation; docs/models.md \"Anyon collider\")");
   const Mat equilibrium = 2.0 * kt * (G + G.transpose());
 
   // ---- Floating contacts and current sources: dI = 0 ----
@@ -407,7 +654,8 @@ NoiseResult SolveNoise(const Design& d, const EdgeNetwork& net, const TransportR
     const double rr = ax->effective_resistance_Ohm * ay->effective_resistance_Ohm;
     const double sxx = ax->signal_V2_per_Hz + ax->floor_V2_per_Hz, syy = ay->signal_V2_per_Hz + ay->floor_V2_per_Hz;
     const double sxy = rr * (s_xy_current + eq_p(x, y));
-    const double var = sxx * syy + sxy * sxy;
+    // On/off measurement at either amplifier: the difference of two averages doubles the variance.
+    const double var = (a.reference_subtraction || b.reference_subtraction ? 2.0 : 1.0) * (sxx * syy + sxy * sxy);
     const double signal = rr * s_xy_current;
     *snr = std::abs(signal) / std::sqrt(var / (2.0 * df * t));
     if (std::abs(target_signal_V2) > 0.0) *time = var / (2.0 * df * target_signal_V2 * target_signal_V2);
@@ -426,106 +674,31 @@ NoiseResult SolveNoise(const Design& d, const EdgeNetwork& net, const TransportR
     }
   if (!amps.empty())
     r.models.push_back(
-        "amplifier chain: sample in parallel with the load, S_V = R^2 S_I + e_n^2 + R^2 i_n^2 + 4kTR; averaging "
+        "amplifier chain: sample in parallel with the load, S_V = R^2 S_I + e_n^2 + R^2 i_n^2 + 4k R^2 (T_s/R_s + "
+        "T_L/R_L) with the load at its own temperature; averaging "
         "error S/sqrt(df t) for autocorrelations and sqrt((SxxSyy + Sxy^2)/(2 df t)) for cross-correlations "
         "(Dicke radiometer formula; physics.md 8)");
 
-  // ---- Colliders ----
-  for (std::size_t k = 0; k < d.channels.size(); ++k) {
-    const Channel& ch = d.channels[k];
-    if (is_integer_channel(ch) || !ch.exchange_pi || !ch.scaling) continue;
-    for (std::size_t q = 0; q < d.constrictions.size(); ++q) {
-      const Constriction& c = d.constrictions[q];
-      const int in0 = in_piece(net, static_cast<int>(k), static_cast<int>(q), 0),
-                in1 = in_piece(net, static_cast<int>(k), static_cast<int>(q), 1);
-      if (in0 < 0 || in1 < 0) continue;
-      const EdgePiece& p0 = net.pieces[static_cast<std::size_t>(in0)];
-      const EdgePiece& p1 = net.pieces[static_cast<std::size_t>(in1)];
-      if (p0.from.kind != EdgeEnd::Kind::kConstriction || p1.from.kind != EdgeEnd::Kind::kConstriction) continue;
-      if (p0.from.index == static_cast<int>(q) || p1.from.index == static_cast<int>(q)) continue;
-      // A source constriction in weak backscattering sends its reflected quasiparticles along the
-      // output on the face where its hot input arrived; the stream is that output's potential
-      // above the other (transmitted, noiseless) input.
-      auto stream = [&](const EdgePiece& p, double* tunnelling) -> std::optional<double> {
-        const Constriction& src = d.constrictions[static_cast<std::size_t>(p.from.index)];
-        const double ts = src.transmission[k];
-        const Regime reg = src.regime.value_or(ts >= 0.5 ? Regime::kWeak : Regime::kStrong);
-        if (reg != Regime::kWeak || !(ts < 1.0)) return std::nullopt;
-        *tunnelling = 1.0 - ts;
-        const int other = in_piece(net, static_cast<int>(k), p.from.index, 1 - p.from.face);
-        const int self = out_piece(net, static_cast<int>(k), p.from.index, p.from.face);
-        if (other < 0 || self < 0) return std::nullopt;
-        return ch.conductance.value() * kConductanceQuantum_S *
-               std::abs(tr.piece_potential_V[static_cast<std::size_t>(self)] -
-                        tr.piece_potential_V[static_cast<std::size_t>(other)]);
-      };
-      double ta = 0.0, tb = 0.0;
-      const auto ia = stream(p0, &ta), ib = stream(p1, &tb);
-      if (!ia || !ib) continue;
-      ColliderPrediction cp;
-      cp.constriction = static_cast<int>(q);
-      cp.channel = static_cast<int>(k);
-      cp.source_first = p0.from.index;
-      cp.source_second = p1.from.index;
-      cp.stream_first_A = *ia;
-      cp.stream_second_A = *ib;
-      cp.i_plus_A = *ia + *ib;
-      cp.i_minus_A = *ia - *ib;
-      const Regime reg = c.regime.value_or(c.transmission[k] >= 0.5 ? Regime::kWeak : Regime::kStrong);
-      cp.tunnelling = reg == Regime::kWeak ? 1.0 - c.transmission[k] : c.transmission[k];
-      cp.charge_e = ch.charge_e;
-      cp.exchange_pi = *ch.exchange_pi;
-      cp.scaling = *ch.scaling;
-      cp.dilute = ta <= opt.dilution_limit && tb <= opt.dilution_limit;
-      cp.weak_tunnelling = reg == Regime::kWeak && cp.tunnelling <= opt.weak_tunnelling_limit;
-      cp.exchange_below_half_pi = cp.exchange_pi <= 0.5;
-      const double theta = cp.exchange_pi * std::numbers::pi;
-      const double charge = cp.charge_e * kElementaryCharge_C;
-      cp.rate_over_temperature = ColliderRateOverTemperature(theta, cp.i_plus_A, charge, temperature);
-      for (int f = 0; f < 2; ++f) {
-        const int o = out_piece(net, static_cast<int>(k), static_cast<int>(q), f);
-        int best = -1;
-        double most = 0.0;
-        for (int a = 0; o >= 0 && a < nc; ++a)
-          if (tr.piece_absorption[static_cast<std::size_t>(o)][static_cast<std::size_t>(a)] > most) {
-            most = tr.piece_absorption[static_cast<std::size_t>(o)][static_cast<std::size_t>(a)];
-            best = a;
-          }
-        (f == 0 ? cp.output_first : cp.output_second) = best;
-      }
-      if (!ch.note.empty()) cp.caveats.push_back(ch.note);
-      if (!cp.dilute)
-        cp.caveats.push_back("a source constriction is not dilute (tunnelling probability above the dilution limit)");
-      if (!cp.weak_tunnelling) cp.caveats.push_back("the collider is not in weak tunnelling");
-      if (!cp.exchange_below_half_pi)
-        cp.caveats.push_back("exchange phase above pi/2: the formula does not apply (finite anyon width)");
-      if (cp.rate_over_temperature < 1.0)
-        cp.caveats.push_back(
-            "injection rate below the temperature (zeta < 1): the T = 0 form is not reliable; thermal effects are not "
-            "included");
-      const double x = cp.i_plus_A > 0.0 ? cp.i_minus_A / cp.i_plus_A : 1.0;
-      if (cp.exchange_below_half_pi && cp.exchange_pi > 0.0 && cp.scaling > 0.0 && cp.scaling < 0.5 &&
-          cp.i_plus_A > 0.0 && std::abs(x) < 1.0 && cp.exchange_pi < 0.5) {
-        cp.fano = ColliderFano(x, theta, cp.scaling);
-        cp.s34_A2_per_Hz = 2.0 * *cp.fano * charge * cp.i_plus_A * cp.tunnelling * (1.0 - cp.tunnelling);
-        if (cp.output_first >= 0 && cp.output_second >= 0 && amp_of(cp.output_first) && amp_of(cp.output_second) &&
-            cp.output_first != cp.output_second) {
-          const double rr =
-              amp_of(cp.output_first)->effective_resistance_Ohm * amp_of(cp.output_second)->effective_resistance_Ohm;
-          double snr = 0.0;
-          cross_of(cp.output_first, cp.output_second, *cp.s34_A2_per_Hz, &snr, &cp.time_for_fano_s,
-                   rr * opt.collider_fano_uncertainty * *cp.s34_A2_per_Hz / *cp.fano);
-        }
-      } else if (std::abs(x) >= 1.0) {
-        cp.caveats.push_back("only one input carries a stream (|I-/I+| = 1): P is not defined");
-      }
-      r.colliders.push_back(cp);
-    }
+  // ---- Colliders: their time to know P from the drains' cross-correlation ----
+  for (ColliderPrediction& cp : r.colliders) {
+    if (!cp.s34_A2_per_Hz || cp.output_first < 0 || cp.output_second < 0 || cp.output_first == cp.output_second ||
+        !amp_of(cp.output_first) || !amp_of(cp.output_second))
+      continue;
+    const double rr =
+        amp_of(cp.output_first)->effective_resistance_Ohm * amp_of(cp.output_second)->effective_resistance_Ohm;
+    const double p_used =
+        cp.model_in_matrix == ColliderModel::kFiniteTemperature ? *cp.fano_finite_temperature : *cp.fano;
+    double snr = 0.0;
+    if (p_used != 0.0)
+      cross_of(cp.output_first, cp.output_second, excess_p(cp.output_first, cp.output_second), &snr,
+               &cp.time_for_fano_s, rr * opt.collider_fano_uncertainty * *cp.s34_A2_per_Hz / p_used);
   }
   if (!r.colliders.empty())
     r.models.push_back(
         "colliders: generalized Fano factor P of Rosenow, Levkivskyi & Halperin, Phys. Rev. Lett. 116, 156802 (2016), "
-        "T = 0, lowest order in the collider tunnelling (physics.md 6); S_34 = 2 P e* I+ T(1 - T) (physics.md A)");
+        "lowest order in the collider tunnelling, at T = 0 and with thermal edge correlators at the design "
+        "temperature; the contact matrix uses the " +
+        ToString(opt.collider_model) + " form; S_34 = 2 P e* |I+| T(1 - T) (docs/models.md \"Anyon collider\")");
   return r;
 }
 

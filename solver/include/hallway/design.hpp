@@ -109,6 +109,12 @@ struct Amplifier {
   double current_noise_A_per_rtHz = 0.0;
   double bandwidth_Hz = 0.0;
   double integration_s = 0.0;
+  // Temperature of the load resistor, whose Johnson noise enters at its own temperature (a cold load
+  // on a cryogenic amplifier often sits near 4.2 K, common practice); nullopt = the design temperature.
+  std::optional<double> load_temperature_K;
+  // An on/off measurement: the signal is the difference of two averages, each `integration_s` long,
+  // with and without the bias, so the variance of the estimate doubles.
+  bool reference_subtraction = false;
 };
 
 struct Wiring {

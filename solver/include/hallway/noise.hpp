@@ -33,13 +33,23 @@
 
 namespace hallway {
 
+// Which collider model fills the contact matrix (both are always computed and printed).
+enum class ColliderModel { kZeroTemperature, kFiniteTemperature };
+std::string ToString(ColliderModel m);
+std::optional<ColliderModel> ColliderModelFromString(const std::string& s);
+
 struct NoiseOptions {
   int phase_samples = 256;                 // phase configurations averaged when the network has loops
   std::optional<double> loop_phase_rad;    // fix the phase of every loop instead of averaging
   double target_sigmas = 10.0;             // signal-to-noise asked of every correlation
   double collider_fano_uncertainty = 0.1;  // +- on P
-  double dilution_limit = 0.1;             // source tunnelling probability counted as dilute (physics.md 7)
-  double weak_tunnelling_limit = 0.1;      // collider tunnelling probability counted as weak
+  // A collider input is dilute when its stream carries at most this fraction of the bias of the hot
+  // input of the constriction that feeds it (common practice: 0.1).
+  double dilution_limit = 0.1;
+  double weak_tunnelling_limit = 0.1;  // collider tunnelling probability counted as weak (common practice)
+  // Default zero-temperature: the form published comparisons with measurements use; measured values at
+  // zeta of about 0.1 have been reported close to it (docs/models.md "Anyon collider").
+  ColliderModel collider_model = ColliderModel::kZeroTemperature;
   bool IsValid(std::string* why) const;
 };
 
@@ -58,10 +68,16 @@ struct AmplifierNoise {
   double effective_resistance_Ohm = 0.0;  // sample in parallel with the load
   double excess_current_A2_per_Hz = 0.0;  // S_exc at the contact
   double signal_V2_per_Hz = 0.0;          // R_eff^2 S_exc
-  double floor_V2_per_Hz = 0.0;           // e_n^2 + R_eff^2 i_n^2 + 4 k_B T R_eff
+  double floor_V2_per_Hz = 0.0;           // e_n^2 + R_eff^2 i_n^2 + 4 k_B R_eff^2 (T_s/R_s + T_L/R_L)
   double floor_current_A2_per_Hz = 0.0;   // floor / R_eff^2
   double snr = 0.0;                       // with the design's bandwidth and averaging time
+  // With reference subtraction: the length of each of the two averages.
   std::optional<double> time_for_target_s;
+  // T_L used for the load's Johnson noise, and whether it is the design temperature (no
+  // `load_temperature` given).
+  double load_temperature_K = 0.0;
+  bool load_temperature_from_design = true;
+  bool reference_subtraction = false;  // on/off measurement: SNR / sqrt(2), time x 2
 };
 
 struct CrossNoise {
@@ -75,18 +91,37 @@ struct CrossNoise {
 struct ColliderPrediction {
   int constriction = 0;
   int channel = 0;
-  int source_first = 0, source_second = 0;  // the constrictions whose reflected streams feed it
+  // What feeds each input (input 1 arrives on face 0, input 2 on face 1): the constriction whose
+  // output it is (-1 when the edge comes straight from a contact, then `contact_first/second`).
+  int source_first = -1, source_second = -1;
+  int contact_first = -1, contact_second = -1;
+  // Signed excess currents that arrive at the two inputs (above the grounds' potential), from the
+  // transport solution, and the fraction of the feeding constriction's hot input that each carries.
   double stream_first_A = 0.0, stream_second_A = 0.0;
+  double dilution_first = 0.0, dilution_second = 0.0;
+  bool one_beam = false;  // one input at equilibrium (no stream), the other a dilute stream
   double i_plus_A = 0.0, i_minus_A = 0.0;
   double tunnelling = 0.0;  // of the collider, 1 - t in the weak regime
   double charge_e = 0.0;
   double exchange_pi = 0.0, scaling = 0.0;
-  std::optional<double> fano;                 // P(I-/I+)
-  std::optional<double> s34_A2_per_Hz;        // 2 P e* I+ T (1 - T)
+  std::optional<double> fano;                     // P(I-/I+) at T = 0
+  std::optional<double> fano_finite_temperature;  // P at the design temperature (thermal edge correlators)
+  // 2 P e* |I+| T (1 - T) with the P of NoiseOptions::collider_model: the value in the contact matrix.
+  std::optional<double> s34_A2_per_Hz;
+  bool in_contact_matrix = false;  // false: the independent partition model is used there instead
+  // The form whose P fills s34_A2_per_Hz and the matrix: NoiseOptions::collider_model, or finite
+  // temperature for one beam (its published effect needs thermal excitations).
+  ColliderModel model_in_matrix = ColliderModel::kZeroTemperature;
+  std::string not_computed;                   // why P is not computed or not used (empty when it is)
   int output_first = -1, output_second = -1;  // contacts that receive most of each output
   bool dilute = false, weak_tunnelling = false, exchange_below_half_pi = false;
   double rate_over_temperature = 0.0;     // zeta, physics.md 6.6
   std::optional<double> time_for_fano_s;  // averaging for P to +- NoiseOptions::collider_fano_uncertainty
+  // The collider's block in the contact matrix (model of NoiseOptions::collider_model), A^2/Hz:
+  // S_34 = s1t - s2t - stt (with I3 = I1 - I_T, I4 = I2 + I_T), S_1T, S_2T and the excess S_TT.
+  struct Block {
+    double s34_A2_per_Hz = 0.0, s1t_A2_per_Hz = 0.0, s2t_A2_per_Hz = 0.0, stt_A2_per_Hz = 0.0;
+  } shape;
   std::vector<std::string> caveats;
 };
 
@@ -109,8 +144,16 @@ NoiseResult SolveNoise(const Design& design, const EdgeNetwork& network, const T
                        const NoiseOptions& options = {});
 
 // The measurement chain at one amplifier contact (physics.md 8): the sample conductance gs seen there
-// in parallel with the load, S_V = R^2 S_exc + e_n^2 + R^2 i_n^2 + 4 k_B T R, SNR = S_sig / S_tot
-// sqrt(df t), and the averaging time for `target_sigmas`.
+// in parallel with the load, R = R_s || R_L, S_V = R^2 S_exc + e_n^2 + R^2 i_n^2 + J, SNR = S_sig / S_tot
+// sqrt(df t), and the averaging time for `target_sigmas`. J is each resistor's Johnson noise divided
+// by the other, the sample at `temperature_K` (the design's) and the load at its own T_L
+// (Amplifier::load_temperature_K, default the design's; Johnson, Phys. Rev. 32, 97 (1928); Nyquist,
+// Phys. Rev. 32, 110 (1928)):
+//   J = 4 k_B T_s R_s (R_L / (R_s + R_L))^2 + 4 k_B T_L R_L (R_s / (R_s + R_L))^2,
+// which is 4 k_B T R when T_L = T_s; R_s = infinity (gs = 0) leaves 4 k_B T_L R_L. With
+// Amplifier::reference_subtraction (on/off: the difference of two averages, each t long) the variance
+// doubles: SNR / sqrt(2) and twice the time (counting the off average at the on level, exact when the
+// signal is small against the floor and conservative otherwise).
 AmplifierNoise AmplifierChain(double sample_conductance_S, const Amplifier& amplifier, double temperature_K,
                               double excess_A2_per_Hz, double target_sigmas);
 
