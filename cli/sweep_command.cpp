@@ -110,7 +110,10 @@ std::string quantities_header(const Design& d, const std::set<std::string>& q) {
   if (q.count("snr"))
     for (const auto& a : amps) add("SNR_" + a);
   if (q.count("fano"))
-    for (const Constriction& k : d.constrictions) add("P_" + k.name);
+    for (const Constriction& k : d.constrictions) {
+      add("P_" + k.name);
+      add("P_finite_temperature_" + k.name);
+    }
   if (q.count("saddle"))
     for (const Constriction& k : d.constrictions) add("saddle_density_" + k.name + "_per_m2");
   if (q.count("pinchoff"))
@@ -242,10 +245,14 @@ std::string solve_point(const std::string& text, const std::string& path, const 
     stage = "collider Fano factors";
     if (q.count("fano"))
       for (std::size_t k = 0; k < d.constrictions.size(); ++k) {
-        std::optional<double> p;
+        std::optional<double> p, pt;
         for (const ColliderPrediction& c : n.colliders)
-          if (c.constriction == static_cast<int>(k) && c.fano) p = *c.fano;
+          if (c.constriction == static_cast<int>(k) && c.fano) {
+            p = *c.fano;
+            pt = c.fano_finite_temperature;
+          }
         add_optional(p);
+        add_optional(pt);
       }
   }
   stage = "saddle densities";
