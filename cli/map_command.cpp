@@ -38,8 +38,10 @@ int RunMap(const MapArgs& args) {
       std::cerr << "hallway: usage error: --grid: " << e.what() << "\n";
       return kExitUsage;
     }
-    if (!(opt.electrostatics.grid_m >= 1e-9)) {
-      std::cerr << "hallway: usage error: --grid must be at least 1 nm\n";
+    // 1 nm to 10 um: finer than lithography draws is wasted memory, coarser than 10 um resolves no
+    // gate of a quantum Hall device (common practice).
+    if (!(opt.electrostatics.grid_m >= 1e-9 && opt.electrostatics.grid_m <= 10e-6)) {
+      std::cerr << "hallway: usage error: --grid must lie between 1 nm and 10 um; got '" << args.grid << "'\n";
       return kExitUsage;
     }
   }
@@ -78,6 +80,10 @@ int RunMap(const MapArgs& args) {
                      s.converged ? "converged" : "NOT converged");
   out += fmt::format("  {} solves in all, {} operator applications, {:.3g} s\n", m.solves, m.operator_applications,
                      m.seconds);
+  out +=
+      "  density grid (--csv): at the mesa's sharp corners this model's density grows without bound as the cells\n"
+      "  shrink (the field at the corner of a charged sheet); the filling there is a property of the model, not a\n"
+      "  prediction (docs/models.md, \"Thomas-Fermi electrostatics\")\n";
   out += "\nGates\n";
   out += fmt::format("  {:<8} {:>12} {:>16} {:>18} {:>14}\n", "gate", "wide V_dep", "V_dep (its size)",
                      "lateral depletion", "edge drift");

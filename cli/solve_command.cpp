@@ -64,10 +64,11 @@ void print_field(std::string& out, const Design& d, const Solved& s) {
                        volt_text(t.voltage_V[i]), FormatSI(t.current_A[i], "A"));
   for (const auto& src : t.sources)
     out += fmt::format(
-        "  source {} sees a two-terminal resistance of {}\n", d.contacts[static_cast<std::size_t>(src.contact)].name,
+        "  source {} sees a two-terminal resistance of {}{}\n", d.contacts[static_cast<std::size_t>(src.contact)].name,
         src.resistance_Ohm ? FormatSI(*src.resistance_Ohm, "Ohm") +
                                  fmt::format(" ({:.4f} h/e^2)", *src.resistance_Ohm / constants::kVonKlitzing_Ohm)
-                           : std::string("(no current flows)"));
+                           : std::string("(no current flows)"),
+        t.sources.size() > 1 ? " (the other sources set to zero)" : "");
   out += "  routes (fraction of each source's current per channel; edge lengths along the edge)\n";
   for (const Route& r : t.routes) {
     out +=

@@ -98,7 +98,18 @@ struct KernelGrid {
   static double Kernel(int di, int dj, double h, double depth, double eps) {
     const double pref = 1.0 / (4.0 * std::numbers::pi * eps);
     auto point_kernel = [&](double r) { return 1.0 / r - 1.0 / std::sqrt(r * r + 4.0 * depth * depth); };
-    if (di == 0 && dj == 0) return pref * (4.0 * h * std::log(1.0 + std::numbers::sqrt2) - h * h / (2.0 * depth));
+    if (di == 0 && dj == 0) {
+      // The self cell exactly: the integral of 1/r over a square of side h is 4 h ln(1 + sqrt 2); that of
+      // 1/sqrt(r^2 + c^2), c = 2d, is 4 Q with Q its integral over the quarter [0, h/2]^2, from the
+      // antiderivative x ln(y + R) + y ln(x + R) - c atan(x y / (c R)), R = sqrt(x^2 + y^2 + c^2). The
+      // difference stays positive for any cell size (the expansion h^2 / 2d turned negative beyond about
+      // seven depths and with it the operator).
+      const double a = 0.5 * h, c = 2.0 * depth;
+      const double r_aa = std::sqrt(2.0 * a * a + c * c), r_a0 = std::sqrt(a * a + c * c);
+      const double quarter =
+          2.0 * a * std::log(a + r_aa) - c * std::atan(a * a / (c * r_aa)) - 2.0 * a * std::log(r_a0);
+      return pref * (4.0 * h * std::log(1.0 + std::numbers::sqrt2) - 4.0 * quarter);
+    }
     if (std::abs(di) <= 3 && std::abs(dj) <= 3) {
       // Near cells: the cell average of the kernel by an 8 x 8 midpoint rule.
       double sum = 0.0;

@@ -93,7 +93,7 @@ std::optional<ConstrictionMap> MapConstriction(const Design& d, const Constricti
   cm.gap_m = gap->distance_m;
   const double half = opt.window_m > 0.0 ? opt.window_m : 0.5 * gap->distance_m + 12.0 * depth;
   ElectrostaticsOptions lo = opt.electrostatics;
-  lo.grid_m = opt.local_grid_m > 0.0 ? opt.local_grid_m : std::max(2e-9, std::min(depth / 4.0, gap->distance_m / 8.0));
+  lo.grid_m = opt.local_grid_m > 0.0 ? opt.local_grid_m : ConstrictionWindowCell_m(depth, gap->distance_m, half);
   const ElectrostaticProblem local(d, lo, ElectrostaticWindow{gap->midpoint(), half, half});
   const SaddleStrip strip = SaddleStrip::For(d, k, *gap, 0.25 * local.cell_m());
   const int ga = gate_index(d, k.first), gb = gate_index(d, k.second);
@@ -126,6 +126,10 @@ std::optional<ConstrictionMap> MapConstriction(const Design& d, const Constricti
 }
 
 }  // namespace
+
+double ConstrictionWindowCell_m(double depth_m, double gap_m, double half_m) {
+  return std::max({2e-9, std::min(depth_m / 4.0, gap_m / 8.0), 2.0 * half_m / 400.0});
+}
 
 MapResult ComputeMap(const Design& d, const MapOptions& opt) {
   std::string why;
@@ -196,7 +200,7 @@ MapResult ComputeMap(const Design& d, const MapOptions& opt) {
     if (best > 0.0) {
       const double half = opt.window_m > 0.0 ? opt.window_m : 15.0 * depth;
       ElectrostaticsOptions lo = opt.electrostatics;
-      lo.grid_m = opt.local_grid_m > 0.0 ? opt.local_grid_m : depth / 3.0;
+      lo.grid_m = opt.local_grid_m > 0.0 ? opt.local_grid_m : std::max(depth / 3.0, 2.0 * half / 400.0);
       const ElectrostaticProblem local(d, lo, ElectrostaticWindow{deepest, half, half});
       DensityMap last;
       bool have = false, ok = true;

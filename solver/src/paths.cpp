@@ -290,7 +290,7 @@ void ComputeConstrictionModels(const Design& d, const PathOptions& opt, PathResu
     const double half = 0.5 * gap->distance_m + 12.0 * depth;
     ElectrostaticsOptions lo;
     lo.max_memory_bytes = opt.max_memory_bytes;
-    lo.grid_m = std::max(2e-9, std::min(depth / 4.0, gap->distance_m / 8.0));
+    lo.grid_m = ConstrictionWindowCell_m(depth, gap->distance_m, half);
     const ElectrostaticProblem problem(d, lo, ElectrostaticWindow{mid, half, half});
     const SaddleStrip strip = SaddleStrip::For(d, k, *gap, 0.5 * problem.cell_m());
     int ga = -1, gb = -1;

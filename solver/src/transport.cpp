@@ -213,23 +213,29 @@ TransportResult SolveTransport(const Design& d, const EdgeNetwork& net) {
               " is connected to nothing that sets its potential; its voltage is undetermined",
           w.where);
   }
-  if (!unknown.empty()) {
-    const int u = static_cast<int>(unknown.size());
-    Eigen::MatrixXd A(u, u);
+  // The voltages of the unknown contacts for given fixed voltages and currents (linear in both).
+  const int u = static_cast<int>(unknown.size());
+  Eigen::MatrixXd A(u, u);
+  for (int a = 0; a < u; ++a)
+    for (int c = 0; c < u; ++c)
+      A(a, c) = G[static_cast<std::size_t>(unknown[static_cast<std::size_t>(a)])]
+                 [static_cast<std::size_t>(unknown[static_cast<std::size_t>(c)])];
+  const Eigen::FullPivLU<Eigen::MatrixXd> lu(A);
+  if (u > 0 && !lu.isInvertible()) throw std::runtime_error("the wiring leaves the contact voltages undetermined");
+  auto solve_unknown = [&](std::vector<double>& volts, const std::vector<double>& currents) {
+    if (u == 0) return;
     Eigen::VectorXd b(u);
     for (int a = 0; a < u; ++a) {
       const auto ia = static_cast<std::size_t>(unknown[static_cast<std::size_t>(a)]);
-      b(a) = i_fixed[ia];
+      b(a) = currents[ia];
       for (int j = 0; j < nc; ++j)
         if (known[static_cast<std::size_t>(j)])
-          b(a) -= G[ia][static_cast<std::size_t>(j)] * v[static_cast<std::size_t>(j)];
-      for (int c = 0; c < u; ++c) A(a, c) = G[ia][static_cast<std::size_t>(unknown[static_cast<std::size_t>(c)])];
+          b(a) -= G[ia][static_cast<std::size_t>(j)] * volts[static_cast<std::size_t>(j)];
     }
-    const Eigen::FullPivLU<Eigen::MatrixXd> lu(A);
-    if (!lu.isInvertible()) throw std::runtime_error("the wiring leaves the contact voltages undetermined");
     const Eigen::VectorXd x = lu.solve(b);
-    for (int a = 0; a < u; ++a) v[static_cast<std::size_t>(unknown[static_cast<std::size_t>(a)])] = x(a);
-  }
+    for (int a = 0; a < u; ++a) volts[static_cast<std::size_t>(unknown[static_cast<std::size_t>(a)])] = x(a);
+  };
+  solve_unknown(v, i_fixed);
   r.current_A.assign(static_cast<std::size_t>(nc), 0.0);
   for (int a = 0; a < nc; ++a) {
     r.voltage_V.push_back(
@@ -239,12 +245,21 @@ TransportResult SolveTransport(const Design& d, const EdgeNetwork& net) {
         r.current_A[static_cast<std::size_t>(a)] +=
             G[static_cast<std::size_t>(a)][static_cast<std::size_t>(b)] * v[static_cast<std::size_t>(b)];
   }
+  // The two-terminal resistance each source sees: V / I with every other source set to zero (voltage
+  // sources grounded, current sources open), the rest of the wiring as it is.
   for (int j = 0; j < nc; ++j) {
-    if (d.wiring[static_cast<std::size_t>(j)].role != Role::kSource) continue;
+    const Wiring& wj = d.wiring[static_cast<std::size_t>(j)];
+    if (wj.role != Role::kSource) continue;
     TransportResult::SourceResistance s{j, std::nullopt};
-    const double i = r.current_A[static_cast<std::size_t>(j)];
-    if (std::abs(i) > 1e-30 && r.voltage_V[static_cast<std::size_t>(j)])
-      s.resistance_Ohm = *r.voltage_V[static_cast<std::size_t>(j)] / i;
+    std::vector<double> vj(static_cast<std::size_t>(nc), 0.0), ij(static_cast<std::size_t>(nc), 0.0);
+    (wj.bias_is_current ? ij : vj)[static_cast<std::size_t>(j)] = wj.bias;
+    solve_unknown(vj, ij);
+    double i = 0.0;
+    for (int b = 0; b < nc; ++b)
+      if (determined[static_cast<std::size_t>(b)])
+        i += G[static_cast<std::size_t>(j)][static_cast<std::size_t>(b)] * vj[static_cast<std::size_t>(b)];
+    if (std::abs(i) > 1e-30 && determined[static_cast<std::size_t>(j)])
+      s.resistance_Ohm = vj[static_cast<std::size_t>(j)] / i;
     r.sources.push_back(s);
   }
 

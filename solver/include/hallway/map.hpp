@@ -71,4 +71,9 @@ struct MapResult {
 
 MapResult ComputeMap(const Design& design, const MapOptions& options = {});
 
+// Cell size of a constriction's window of half size `half_m`: min(d / 4, gap / 8, at least 2 nm),
+// coarsened so that the window has at most 400 cells a side (a 2DEG much deeper than the gap is wide
+// does not resolve the gap anyway, and the grid would otherwise grow as (d / gap)^2).
+double ConstrictionWindowCell_m(double depth_m, double gap_m, double half_m);
+
 }  // namespace hallway

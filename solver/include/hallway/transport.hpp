@@ -47,7 +47,9 @@ struct TransportResult {
   std::vector<double> current_A;                 // into the device at each contact
   struct SourceResistance {
     int contact = 0;
-    std::optional<double> resistance_Ohm;  // V / I of the source, nullopt when I = 0
+    // V / I of the source with every other source set to zero (voltage sources grounded, current
+    // sources open); nullopt when no current flows.
+    std::optional<double> resistance_Ohm;
   };
   std::vector<SourceResistance> sources;
   std::vector<Route> routes;  // one per (source, channel) that emits
