@@ -2,6 +2,7 @@
 #include <CLI/CLI.hpp>
 #include <exception>
 #include <iostream>
+#include <string>
 
 #include "commands.hpp"
 #include "output.hpp"
@@ -10,8 +11,15 @@
 #define HALLWAY_VERSION "unknown"
 #endif
 
+namespace {
+// Output names are file names: standard output is named /dev/stdout, so "-" and "" are usage errors.
+const std::string kPathNote = " ('-' or an empty name is refused: give /dev/stdout for the terminal)";
+const std::string kJsonHelp = "Also write the results as JSON to this file" + kPathNote;
+}  // namespace
+
 int main(int argc, char** argv) {
   using namespace hallway::cli;
+  InstallCleanupHandlers();
   CLI::App app{"hallway: layout checks, edge transport and noise estimates for quantum Hall devices"};
   app.set_version_flag("--version", std::string("hallway ") + HALLWAY_VERSION);
   app.require_subcommand(1);
@@ -19,13 +27,13 @@ int main(int argc, char** argv) {
   CheckArgs check;
   auto* c = app.add_subcommand("check", "Read a design, derive the wafer figures and check layout and wiring");
   c->add_option("design", check.design_path, "Design file (YAML)")->required();
-  c->add_option("--json", check.json_path, "Also write the results as JSON to this file");
+  c->add_option("--json", check.json_path, kJsonHelp);
 
   SolveArgs solve;
   auto* s = app.add_subcommand("solve", "Trace the edge channels and solve the wiring plan for +B and -B");
   s->add_option("design", solve.design_path, "Design file (YAML)")->required();
   s->add_option("--max-memory", solve.max_memory, "Largest electrostatic grid to allocate, e.g. 8GiB (default 4GiB)");
-  s->add_option("--json", solve.json_path, "Also write the results as JSON to this file");
+  s->add_option("--json", solve.json_path, kJsonHelp);
   s->add_flag("--field-reversed", solve.reversed_only, "Solve only the reversed field -B");
   s->add_flag("--fast", solve.fast, "Bare-potential channel boundaries instead of the self-consistent density");
   s->add_option("--four-terminal", solve.four_terminal,
@@ -35,10 +43,10 @@ int main(int argc, char** argv) {
   auto* n = app.add_subcommand("noise", "Current noise at every contact, amplifier signal-to-noise and colliders");
   n->add_option("design", noise.design_path, "Design file (YAML)")->required();
   n->add_option("--max-memory", noise.max_memory, "Largest electrostatic grid to allocate, e.g. 8GiB (default 4GiB)");
-  n->add_option("--json", noise.json_path, "Also write the results as JSON to this file");
+  n->add_option("--json", noise.json_path, kJsonHelp);
   n->add_option("--sweep", noise.sweep, "Sweep source bias: CONTACTS=FROM:TO:N, e.g. SA,SB=0:50uV:11");
   n->add_option("--ratio", noise.ratio, "Bias factors of the swept contacts, e.g. 1,0.5 (imbalance)");
-  n->add_option("--csv", noise.csv_path, "Write the sweep as CSV to this file");
+  n->add_option("--csv", noise.csv_path, "Write the sweep as CSV to this file" + kPathNote);
   n->add_flag("--field-reversed", noise.reversed_only, "Solve for the reversed field -B");
   n->add_flag("--fast", noise.fast, "Bare-potential channel boundaries instead of the self-consistent density");
   auto* phase =
@@ -54,15 +62,15 @@ int main(int argc, char** argv) {
   mp->add_option("design", map.design_path, "Design file (YAML)")->required();
   mp->add_option("--max-memory", map.max_memory, "Largest electrostatic grid to allocate, e.g. 8GiB (default 4GiB)");
   mp->add_option("--grid", map.grid, "Cell size of the whole-mesa grid, e.g. 10nm (default: automatic)");
-  mp->add_option("--json", map.json_path, "Also write the results as JSON to this file");
-  mp->add_option("--csv", map.csv_path, "Write the density and filling grid as CSV to this file");
+  mp->add_option("--json", map.json_path, kJsonHelp);
+  mp->add_option("--csv", map.csv_path, "Write the density and filling grid as CSV to this file" + kPathNote);
   mp->add_flag("--quiet", map.quiet, "No progress line on standard error");
 
   PathsArgs paths;
   auto* pa = app.add_subcommand("paths", "Edge lengths, velocities, thermal lengths, loops and constriction models");
   pa->add_option("design", paths.design_path, "Design file (YAML)")->required();
   pa->add_option("--max-memory", paths.max_memory, "Largest electrostatic grid to allocate, e.g. 8GiB (default 4GiB)");
-  pa->add_option("--json", paths.json_path, "Also write the results as JSON to this file");
+  pa->add_option("--json", paths.json_path, kJsonHelp);
   pa->add_flag("--fast", paths.fast, "Bare-potential channel boundaries and a fixed drift velocity");
   pa->add_option("--target", paths.target,
                  "Transmission to reach at every constriction, instead of the design's (0..1)");
@@ -74,7 +82,10 @@ int main(int argc, char** argv) {
   auto* rp = app.add_subcommand("report", "Figures, tables, result.json and a self-contained HTML report");
   rp->add_option("design", report.design_path, "Design file (YAML)")->required();
   rp->add_option("--max-memory", report.max_memory, "Largest electrostatic grid to allocate, e.g. 8GiB (default 4GiB)");
-  rp->add_option("-o,--output", report.out_dir, "Folder for report.html and the figures")->required();
+  rp->add_option("-o,--output", report.out_dir,
+                 "Folder for report.html and the figures: built beside it and moved into place when complete; "
+                 "an existing folder is replaced only when empty or a previous hallway report")
+      ->required();
   rp->add_flag("--fast", report.fast, "Bare-potential channel boundaries, no electrostatic solve");
   rp->add_flag("--quiet", report.quiet, "No progress line on standard error");
 
@@ -85,12 +96,16 @@ int main(int argc, char** argv) {
   sw->add_option("--vary", sweep.vary, "KEY=FROM:TO:N with units, e.g. gates.QL.voltage=-0.6V:-0.9V:31 (repeatable)")
       ->required();
   sw->add_flag("--zip", sweep.zip, "Vary the keys in lock-step instead of over a grid");
-  sw->add_option("--output", sweep.output, "CSV file, one row per point")->required();
+  sw->add_option("--output", sweep.output,
+                 "CSV file, one row per point (a regular file; locked while the sweep runs)" + kPathNote)
+      ->required();
   sw->add_option("--quantities", sweep.quantities,
                  "Groups: currents,voltages,conductance,noise,snr,fano,saddle,pinchoff (default: all but conductance "
                  "and pinchoff)");
   sw->add_option("--threads", sweep.threads, "Threads per process (default: the cores, shared among MPI ranks)");
-  sw->add_flag("--resume", sweep.resume, "Keep the points already in the output file");
+  sw->add_flag("--resume", sweep.resume,
+               "Keep the points already in the output file: its sweep record OUTPUT.hallway-sweep must show the same "
+               "design, --vary, --quantities, --zip, --fast and --cold (else exit 2); damaged rows are recomputed");
   sw->add_flag("--fast", sweep.fast, "Bare-potential boundaries, no electrostatic solves");
   sw->add_flag("--quiet", sweep.quiet, "No progress line on standard error");
   sw->add_flag("--cold", sweep.cold, "Start every electrostatic solve from scratch (benchmarks)");
@@ -105,6 +120,19 @@ int main(int argc, char** argv) {
     app.exit(e);  // prints the message
     return kExitUsage;
   }
+  // An output named "" or "-" would otherwise mean "no output" or a file called "-".
+  for (CLI::App* sub : app.get_subcommands())
+    for (const CLI::Option* o : sub->get_options()) {
+      const std::string name = o->get_name();
+      if (o->count() == 0 || (name != "--json" && name != "--csv" && name != "--output" && name != "-o,--output"))
+        continue;
+      for (const std::string& v : o->results())
+        if (v.empty() || v == "-") {
+          std::cerr << "hallway: usage error: " << o->get_name(false, true) << " needs a file name, not '" << v
+                    << "' (write /dev/stdout to print the output)\n";
+          return kExitUsage;
+        }
+    }
   try {
     if (*c) return RunCheck(check);
     if (*s) return RunSolve(solve);

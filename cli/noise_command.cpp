@@ -277,6 +277,11 @@ int RunNoise(const NoiseArgs& args) {
     std::cerr << "hallway: usage error: --ratio and --csv go with --sweep\n";
     return kExitUsage;
   }
+  // A loop phase is a finite angle; beyond 1e6 rad the double no longer resolves a radian's fraction.
+  if (args.phase_given && !(std::isfinite(args.phase_rad) && std::abs(args.phase_rad) <= 1e6)) {
+    std::cerr << "hallway: usage error: --phase must be a finite angle in radians of at most 1e6 in magnitude\n";
+    return kExitUsage;
+  }
   if (!(args.target_sigmas > 0.0)) {
     std::cerr << "hallway: usage error: --target must be positive\n";
     return kExitUsage;

@@ -1,7 +1,15 @@
 // Atomic output files; see output.hpp.
 #include "output.hpp"
 
+#include <fcntl.h>
+#include <sys/stat.h>
+#include <sys/syscall.h>
 #include <unistd.h>
+
+#include <atomic>
+#include <csignal>
+#include <fstream>
+#include <sstream>
 
 #include <cerrno>
 #include <cmath>
@@ -177,38 +185,240 @@ int ReportErrors(const std::vector<Finding>& findings) {
   return n;
 }
 
-void WriteFileAtomically(const std::string& path, const std::string& text, const std::vector<std::string>& inputs) {
+namespace {
+
+// The text of a small regular file, or "" when it is not one (a design is at most kMaxDesignBytes).
+std::string read_small_regular(const std::string& path) {
+  struct stat st {};
+  if (::stat(path.c_str(), &st) != 0 || !S_ISREG(st.st_mode) || st.st_size > static_cast<off_t>(kMaxDesignBytes))
+    return "";
+  std::ifstream in(path, std::ios::binary);
+  std::stringstream ss;
+  ss << in.rdbuf();
+  return ss.str();
+}
+
+std::string trim_value(std::string v) {
+  // A trailing comment, then spaces, then one pair of quotes.
+  if (const auto hash = v.find(" #"); hash != std::string::npos) v.erase(hash);
+  auto blank = [](char c) { return c == ' ' || c == '\t' || c == '\r'; };
+  while (!v.empty() && blank(v.back())) v.pop_back();
+  while (!v.empty() && blank(v.front())) v.erase(0, 1);
+  if (v.size() >= 2 && (v.front() == '"' || v.front() == '\'') && v.back() == v.front()) v = v.substr(1, v.size() - 2);
+  return v;
+}
+
+// The `file:` value of the top-level `layout:` block of a design text, block or flow style.
+std::string layout_file_of(const std::string& text) {
+  std::istringstream in(text);
+  std::string line;
+  bool inside = false;
+  while (std::getline(in, line)) {
+    if (!line.empty() && line.back() == '\r') line.pop_back();
+    if (!inside) {
+      if (line.rfind("layout:", 0) != 0) continue;
+      const std::string rest = line.substr(7);
+      if (const auto brace = rest.find('{'); brace != std::string::npos) {
+        const auto key = rest.find("file:", brace);
+        if (key == std::string::npos) return "";
+        const std::string after = rest.substr(key + 5);
+        return trim_value(after.substr(0, after.find_first_of(",}")));
+      }
+      inside = true;
+      continue;
+    }
+    // The block ends at the next line that starts in the first column (not a comment).
+    if (!line.empty() && line[0] != ' ' && line[0] != '\t' && line[0] != '#') return "";
+    const auto first = line.find_first_not_of(" \t");
+    if (first != std::string::npos && line.compare(first, 5, "file:") == 0) return trim_value(line.substr(first + 5));
+  }
+  return "";
+}
+
+}  // namespace
+
+std::vector<std::string> DesignInputs(const std::string& design_path) {
+  std::vector<std::string> files{design_path};
+  const std::string layout = layout_file_of(read_small_regular(design_path));
+  if (!layout.empty()) {
+    fs::path file(layout);
+    if (file.is_relative()) file = fs::path(design_path).parent_path() / file;
+    files.push_back(file.string());
+  }
+  return files;
+}
+
+void RefuseInputAsOutput(const std::string& path, const std::vector<std::string>& inputs) {
   if (path.empty()) throw OutputError("no output file name given");
+  std::vector<std::string> all;
+  for (const std::string& in : inputs)
+    for (const std::string& f : DesignInputs(in)) all.push_back(f);
+  struct stat out {};
+  const bool exists = ::stat(path.c_str(), &out) == 0;
   std::error_code ec;
   const fs::path target = fs::weakly_canonical(fs::absolute(path), ec);
-  for (const std::string& in : inputs) {
+  for (const std::string& in : all) {
+    struct stat st {};
+    if (exists && ::stat(in.c_str(), &st) == 0 && st.st_dev == out.st_dev && st.st_ino == out.st_ino)
+      throw OutputError("refusing to write over the input file " + in + " (" + path + " is the same file)");
     std::error_code ec2;
-    if (fs::exists(in, ec2) && fs::exists(path, ec2) && fs::equivalent(in, path, ec2))
-      throw OutputError("refusing to write over the input file " + in);
-    if (!ec && fs::weakly_canonical(fs::absolute(in), ec2) == target)
+    if (!ec && fs::weakly_canonical(fs::absolute(in), ec2) == target && !ec2)
       throw OutputError("refusing to write over the input file " + in);
   }
-  if (fs::is_directory(path, ec)) throw OutputError(path + " is a folder, not a file");
+}
+
+namespace {
+
+// Writes to a character device or a named pipe in place: never created, truncated or replaced.
+void write_in_place(const std::string& path, const std::string& text, bool fifo) {
+  // O_NONBLOCK: a FIFO nobody reads fails at once (ENXIO) instead of blocking forever.
+  const int fd = ::open(path.c_str(), O_WRONLY | O_CLOEXEC | O_NOCTTY | O_NONBLOCK);
+  if (fd < 0) {
+    if (fifo && errno == ENXIO) throw OutputError(path + " is a named pipe that nobody reads; nothing was written");
+    throw OutputError("cannot open " + path + ": " + std::strerror(errno));
+  }
+  const int flags = ::fcntl(fd, F_GETFL);
+  if (flags >= 0) ::fcntl(fd, F_SETFL, flags & ~O_NONBLOCK);
+  std::size_t done = 0;
+  while (done < text.size()) {
+    const ssize_t n = ::write(fd, text.data() + done, text.size() - done);
+    if (n < 0 && errno == EINTR) continue;
+    if (n <= 0) {
+      const int err = n < 0 ? errno : EIO;
+      ::close(fd);
+      throw OutputError("cannot write " + path + ": " + std::strerror(err));
+    }
+    done += static_cast<std::size_t>(n);
+  }
+  if (::close(fd) != 0 && errno != EINTR) throw OutputError("cannot write " + path + ": " + std::strerror(errno));
+}
+
+}  // namespace
+
+void WriteFileAtomically(const std::string& path, const std::string& text, const std::vector<std::string>& inputs) {
+  if (path.empty()) throw OutputError("no output file name given");
+  RefuseInputAsOutput(path, inputs);
+  std::error_code ec;
+  struct stat st {};
+  if (::stat(path.c_str(), &st) == 0) {
+    if (S_ISDIR(st.st_mode)) throw OutputError(path + " is a folder, not a file");
+    if (S_ISCHR(st.st_mode) || S_ISFIFO(st.st_mode)) return write_in_place(path, text, S_ISFIFO(st.st_mode));
+    if (!S_ISREG(st.st_mode))
+      throw OutputError(path + " is a " + (S_ISBLK(st.st_mode) ? "block device" : "socket or other special file") +
+                        ", not a file; nothing was written");
+  }
   const fs::path dir = fs::absolute(path).parent_path();
   if (!fs::is_directory(dir, ec)) throw OutputError("the folder " + dir.string() + " does not exist");
   std::random_device rd;
   std::string tmp_name(".");
   tmp_name.append(fs::path(path).filename().string()).append(".tmp").append(std::to_string(rd() % 1000000));
   const fs::path tmp = dir / tmp_name;
-  FILE* f = std::fopen(tmp.c_str(), "wb");
-  if (!f) throw OutputError("cannot create " + tmp.string() + ": " + std::strerror(errno));
+  RegisterTemporary(tmp.string());
+  FILE* f = std::fopen(tmp.c_str(), "wbx");
+  if (!f) {
+    const int err = errno;
+    UnregisterTemporary(tmp.string());
+    throw OutputError("cannot create " + tmp.string() + ": " + std::strerror(err));
+  }
   const bool wrote = std::fwrite(text.data(), 1, text.size(), f) == text.size();
   const bool flushed = std::fflush(f) == 0 && ::fsync(fileno(f)) == 0;
   const bool closed = std::fclose(f) == 0;
   if (!wrote || !flushed || !closed) {
+    const int err = errno;
     fs::remove(tmp, ec);
-    throw OutputError("cannot write " + path + ": " + std::strerror(errno));
+    UnregisterTemporary(tmp.string());
+    throw OutputError("cannot write " + path + ": " + std::strerror(err));
   }
   fs::rename(tmp, path, ec);
   if (ec) {
     std::error_code ec3;
     fs::remove(tmp, ec3);
+    UnregisterTemporary(tmp.string());
     throw OutputError("cannot move the finished file into place at " + path + ": " + ec.message());
+  }
+  UnregisterTemporary(tmp.string());
+}
+
+// The registry of temporaries. A slot is free (0), being filled (1), a file (2) or a folder (3); the
+// handler reads only slots in state 2 or 3, whose path is complete.
+namespace {
+constexpr int kSlots = 32;
+constexpr std::size_t kPathMax = 4096;
+struct TempSlot {
+  std::atomic<int> state{0};
+  char path[kPathMax] = {};
+};
+TempSlot g_slots[kSlots];
+
+// Removes the entries of a folder (one level) and the folder itself, with system calls only.
+void remove_folder_in_handler(const char* path) {
+  const int fd = ::open(path, O_RDONLY | O_DIRECTORY | O_CLOEXEC);
+  if (fd >= 0) {
+    alignas(8) char buf[8192];
+    while (true) {
+      const long n = ::syscall(SYS_getdents64, fd, buf, sizeof buf);
+      if (n <= 0) break;
+      for (long off = 0; off < n;) {
+        // struct linux_dirent64: d_ino (8), d_off (8), d_reclen (2), d_type (1), d_name.
+        unsigned short reclen = 0;
+        std::memcpy(&reclen, buf + off + 16, sizeof reclen);
+        const char* name = buf + off + 19;
+        if (!(name[0] == '.' && (name[1] == '\0' || (name[1] == '.' && name[2] == '\0'))))
+          if (::unlinkat(fd, name, 0) != 0) ::unlinkat(fd, name, AT_REMOVEDIR);
+        off += reclen;
+      }
+    }
+    ::close(fd);
+  }
+  ::rmdir(path);
+}
+
+extern "C" void cleanup_and_reraise(int sig) {
+  const int saved = errno;
+  for (TempSlot& s : g_slots) {
+    const int state = s.state.load();
+    if (state == 2) ::unlink(s.path);
+    if (state == 3) remove_folder_in_handler(s.path);
+  }
+  errno = saved;
+  struct sigaction dfl {};
+  dfl.sa_handler = SIG_DFL;
+  sigemptyset(&dfl.sa_mask);
+  ::sigaction(sig, &dfl, nullptr);
+  ::raise(sig);
+}
+}  // namespace
+
+void RegisterTemporary(const std::string& path, bool folder) {
+  if (path.size() >= kPathMax) return;
+  for (TempSlot& s : g_slots) {
+    int expected = 0;
+    if (s.state.compare_exchange_strong(expected, 1)) {
+      std::memcpy(s.path, path.c_str(), path.size() + 1);
+      s.state.store(folder ? 3 : 2);
+      return;
+    }
+  }
+}
+
+void UnregisterTemporary(const std::string& path) {
+  for (TempSlot& s : g_slots) {
+    const int state = s.state.load();
+    if ((state == 2 || state == 3) && path == s.path) {
+      s.state.store(0);
+      return;
+    }
+  }
+}
+
+void InstallCleanupHandlers() {
+  for (int sig : {SIGINT, SIGTERM, SIGHUP}) {
+    struct sigaction old {};
+    if (::sigaction(sig, nullptr, &old) == 0 && old.sa_handler == SIG_IGN) continue;  // nohup and the like
+    struct sigaction sa {};
+    sa.sa_handler = cleanup_and_reraise;
+    sigemptyset(&sa.sa_mask);
+    ::sigaction(sig, &sa, nullptr);
   }
 }
 

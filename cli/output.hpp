@@ -56,8 +56,27 @@ bool RequireFiniteJson(const nlohmann::json& result, const std::string& stage);
 // The caution printed at the end of every report.
 extern const char* const kSafetyCaution;
 
-// Refuses to write over any of `inputs`; writes `text` to a temporary file in the same folder and
-// renames it into place, so readers never see a half-written file. Throws OutputError.
+// Every file that reading the design at `design_path` reads: the design itself and, when its
+// top-level `layout:` block names a `file:`, that GDSII file (relative to the design's folder).
+std::vector<std::string> DesignInputs(const std::string& design_path);
+
+// Throws OutputError when `path` is one of `inputs` or of the files they read (DesignInputs), compared
+// by device and inode, so a symbolic or hard link to an input is caught as well as the input's own name.
+void RefuseInputAsOutput(const std::string& path, const std::vector<std::string>& inputs);
+
+// Refuses to write over any of `inputs` (RefuseInputAsOutput). A regular or new file is written to a
+// temporary file in the same folder and renamed into place, so readers never see a half-written file.
+// A character device or a named pipe (/dev/null, /dev/stdout, a FIFO with a reader) is written
+// directly and never replaced; a block device, a socket or a FIFO without a reader is refused.
+// Throws OutputError (a full disk or device included).
 void WriteFileAtomically(const std::string& path, const std::string& text, const std::vector<std::string>& inputs);
+
+// Temporary files and folders removed when SIGINT, SIGTERM or SIGHUP stops the program: the handler
+// (InstallCleanupHandlers) unlinks every registered file, empties and removes every registered folder
+// (one level deep), restores the default action and raises the signal again. At most 32 entries at a
+// time; the registry uses only async-signal-safe calls in the handler.
+void RegisterTemporary(const std::string& path, bool folder = false);
+void UnregisterTemporary(const std::string& path);
+void InstallCleanupHandlers();
 
 }  // namespace hallway::cli

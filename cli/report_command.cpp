@@ -1,5 +1,6 @@
 // `hallway report`: figures, CSV tables, result.json and one self-contained HTML page.
 #include <fmt/core.h>
+#include <unistd.h>
 
 #include <cmath>
 #include <filesystem>
@@ -100,6 +101,52 @@ struct Table {
   }
 };
 
+// Why the report may not go to `folder`, or "": it must be absent, empty or a previous hallway
+// report (a folder whose result.json carries "hallway_report").
+std::string report_folder_refusal(const fs::path& folder) {
+  std::error_code ec;
+  const auto st = fs::symlink_status(folder, ec);
+  if (ec || !fs::exists(st)) return "";
+  if (!fs::is_directory(st))
+    return folder.string() + " exists and is not a folder" + (fs::is_symlink(st) ? " (a symbolic link)" : "");
+  if (fs::is_empty(folder, ec) && !ec) return "";
+  // A previous report: a regular result.json (below 256 MiB) whose top level has "hallway_report".
+  const fs::path previous = folder / "result.json";
+  if (fs::is_regular_file(fs::symlink_status(previous, ec)) &&
+      fs::file_size(previous, ec) < (std::uintmax_t{256} << 20)) {
+    std::ifstream in(previous, std::ios::binary);
+    const json j = json::parse(in, nullptr, false);
+    if (j.is_object() && j.contains("hallway_report")) return "";
+  }
+  return "the folder " + folder.string() +
+         " holds files that are not a hallway report; give a new or empty folder (it is never replaced)";
+}
+
+// Renames the finished report folder `built` to `folder`, replacing an empty folder or a previous report.
+std::string move_report_into_place(const fs::path& built, const fs::path& folder) {
+  if (const std::string why = report_folder_refusal(folder); !why.empty()) return why;
+  std::error_code ec;
+  fs::path old;
+  if (fs::exists(fs::symlink_status(folder, ec))) {
+    if (fs::is_empty(folder, ec)) {
+      fs::remove(folder, ec);
+    } else {
+      old = folder.parent_path() / ("." + folder.filename().string() + ".hallway-old-" + std::to_string(::getpid()));
+      fs::remove_all(old, ec);
+      fs::rename(folder, old, ec);
+      if (ec) return "cannot move the previous report " + folder.string() + " aside: " + ec.message();
+    }
+  }
+  fs::rename(built, folder, ec);
+  if (ec) {
+    std::error_code back;
+    if (!old.empty()) fs::rename(old, folder, back);
+    return "cannot move the finished report into place at " + folder.string() + ": " + ec.message();
+  }
+  if (!old.empty()) fs::remove_all(old, ec);
+  return "";
+}
+
 std::string sci(double x) {
   return fmt::format("{:.4e}", x);
 }
@@ -116,13 +163,35 @@ int RunReport(const ReportArgs& args) {
     std::cerr << "hallway: run `hallway check` for the full list; no report was written\n";
     return kExitDesignError;
   }
-  std::error_code ec;
-  fs::create_directories(args.out_dir, ec);
-  if (!fs::is_directory(args.out_dir)) {
-    std::cerr << "hallway: output error: cannot create the folder " << args.out_dir << "\n";
+  // The report is built in a hidden sibling folder and renamed into place when complete, so the
+  // folder named by -o is a whole report or is left as it was.
+  fs::path final_dir = fs::absolute(args.out_dir).lexically_normal();
+  if (final_dir.filename().empty()) final_dir = final_dir.parent_path();
+  if (const std::string why = report_folder_refusal(final_dir); !why.empty()) {
+    std::cerr << "hallway: output error: " << why << "; nothing was written\n";
     return kExitOutputError;
   }
-  const fs::path dir(args.out_dir);
+  std::error_code ec;
+  fs::create_directories(final_dir.parent_path(), ec);
+  const fs::path dir =
+      final_dir.parent_path() / ("." + final_dir.filename().string() + ".hallway-tmp-" + std::to_string(::getpid()));
+  fs::remove_all(dir, ec);
+  RegisterTemporary(dir.string(), true);
+  struct Discard {
+    fs::path dir;
+    bool keep = false;
+    ~Discard() {
+      if (keep) return;
+      std::error_code e;
+      fs::remove_all(dir, e);
+      UnregisterTemporary(dir.string());
+    }
+  } discard{dir};
+  if (!fs::create_directory(dir, ec) || ec) {
+    std::cerr << "hallway: output error: cannot create the folder " << dir.string()
+              << (ec ? ": " + ec.message() : std::string()) << "\n";
+    return kExitOutputError;
+  }
   const Progress progress("report", 7, args.quiet);
 
   progress.Step(0, "electrostatics");
@@ -395,7 +464,13 @@ int RunReport(const ReportArgs& args) {
     std::cerr << "hallway: output error: " << e.what() << "\n";
     return kExitOutputError;
   }
-  std::cout << "hallway report: wrote " << (dir / "report.html").string() << " with " << pictures.size()
+  if (const std::string why = move_report_into_place(dir, final_dir); !why.empty()) {
+    std::cerr << "hallway: output error: " << why << "\n";
+    return kExitOutputError;
+  }
+  discard.keep = true;
+  UnregisterTemporary(dir.string());
+  std::cout << "hallway report: wrote " << (final_dir / "report.html").string() << " with " << pictures.size()
             << " figures, CSV tables and result.json\n";
   return kExitOk;
 }

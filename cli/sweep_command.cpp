@@ -8,16 +8,21 @@
 // per solve. A chunk therefore gives the same numbers whichever thread or rank computes it, so serial,
 // threaded and MPI runs write the same rows; the file is rewritten sorted by point when the sweep ends. --resume
 // keeps the chunks whose every point is already in the file and recomputes the others.
+#include <fcntl.h>
 #include <fmt/core.h>
 #include <mpi.h>
+#include <sys/file.h>
+#include <sys/stat.h>
 #include <unistd.h>
 
 #include <algorithm>
 #include <atomic>
 #include <chrono>
 #include <cmath>
+#include <cstdint>
 #include <cstdlib>
 #include <cstring>
+#include <filesystem>
 #include <fstream>
 #include <iostream>
 #include <map>
@@ -63,11 +68,14 @@ Axis parse_axis(const std::string& spec) {
   while (std::getline(ss, p, ':')) parts.push_back(p);
   if (parts.size() != 3) throw std::invalid_argument("--vary " + a.key + ": give FROM:TO:N");
   int n = 0;
+  std::size_t used = 0;
   try {
-    n = std::stoi(parts[2]);
+    n = std::stoi(parts[2], &used);
   } catch (...) {
-    throw std::invalid_argument("--vary " + a.key + ": N must be a whole number");
+    used = 0;
   }
+  if (used == 0 || used != parts[2].size())  // "3.7" or "3x" is not a count of points
+    throw std::invalid_argument("--vary " + a.key + ": N must be a whole number, got '" + parts[2] + "'");
   if (n < 1 || n > 100000) throw std::invalid_argument("--vary " + a.key + ": N must lie in [1, 100000]");
   const units::Quantity from = units::ParseQuantity(parts[0]), to = units::ParseQuantity(parts[1]);
   if (!(from.dimension == to.dimension))
@@ -291,6 +299,238 @@ std::string solve_point(const std::string& text, const std::string& path, const 
   return row;
 }
 
+// The sweep record beside the output, "<output>.hallway-sweep": the lock the writing sweep holds
+// (flock) for its whole run and the identity of the sweep that wrote the rows, checked by --resume.
+// Its text, one "key value" pair a line:
+//   hallway-sweep-record 1
+//   design <FNV-1a 64-bit hash of the design text and of the layout file it names, hex>
+//   vary <key>=<first SI value>:<last SI value>:<N>      (one line per --vary, in order)
+//   quantities <groups, sorted, comma-separated>
+//   options zip=<0|1> fast=<0|1> cold=<0|1>
+//   pid <process id>                                     (while the sweep runs)
+class SweepLock {
+ public:
+  SweepLock() = default;
+  SweepLock(const SweepLock&) = delete;
+  SweepLock& operator=(const SweepLock&) = delete;
+  ~SweepLock() {
+    if (fd_ >= 0) ::close(fd_);  // closing releases the lock
+  }
+  // Opens and locks `path`; on failure returns why (naming the holder's pid when there is one).
+  std::string Take(const std::string& path) {
+    path_ = path;
+    fd_ = ::open(path.c_str(), O_RDWR | O_CREAT | O_CLOEXEC | O_NOFOLLOW, 0644);
+    if (fd_ < 0) return "cannot open the sweep record " + path + ": " + std::strerror(errno);
+    struct stat st {};
+    if (::fstat(fd_, &st) != 0 || !S_ISREG(st.st_mode)) return "the sweep record " + path + " is not a regular file";
+    if (::flock(fd_, LOCK_EX | LOCK_NB) != 0) {
+      const std::string pid = Value("pid");
+      return "another sweep is writing this output (process " + (pid.empty() ? std::string("unknown") : pid) +
+             ", holding " + path + "); wait for it or choose another --output";
+    }
+    return "";
+  }
+  // The previous record's lines (read before Write replaces them).
+  std::vector<std::string> Lines() const {
+    std::vector<std::string> lines;
+    std::string text(65536, '\0');
+    const ssize_t n = ::pread(fd_, text.data(), text.size(), 0);
+    text.resize(n > 0 ? static_cast<std::size_t>(n) : 0);
+    std::istringstream in(text);
+    for (std::string line; std::getline(in, line);) lines.push_back(line);
+    return lines;
+  }
+  std::string Value(const std::string& key) const {
+    for (const std::string& line : Lines())
+      if (line.rfind(key + " ", 0) == 0) return line.substr(key.size() + 1);
+    return "";
+  }
+  // Replaces the record; `running` adds this process's pid.
+  bool Write(const std::vector<std::string>& record, bool running) {
+    std::string text;
+    for (const std::string& line : record) text += line + "\n";
+    if (running) text += "pid " + std::to_string(::getpid()) + "\n";
+    if (::ftruncate(fd_, 0) != 0) return false;
+    return ::pwrite(fd_, text.data(), text.size(), 0) == static_cast<ssize_t>(text.size()) && ::fsync(fd_) == 0;
+  }
+  void Finish(const std::vector<std::string>& record) {
+    if (fd_ >= 0) Write(record, false);
+  }
+
+ private:
+  std::string path_;
+  int fd_ = -1;
+};
+
+std::uint64_t fnv1a(std::uint64_t h, const std::string& bytes) {
+  for (unsigned char c : bytes) {
+    h ^= c;
+    h *= 1099511628211ull;
+  }
+  return h;
+}
+
+// The identity of a sweep: what decides the numbers of its rows (see SweepLock).
+std::vector<std::string> sweep_record(const std::string& text, const std::vector<std::string>& inputs,
+                                      const std::vector<Axis>& axes, const std::set<std::string>& q,
+                                      const SweepArgs& args) {
+  std::uint64_t h = fnv1a(14695981039346656037ull, text);
+  for (std::size_t i = 1; i < inputs.size(); ++i) {  // the layout file, when the design names one
+    std::ifstream in(inputs[i], std::ios::binary);
+    std::stringstream ss;
+    ss << in.rdbuf();
+    h = fnv1a(fnv1a(h, "\n--layout--\n"), ss.str());
+  }
+  std::vector<std::string> r{"hallway-sweep-record 1", fmt::format("design {:016x}", h)};
+  for (const Axis& a : axes)
+    r.push_back(fmt::format("vary {}={:.17g}:{:.17g}:{}", a.key, a.si.front(), a.si.back(), a.si.size()));
+  std::string groups;
+  for (const std::string& g : q) groups += (groups.empty() ? "" : ",") + g;
+  r.push_back("quantities " + groups);
+  r.push_back(fmt::format("options zip={:d} fast={:d} cold={:d}", args.zip, args.fast, args.cold));
+  return r;
+}
+
+// The rows of an earlier run's file that --resume may keep: complete (ended by a newline), with as
+// many fields as the header, a point number in range, the point's own varied values (as written)
+// and numbers (or empty fields) everywhere else. A point with two different rows is dropped.
+std::map<std::size_t, std::string> valid_rows(const std::string& file, const std::string& header,
+                                              const std::vector<Axis>& axes, const std::vector<Point>& points,
+                                              std::size_t* dropped) {
+  std::map<std::size_t, std::string> rows;
+  std::set<std::size_t> conflicting;
+  const std::size_t fields = static_cast<std::size_t>(std::count(header.begin(), header.end(), ',')) + 1;
+  std::size_t begin = header.size();
+  *dropped = 0;
+  while (begin < file.size()) {
+    const std::size_t end = file.find('\n', begin);
+    if (end == std::string::npos) {  // a torn last row
+      ++*dropped;
+      break;
+    }
+    const std::string line = file.substr(begin, end - begin);
+    begin = end + 1;
+    std::vector<std::string> f;
+    for (std::size_t at = 0;;) {
+      const std::size_t comma = line.find(',', at);
+      f.push_back(line.substr(at, comma == std::string::npos ? std::string::npos : comma - at));
+      if (comma == std::string::npos) break;
+      at = comma + 1;
+    }
+    bool ok = f.size() == fields && !f[0].empty() && f[0].size() <= 7 &&
+              f[0].find_first_not_of("0123456789") == std::string::npos;
+    const std::size_t p = ok ? std::stoul(f[0]) : 0;
+    ok = ok && p < points.size();
+    for (std::size_t a = 0; ok && a < axes.size(); ++a)
+      ok = f[1 + a] == fmt::format("{:.10g}", axes[a].si[points[p].index[a]]);
+    for (std::size_t k = 1 + axes.size(); ok && k < f.size(); ++k) {
+      if (f[k].empty()) continue;
+      char* stop = nullptr;
+      const double x = std::strtod(f[k].c_str(), &stop);
+      ok = stop == f[k].c_str() + f[k].size() && std::isfinite(x) && !std::isspace(static_cast<unsigned char>(f[k][0]));
+    }
+    if (!ok) {
+      ++*dropped;
+      continue;
+    }
+    const auto [it, fresh] = rows.emplace(p, line + "\n");
+    if (!fresh && it->second != line + "\n") conflicting.insert(p);
+  }
+  for (std::size_t p : conflicting) {
+    rows.erase(p);
+    ++*dropped;
+  }
+  return rows;
+}
+
+// Rank 0's checks before anything is written, then the lock, the resume and the opened output.
+int prepare_output(const SweepArgs& args, const std::string& header, const std::vector<Axis>& axes,
+                   const std::vector<Point>& points, const std::vector<std::string>& record, SweepLock* lock,
+                   std::map<std::size_t, std::string>* kept, std::ofstream* out) {
+  auto output_error = [](const std::string& why) {
+    std::cerr << "hallway: output error: " << why << "\n";
+    return kExitOutputError;
+  };
+  const std::string record_path = args.output + ".hallway-sweep";
+  try {
+    RefuseInputAsOutput(args.output, {args.design_path});
+    RefuseInputAsOutput(record_path, {args.design_path});
+  } catch (const OutputError& e) {
+    return output_error(std::string(e.what()) + "; nothing was written");
+  }
+  struct stat st {};
+  const bool exists = ::stat(args.output.c_str(), &st) == 0;
+  if (exists && !S_ISREG(st.st_mode))
+    return output_error(args.output +
+                        " is not a regular file; a sweep writes its rows as they finish and renames the sorted file "
+                        "into place, so --output must name a regular file");
+  {
+    std::error_code ec;
+    const auto dir = std::filesystem::absolute(args.output).parent_path();
+    if (!std::filesystem::is_directory(dir, ec)) return output_error("the folder " + dir.string() + " does not exist");
+  }
+  if (const std::string why = lock->Take(record_path); !why.empty()) return output_error(why);
+  if (args.resume && exists) {
+    const std::vector<std::string> before = lock->Lines();
+    std::string file;
+    {
+      std::ifstream in(args.output, std::ios::binary);
+      std::stringstream ss;
+      ss << in.rdbuf();
+      file = ss.str();
+    }
+    if (file.compare(0, header.size(), header) != 0) {
+      std::cerr << "hallway: usage error: --resume: " << args.output
+                << " was written by a different sweep (its columns differ); nothing was changed\n";
+      return kExitUsage;
+    }
+    // Which line of the identity differs (the pid line is not part of it).
+    std::vector<std::string> old_identity;
+    for (const std::string& line : before)
+      if (line.rfind("pid ", 0) != 0) old_identity.push_back(line);
+    if (old_identity.empty()) {
+      // Written by an older hallway, or copied here under a new name: only the row checks apply.
+      std::cerr << "hallway: warning: --resume: " << args.output << " has no sweep record (" << record_path
+                << "), so a changed design cannot be detected; only rows whose varied values match this sweep's "
+                   "points are kept\n";
+    } else if (old_identity != record) {
+      std::string why = "its sweep record differs";
+      {
+        for (std::size_t i = 0; i < std::max(old_identity.size(), record.size()); ++i) {
+          const std::string was = i < old_identity.size() ? old_identity[i] : "(nothing)";
+          const std::string now = i < record.size() ? record[i] : "(nothing)";
+          if (was != now) {
+            why += ": was '" + was + "', this sweep has '" + now + "'";
+            break;
+          }
+        }
+      }
+      std::cerr << "hallway: usage error: --resume: " << args.output << " was written by a different sweep: " << why
+                << " (the design, a --vary range or N, --quantities, --zip, --fast or --cold changed); run without "
+                   "--resume to start again; nothing was changed\n";
+      return kExitUsage;
+    }
+    std::size_t dropped = 0;
+    *kept = valid_rows(file, header, axes, points, &dropped);
+    if (dropped > 0)
+      std::cerr << "hallway: warning: --resume: " << dropped << " incomplete or malformed row(s) of " << args.output
+                << " are computed again\n";
+  }
+  if (!lock->Write(record, true)) return output_error("cannot write the sweep record " + record_path);
+  // Rows go straight into the output as they finish, so an interrupted sweep loses nothing; the
+  // finished file is rewritten sorted, atomically. A resumed file first gets its kept rows only.
+  try {
+    std::string start = header;
+    for (const auto& [p, r] : *kept) start += r;
+    WriteFileAtomically(args.output, start, {args.design_path});
+  } catch (const OutputError& e) {
+    return output_error(e.what());
+  }
+  out->open(args.output, std::ios::app);
+  if (!*out) return output_error("cannot write " + args.output);
+  return kExitOk;
+}
+
 }  // namespace
 
 int RunSweep(const SweepArgs& args, int argc, char** argv) {
@@ -332,7 +572,12 @@ int RunSweep(const SweepArgs& args, int argc, char** argv) {
   if (args.output.empty()) return usage("--output FILE.csv is required");
   std::vector<Axis> axes;
   try {
-    for (const auto& v : args.vary) axes.push_back(parse_axis(v));
+    for (const auto& v : args.vary) {
+      axes.push_back(parse_axis(v));
+      for (std::size_t k = 0; k + 1 < axes.size(); ++k)
+        if (axes[k].key == axes.back().key)
+          throw std::invalid_argument("--vary " + axes.back().key + " is given twice; vary each key once");
+    }
   } catch (const std::exception& e) {
     return usage(e.what());
   }
@@ -401,23 +646,18 @@ int RunSweep(const SweepArgs& args, int argc, char** argv) {
   for (const Axis& a : axes) header += "," + a.key;
   header += quantities_header(base, q) + "\n";
 
-  // Resume: chunks whose every point is in the file are kept.
+  // Rank 0 checks the output, takes its lock and reads what --resume keeps; every rank then exits
+  // with rank 0's verdict, so a refusal never leaves a rank waiting for work.
   const int chunks = static_cast<int>((points.size() + kChunk - 1) / kChunk);
   std::map<std::size_t, std::string> kept;
-  if (args.resume && rank == 0) {
-    std::ifstream in(args.output);
-    std::string line;
-    if (std::getline(in, line) && line + "\n" != header)
-      return usage("--resume: " + args.output + " was written by a different sweep");
-    while (std::getline(in, line)) {
-      const auto comma = line.find(',');
-      if (comma == std::string::npos) continue;
-      try {
-        kept[std::stoul(line.substr(0, comma))] = line + "\n";
-      } catch (...) {
-      }
-    }
-  }
+  std::ofstream out;
+  SweepLock output_lock;
+  const std::vector<std::string> record = sweep_record(text, DesignInputs(args.design_path), axes, q, args);
+  int verdict = kExitOk;
+  if (rank == 0) verdict = prepare_output(args, header, axes, points, record, &output_lock, &kept, &out);
+  if (use_mpi) MPI_Bcast(&verdict, 1, MPI_INT, 0, MPI_COMM_WORLD);
+  if (verdict != kExitOk) return verdict;
+
   std::vector<char> todo(static_cast<std::size_t>(chunks), 1);
   std::size_t kept_points = 0;
   for (int c = 0; c < chunks; ++c) {
@@ -433,24 +673,13 @@ int RunSweep(const SweepArgs& args, int argc, char** argv) {
   if (use_mpi) MPI_Bcast(todo.data(), chunks, MPI_CHAR, 0, MPI_COMM_WORLD);
 
   // Rank 0 writes: the kept rows, then every finished row, flushed.
-  std::ofstream out;
   std::mutex out_mutex;
-  std::map<std::size_t, std::string> rows = kept;
-  if (rank == 0) {
-    // Rows go straight into the output as they finish (appended on --resume), so an interrupted
-    // sweep loses nothing; the finished file is rewritten sorted, atomically.
-    if (args.resume && !kept.empty()) {
-      out.open(args.output, std::ios::app);
-    } else {
-      out.open(args.output, std::ios::trunc);
-      out << header;
-    }
-    out.flush();
-    if (!out) {
-      std::cerr << "hallway: output error: cannot write " << args.output << "\n";
-      return kExitOutputError;
-    }
-  }
+  std::map<std::size_t, std::string> rows;
+  for (int c = 0; c < chunks; ++c)
+    if (!todo[static_cast<std::size_t>(c)])
+      for (std::size_t p = static_cast<std::size_t>(c) * kChunk;
+           p < std::min(points.size(), static_cast<std::size_t>(c + 1) * kChunk); ++p)
+        rows[p] = kept[p];
   auto write_row = [&](std::size_t p, const std::string& r) {
     std::lock_guard<std::mutex> lock(out_mutex);
     rows[p] = r;
@@ -579,22 +808,29 @@ int RunSweep(const SweepArgs& args, int argc, char** argv) {
     std::copy(sum, sum + 6, totals);
   }
   const int error_code = error.rfind(kLimitPrefix, 0) == 0 ? kExitResourceLimit : kExitDesignError;
-  if (rank != 0) return error.empty() ? kExitOk : error_code;
-  out.close();
-  if (!error.empty()) {
-    std::cerr << "hallway: sweep stopped: " << error << "\n(the finished points are in " << args.output
-              << "; fix the cause and run again with --resume)\n";
-    return error_code;
+  // Rank 0 finishes the file; every rank exits with its code.
+  int final_code = kExitOk;
+  if (rank == 0) {
+    out.close();
+    if (!error.empty()) {
+      std::cerr << "hallway: sweep stopped: " << error << "\n(the finished points are in " << args.output
+                << "; fix the cause and run again with --resume)\n";
+      final_code = error_code;
+    } else {
+      // All points done: the sorted file replaces the output atomically.
+      std::string all = header;
+      for (const auto& [p, r] : rows) all += r;
+      try {
+        WriteFileAtomically(args.output, all, {args.design_path});
+        output_lock.Finish(record);
+      } catch (const OutputError& e) {
+        std::cerr << "hallway: output error: " << e.what() << "\n";
+        final_code = kExitOutputError;
+      }
+    }
   }
-  // All points done: the sorted file replaces the output atomically.
-  std::string all = header;
-  for (const auto& [p, r] : rows) all += r;
-  try {
-    WriteFileAtomically(args.output, all, {args.design_path});
-  } catch (const OutputError& e) {
-    std::cerr << "hallway: output error: " << e.what() << "\n";
-    return kExitOutputError;
-  }
+  if (use_mpi) MPI_Bcast(&final_code, 1, MPI_INT, 0, MPI_COMM_WORLD);
+  if (final_code != kExitOk || rank != 0) return final_code;
   std::cout << "hallway sweep: " << points.size() << " points (" << kept_points << " kept from before) written to "
             << args.output << "; " << totals[0] << " electrostatic operator applications";
   if (totals[2] + totals[3] > 0)

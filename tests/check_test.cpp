@@ -147,5 +147,61 @@ TEST(Check, ErrorsAreListedBeforeWarnings) {
   EXPECT_EQ(r.findings.back().severity, Severity::kWarning);
 }
 
+// A femtometre gap passed check and then made `solve --fast` grow past 24 GB. Gaps narrower than
+// 1 nm are errors (common practice: no lithography draws them), between any two outlines.
+TEST(Check, GapBelowOneNanometreIsRefused) {
+  // QR's tip 1 fm above QL's tip (10.5, -0.15) um.
+  const CheckResult r = check(replace(kBase, "[10.5,0.15]", "[10.5,-0.149999999]"));
+  const Finding* f = find(r, "gap-below-lithography");
+  ASSERT_NE(f, nullptr);
+  EXPECT_EQ(f->severity, Severity::kError);
+  EXPECT_NE(f->message.find("QL and QR"), std::string::npos) << f->message;
+  EXPECT_NE(f->message.find("less than 1 nm"), std::string::npos) << f->message;
+  EXPECT_EQ(std::count_if(r.findings.begin(), r.findings.end(),
+                          [](const Finding& x) { return x.code == "gap-below-lithography"; }),
+            2);  // the gate pair and the constriction Q on it
+  EXPECT_TRUE(r.constrictions.empty());
+  EXPECT_EQ(find(check(kBase), "gap-below-lithography"), nullptr);
+}
+
+// An etch depletion above half the mesa's width leaves no 2DEG: the network refuses that, so check must.
+TEST(Check, EtchDepletionThatErodesTheWholeMesa) {
+  const std::string narrow = replace(kBase, "  outline: [[-60,-10],[60,-10],[60,10],[-60,10]]",
+                                     "  outline: [[-60,-5],[60,-5],[60,5],[-60,5]]\n  etch_depletion: ETCH");
+  const CheckResult r = check(replace(narrow, "ETCH", "6 um"));
+  const Finding* f = find(r, "mesa-etched-away");
+  ASSERT_NE(f, nullptr);
+  EXPECT_EQ(f->severity, Severity::kError);
+  EXPECT_NE(f->message.find("6 um"), std::string::npos) << f->message;
+  EXPECT_EQ(find(check(replace(narrow, "ETCH", "4 um")), "mesa-etched-away"), nullptr);
+}
+
+// Two constrictions on one gap: an error (one gap is one beam splitter; two slits across it would be
+// meaningless), whether or not the transmissions agree.
+TEST(Check, TwoConstrictionsOnTheSameGapAreAnError) {
+  const CheckResult r =
+      check(replace(kBase, "wiring:\n", "  - {name: Q2, gates: [QR, QL], transmission: [1, 0.5]}\nwiring:\n"));
+  const Finding* f = find(r, "constriction-duplicate");
+  ASSERT_NE(f, nullptr);
+  EXPECT_EQ(f->severity, Severity::kError);
+  EXPECT_NE(f->message.find("Q and Q2"), std::string::npos) << f->message;
+  EXPECT_NE(f->message.find("different transmissions"), std::string::npos) << f->message;
+  EXPECT_EQ(find(check(kBase), "constriction-duplicate"), nullptr);
+}
+
+// A current source whose piece of 2DEG the depleting gates cut off from every return contact.
+TEST(Check, CurrentSourceIntoAnIslandIsAWarning) {
+  const std::string current = replace(kBase, "W: source 10 uV", "W: source 2 nA");
+  EXPECT_EQ(find(check(current), "source-on-island"), nullptr);
+  const CheckResult r =
+      check(replace(current, "constrictions:\n",
+                    "  - {name: CUT, voltage: -0.9 V, outline: [[-30,-14],[-29,-14],[-29,14],[-30,14]]}\n"
+                    "constrictions:\n"));
+  const Finding* f = find(r, "source-on-island");
+  ASSERT_NE(f, nullptr);
+  EXPECT_EQ(f->severity, Severity::kWarning);
+  EXPECT_NE(f->message.find("current source W"), std::string::npos) << f->message;
+}
+
 }  // namespace
 }  // namespace hallway

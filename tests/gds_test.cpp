@@ -4,6 +4,7 @@
 // like the same design written inline.
 #include <gtest/gtest.h>
 
+#include <unistd.h>
 #include <algorithm>
 #include <cmath>
 #include <filesystem>
@@ -314,6 +315,142 @@ TEST(Gds, LayoutErrorsNameWhatIsWrong) {
       EXPECT_EQ(e.where().key_path, "layout.file");
     }
   }
+}
+
+// A small layout written to a scratch folder: a 120 x 20 um mesa (1/0), contacts W and E (3/0) and
+// one gate (5/0), labels on 63/0, database unit 1 nm. Each hostile variant replaces one piece.
+struct SmallLayout {
+  std::vector<std::pair<long, long>> mesa{{-60000, -10000}, {60000, -10000}, {60000, 10000}, {-60000, 10000}};
+  std::string gate_label = "G";
+  double mesa_mag = 1.0;  // the mesa is placed by an SREF with this magnification
+  double database_unit_m = 1e-9;
+
+  std::string bytes() const {
+    Gds g;
+    g.rec(0x00, 2, Gds::i16(600));
+    g.rec(0x01, 2, std::string(24, '\0'));
+    g.rec(0x02, 6, Gds::text("LIB"));
+    g.rec(0x03, 5, Gds::real8(database_unit_m * 1e6) + Gds::real8(database_unit_m));
+    auto boundary = [&](int layer, std::vector<std::pair<long, long>> pts) {
+      pts.push_back(pts.front());
+      g.rec(0x08, 0);
+      g.rec(0x0D, 2, Gds::i16(layer));
+      g.rec(0x0E, 2, Gds::i16(0));
+      g.rec(0x10, 3, Gds::xy(pts));
+      g.rec(0x11, 0);
+    };
+    auto label = [&](const std::string& text, long x, long y) {
+      g.rec(0x0C, 0);
+      g.rec(0x0D, 2, Gds::i16(63));
+      g.rec(0x16, 2, Gds::i16(0));
+      g.rec(0x10, 3, Gds::xy({{x, y}}));
+      g.rec(0x19, 6, Gds::text(text));
+      g.rec(0x11, 0);
+    };
+    g.rec(0x05, 2, std::string(24, '\0'));
+    g.rec(0x06, 6, Gds::text("MESA"));
+    boundary(1, mesa);
+    g.rec(0x07, 0);
+    g.rec(0x05, 2, std::string(24, '\0'));
+    g.rec(0x06, 6, Gds::text("TOP"));
+    g.rec(0x0A, 0);  // SREF MESA
+    g.rec(0x12, 6, Gds::text("MESA"));
+    g.rec(0x1A, 1, std::string(2, '\0'));
+    g.rec(0x1B, 5, Gds::real8(mesa_mag));
+    g.rec(0x10, 3, Gds::xy({{0, 0}}));
+    g.rec(0x11, 0);
+    boundary(3, {{-70000, -6000}, {-58000, -6000}, {-58000, 6000}, {-70000, 6000}});
+    boundary(3, {{58000, -6000}, {70000, -6000}, {70000, 6000}, {58000, 6000}});
+    boundary(5, {{0, -14000}, {1000, -14000}, {1000, -5000}, {0, -5000}});
+    label("W", -65000, 0);
+    label("E", 65000, 0);
+    label(gate_label, 500, -10000);
+    g.rec(0x07, 0);
+    g.rec(0x04, 0);
+    return g.bytes;
+  }
+};
+
+// Writes the layout and loads a design that uses it; returns "" or the loader's message.
+std::string LoadSmallLayout(const SmallLayout& layout, const std::string& yaml_extra = "") {
+  const fs::path dir = fs::temp_directory_path() / ("hallway_gds_hostile_" + std::to_string(::getpid()));
+  fs::create_directories(dir);
+  {
+    std::ofstream o(dir / "small.gds", std::ios::binary);
+    o << layout.bytes();
+  }
+  const std::string yaml =
+      "hallway: 1\n"
+      "layout: {file: small.gds, cell: TOP, layers: {mesa: 1/0, contacts: 3/0, gates: 5/0, "
+      "labels: 63/0}}\n"
+      "heterostructure: {depth: 95 nm, density: 2.3e11 cm^-2}\n"
+      "conditions: {temperature: 15 mK, filling: 2}\n"
+      "wiring: {W: source 10 uV, E: ground}\n" +
+      yaml_extra;
+  try {
+    LoadDesignFromString(yaml, (dir / "small.yaml").string());
+    return "";
+  } catch (const DesignError& e) {
+    return e.what();
+  }
+}
+
+TEST(Gds, SmallLayoutLoads) {
+  EXPECT_EQ(LoadSmallLayout(SmallLayout{}), "");
+}
+
+// Each polygon of a layout goes through the checks of an inline outline before CGAL sees it; the
+// message names the layout file, the layer and a place.
+TEST(Gds, KeyholeEqualPointsAndZeroMagnificationMesasAreRefused) {
+  SmallLayout keyhole;  // the usual GDSII encoding of a hole: a cut in and back out along one line
+  keyhole.mesa = {{-60000, -10000}, {60000, -10000}, {60000, 10000}, {0, 10000}, {0, 5000},  {10000, 5000},
+                  {10000, -5000},   {-10000, -5000}, {-10000, 5000}, {0, 5000},  {0, 10000}, {-60000, 10000}};
+  std::string m = LoadSmallLayout(keyhole);
+  EXPECT_NE(m.find("small.gds"), std::string::npos) << m;
+  EXPECT_NE(m.find("mesa polygon on layer 1/0"), std::string::npos) << m;
+  EXPECT_NE(m.find("is not a simple polygon"), std::string::npos) << m;
+  SmallLayout equal;
+  equal.mesa = {{5, 5}, {5, 5}, {5, 5}, {5, 5}};
+  m = LoadSmallLayout(equal);
+  EXPECT_NE(m.find("mesa polygon on layer 1/0"), std::string::npos) << m;
+  EXPECT_NE(m.find("is not a simple polygon"), std::string::npos) << m;
+  SmallLayout collapsed;
+  collapsed.mesa_mag = 0.0;
+  m = LoadSmallLayout(collapsed);
+  EXPECT_NE(m.find("small.gds"), std::string::npos) << m;
+  EXPECT_NE(m.find("magnification 0 lies outside"), std::string::npos) << m;
+}
+
+// A database unit of 0.9 m would make the 120 um mesa 108 km long.
+TEST(Gds, DatabaseUnitOutsideOnePicometreToOneMicrometreIsRefused) {
+  SmallLayout huge;
+  huge.database_unit_m = 0.9;
+  std::string m = LoadSmallLayout(huge);
+  EXPECT_NE(m.find("database unit 0.9 m lies outside"), std::string::npos) << m;
+  SmallLayout coarse;  // a unit within the reader's bound, placed twice as large: the mesa reaches 12 cm
+  coarse.database_unit_m = 1e-6;
+  coarse.mesa_mag = 2.0;
+  m = LoadSmallLayout(coarse);
+  EXPECT_NE(m.find("more than 10 cm from the origin"), std::string::npos) << m;
+}
+
+// Layout labels obey the rules of names in YAML.
+TEST(Gds, LabelsFollowTheNameRules) {
+  for (const std::string bad : {"mesa", "1abc", "a b", "G\xFF", "G\x1B[31m"}) {
+    SmallLayout l;
+    l.gate_label = bad;
+    const std::string m = LoadSmallLayout(l);
+    EXPECT_NE(m.find("small.gds"), std::string::npos) << m;
+    EXPECT_TRUE(m.find("is not a valid name") != std::string::npos ||
+                m.find("is not UTF-8 text without control characters") != std::string::npos)
+        << m;
+    EXPECT_EQ(m.find('\x1B'), std::string::npos) << "raw escape in the message";
+  }
+  // A gate labelled like a contact listed in YAML must not vanish.
+  SmallLayout twin;
+  twin.gate_label = "W";
+  const std::string m = LoadSmallLayout(twin, "contacts:\n  - {name: W}\n  - {name: E}\n");
+  EXPECT_NE(m.find("the layout's gate W has the name of a contact"), std::string::npos) << m;
 }
 
 }  // namespace

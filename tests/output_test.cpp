@@ -1,7 +1,10 @@
 // The CLI's guards on its own: --max-memory parsing, the non-finite result check and atomic writes
 // (cli/output.cpp, compiled into this test).
 #include <gtest/gtest.h>
+#include <sys/wait.h>
 #include <unistd.h>
+
+#include <csignal>
 
 #include <cmath>
 #include <filesystem>
@@ -77,6 +80,68 @@ TEST(AtomicOutput, WritesWholeFilesAndNeverOverAnInput) {
   int files = 0;
   for ([[maybe_unused]] const auto& e : fs::directory_iterator(dir)) ++files;
   EXPECT_EQ(files, 2);
+  fs::remove_all(dir);
+}
+
+TEST(AtomicOutput, LinksToAnInputAndTheDesignsLayoutAreInputsToo) {
+  const fs::path dir = fs::temp_directory_path() / ("hallway_output_links_" + std::to_string(::getpid()));
+  fs::remove_all(dir);
+  fs::create_directories(dir / "sub");
+  const fs::path block = dir / "block.yaml", flow = dir / "flow.yaml", gds = dir / "sub" / "chip.gds";
+  std::ofstream(block) << "hallway: 1\nlayout:\n  # the chip\n  file: \"sub/chip.gds\"  # drawn elsewhere\n"
+                          "  cell: TOP\nheterostructure:\n  file: not-this\n";
+  std::ofstream(flow) << "hallway: 1\nlayout: {cell: TOP, file: sub/chip.gds, layers: {mesa: 1/0}}\n";
+  std::ofstream(gds) << "GDS";
+  for (const fs::path& design : {block, flow}) {
+    const std::vector<std::string> inputs = DesignInputs(design.string());
+    ASSERT_EQ(inputs.size(), 2u) << design;
+    EXPECT_TRUE(fs::equivalent(inputs[1], gds)) << inputs[1];
+    EXPECT_THROW(WriteFileAtomically(gds.string(), "x", {design.string()}), OutputError);
+  }
+  fs::create_symlink(block, dir / "soft.json");
+  fs::create_hard_link(gds, dir / "hard.json");
+  EXPECT_THROW(WriteFileAtomically((dir / "soft.json").string(), "x", {block.string()}), OutputError);
+  EXPECT_THROW(WriteFileAtomically((dir / "hard.json").string(), "x", {block.string()}), OutputError);
+  std::stringstream kept;
+  kept << std::ifstream(gds).rdbuf();
+  EXPECT_EQ(kept.str(), "GDS");
+  EXPECT_EQ(DesignInputs((dir / "sub" / "chip.gds").string()).size(), 1u) << "no layout key, no extra input";
+  fs::remove_all(dir);
+}
+
+TEST(AtomicOutput, CharacterDevicesAreWrittenInPlaceAndAFullOneIsAnError) {
+  WriteFileAtomically("/dev/null", "ignored\n", {});
+  EXPECT_TRUE(fs::is_character_file("/dev/null"));
+  if (fs::exists("/dev/full")) {
+    EXPECT_THROW(WriteFileAtomically("/dev/full", "x", {}), OutputError);
+    EXPECT_TRUE(fs::is_character_file("/dev/full"));
+  }
+}
+
+TEST(SignalCleanup, RegisteredTemporariesAreRemovedAndTheSignalIsRaisedAgain) {
+  const fs::path dir = fs::temp_directory_path() / ("hallway_output_signal_" + std::to_string(::getpid()));
+  fs::remove_all(dir);
+  fs::create_directories(dir / "folder");
+  const fs::path file = dir / ".x.tmp", kept = dir / "kept.txt";
+  for (const fs::path& p : {file, dir / "folder" / "a.png", dir / "folder" / "b.csv", kept}) std::ofstream(p) << "x";
+  const pid_t child = ::fork();
+  ASSERT_GE(child, 0);
+  if (child == 0) {
+    InstallCleanupHandlers();
+    RegisterTemporary(file.string());
+    RegisterTemporary((dir / "folder").string(), true);
+    RegisterTemporary(kept.string());
+    UnregisterTemporary(kept.string());  // finished files are no longer temporaries
+    ::raise(SIGTERM);
+    ::_exit(0);  // not reached: the handler raises SIGTERM again with its default action
+  }
+  int status = 0;
+  ASSERT_EQ(::waitpid(child, &status, 0), child);
+  ASSERT_TRUE(WIFSIGNALED(status));
+  EXPECT_EQ(WTERMSIG(status), SIGTERM);
+  EXPECT_FALSE(fs::exists(file));
+  EXPECT_FALSE(fs::exists(dir / "folder"));
+  EXPECT_TRUE(fs::exists(kept));
   fs::remove_all(dir);
 }
 

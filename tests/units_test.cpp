@@ -103,5 +103,16 @@ TEST(Units, FormatSIPicksAPrefix) {
   EXPECT_EQ(FormatSI(0.0, "A"), "0 A");
 }
 
+// Beyond the prefixes (atto to giga) a prefix would make a wrong number ("1e-282 aV" for 1e-300 V):
+// plain scientific notation with the bare unit instead.
+TEST(Units, FormatSIOutsideThePrefixesIsScientificWithTheUnit) {
+  EXPECT_EQ(FormatSI(1e-300, "V"), "1e-300 V");
+  EXPECT_EQ(FormatSI(-2.5e-21, "A"), "-2.5e-21 A");
+  EXPECT_EQ(FormatSI(9.9e12, "Ohm"), "9.9e+12 Ohm");
+  EXPECT_EQ(FormatSI(1e-18, "A"), "1 aA");
+  EXPECT_EQ(FormatSI(999e9, "Hz"), "999 GHz");
+  EXPECT_EQ(FormatSI(95e-3, "m", 6), "95 mm");
+}
+
 }  // namespace
 }  // namespace hallway::units

@@ -5,6 +5,7 @@
 
 #include <algorithm>
 #include <cmath>
+#include <cstdio>
 #include <functional>
 #include <numbers>
 #include <set>
@@ -209,6 +210,13 @@ GdsFlat ReadGds(const std::string& bytes, const std::string& top, const GdsLimit
         flat.database_unit_m = real8(r.data + 8);
         if (!(flat.database_unit_m > 0 && flat.database_unit_m < 1))
           throw GdsError(r.offset, "database unit is not a positive length");
+        // Layout tools use 1 nm or 0.1 nm, rarely 1 pm; a unit coarser than 1 um is a corrupt or
+        // mistyped header (common practice). Bounded here so no coordinate is scaled by nonsense.
+        if (!(flat.database_unit_m >= 1e-12 && flat.database_unit_m <= 1e-6)) {
+          char b[160];
+          std::snprintf(b, sizeof b, "database unit %.6g m lies outside 1e-12 m .. 1e-06 m", flat.database_unit_m);
+          throw GdsError(r.offset, b);
+        }
         (void)user_per_db;
         break;
       case kEndLib: ended = true; break;
@@ -291,6 +299,12 @@ GdsFlat ReadGds(const std::string& bytes, const std::string& top, const GdsLimit
       case kMag:
         need(r, 8);
         el.mag = real8(r.data);
+        // A zero, negative or absurd magnification collapses or blows up the placed structure.
+        if (!(el.mag >= 1e-6 && el.mag <= 1e6)) {
+          char b[128];
+          std::snprintf(b, sizeof b, "magnification %.6g lies outside 1e-06 .. 1e+06", el.mag);
+          throw GdsError(r.offset, b);
+        }
         break;
       case kAngle:
         need(r, 8);

@@ -7,7 +7,10 @@
 #include <stdexcept>
 
 #include "hallway/constants.hpp"
+#include "hallway/design_loader.hpp"
 #include "hallway/geometry/exact.hpp"
+#include "hallway/geometry/region.hpp"
+#include "hallway/network.hpp"
 #include "hallway/saddle.hpp"
 #include "hallway/units.hpp"
 
@@ -46,6 +49,75 @@ using geometry::Polygon;
 // Do two outlines share area or boundary points? (exact)
 bool overlap_or_touch(const Polygon& a, const Polygon& b) {
   return geometry::boundaries_meet(a, b) || geometry::intersection_area(a, b) > 0.0;
+}
+
+// The distance between two disjoint outlines when it is below kMinFeature_m (1 nm; common practice:
+// no lithography draws a narrower gap), else nothing. The bounding boxes rule out most pairs cheaply.
+std::optional<double> too_narrow(const Polygon& a, const Polygon& b) {
+  const auto ba = geometry::bounding_box(a), bb = geometry::bounding_box(b);
+  const double dx = std::max({0.0, ba.xmin - bb.xmax, bb.xmin - ba.xmax});
+  const double dy = std::max({0.0, ba.ymin - bb.ymax, bb.ymin - ba.ymax});
+  if (std::hypot(dx, dy) >= kMinFeature_m) return std::nullopt;
+  const double d = geometry::closest_boundary_points(a, b).distance_m;
+  if (d > 0.0 && d < kMinFeature_m) return d;
+  return std::nullopt;
+}
+
+std::string narrow_message(const std::string& a, const std::string& b, double d) {
+  return a + " and " + b + " are only " + units::FormatSI(d, "m", 3) + " apart, less than " +
+         units::FormatSI(kMinFeature_m, "m") +
+         ": no lithography draws that gap (common practice), and the solvers would need a grid finer than it";
+}
+
+// A current source whose part of the 2DEG (the mesa minus the gates that deplete at their design
+// voltage) holds no return contact: the current has nowhere to go. Floating contacts join the
+// pieces they touch. Gaps of constrictions stay open here; closing them is the transport's business.
+template <class Add>
+void warn_islands(const Design& d, double depletion_voltage_V, Add&& add) {
+  geometry::Region twodeg(d.mesa.outline);
+  for (const Gate& g : d.gates)
+    if (g.voltage_V < depletion_voltage_V) twodeg = twodeg.Difference(geometry::Region(g.outline));
+  const auto pieces = twodeg.Pieces();
+  if (pieces.size() < 2) return;
+  std::vector<std::size_t> parent(pieces.size());
+  for (std::size_t i = 0; i < parent.size(); ++i) parent[i] = i;
+  auto root = [&](std::size_t i) {
+    while (parent[i] != i) i = parent[i] = parent[parent[i]];
+    return i;
+  };
+  std::vector<std::vector<std::size_t>> reaches(d.contacts.size());
+  for (std::size_t c = 0; c < d.contacts.size(); ++c)
+    for (std::size_t p = 0; p < pieces.size(); ++p)
+      if (geometry::intersection_area(d.contacts[c].outline, pieces[p].outer) > 0.0) reaches[c].push_back(p);
+  auto contact_index = [&](const std::string& name) {
+    for (std::size_t c = 0; c < d.contacts.size(); ++c)
+      if (d.contacts[c].name == name) return c;
+    return d.contacts.size();
+  };
+  for (const Wiring& w : d.wiring) {  // a floating contact is a wire between the pieces it touches
+    const std::size_t c = contact_index(w.contact);
+    if (w.role == Role::kFloat && c < d.contacts.size())
+      for (std::size_t p : reaches[c]) parent[root(p)] = root(reaches[c].front());
+  }
+  std::vector<char> has_return(pieces.size(), 0);
+  for (const Wiring& w : d.wiring) {
+    const bool returns =
+        w.role == Role::kGround || w.role == Role::kAmplifier || (w.role == Role::kSource && !w.bias_is_current);
+    const std::size_t c = contact_index(w.contact);
+    if (returns && c < d.contacts.size())
+      for (std::size_t p : reaches[c]) has_return[root(p)] = 1;
+  }
+  for (const Wiring& w : d.wiring) {
+    if (w.role != Role::kSource || !w.bias_is_current) continue;
+    const std::size_t c = contact_index(w.contact);
+    if (c >= d.contacts.size() || reaches[c].empty()) continue;
+    if (!std::any_of(reaches[c].begin(), reaches[c].end(), [&](std::size_t p) { return has_return[root(p)] != 0; }))
+      add(Severity::kWarning, "source-on-island",
+          "current source " + w.contact +
+              " feeds a part of the 2DEG that the depleting gates cut off from every grounded, amplifier or voltage "
+              "source contact: the current has no way out",
+          w.where);
+  }
 }
 
 }  // namespace
@@ -108,6 +180,9 @@ CheckResult CheckDesign(const Design& d, const CheckOptions& opt) {
         add(Severity::kError, "contacts-touch",
             "contacts " + c.name + " and " + d.contacts[j].name + " overlap or touch: they would be one contact",
             c.where);
+      else if (const auto gap = too_narrow(c.outline, d.contacts[j].outline))
+        add(Severity::kError, "gap-below-lithography", narrow_message("contacts " + c.name, d.contacts[j].name, *gap),
+            c.where);
   }
 
   // Gates: shorts to each other or to ohmic contacts, position, voltage.
@@ -118,11 +193,17 @@ CheckResult CheckDesign(const Design& d, const CheckOptions& opt) {
       if (overlap_or_touch(g.outline, d.gates[j].outline))
         add(Severity::kError, "gate-short",
             "gates " + g.name + " and " + d.gates[j].name + " overlap or touch: that is a short between them", g.where);
+      else if (const auto gap = too_narrow(g.outline, d.gates[j].outline))
+        add(Severity::kError, "gap-below-lithography", narrow_message("gates " + g.name, d.gates[j].name, *gap),
+            g.where);
     for (const Contact& c : d.contacts)
       if (overlap_or_touch(g.outline, c.outline))
         add(Severity::kError, "gate-on-contact",
             "gate " + g.name + " overlaps or touches ohmic contact " + c.name +
                 ": the gate would be shorted to the 2DEG",
+            g.where);
+      else if (const auto gap = too_narrow(g.outline, c.outline))
+        add(Severity::kError, "gap-below-lithography", narrow_message("gate " + g.name, "contact " + c.name, *gap),
             g.where);
     if (geometry::intersection_area(g.outline, mesa) <= 0.0)
       add(Severity::kWarning, "gate-off-mesa", "gate " + g.name + " does not cover any of the mesa and has no effect",
@@ -135,8 +216,39 @@ CheckResult CheckDesign(const Design& d, const CheckOptions& opt) {
           g.where);
   }
 
+  // The etch depletion must leave some 2DEG: the network refuses a mesa eroded away
+  // ("mesa-etched-away", network.cpp), so check refuses it first, with the same code.
+  if (d.mesa.etch_depletion_m > 0.0) {
+    const geometry::Region left =
+        geometry::Region(mesa).Offset(-d.mesa.etch_depletion_m, NetworkOptions{}.disc_segments);
+    if (left.empty())
+      add(Severity::kError, "mesa-etched-away",
+          "the etch depletion (" + units::FormatSI(d.mesa.etch_depletion_m, "m") +
+              ") is more than half the mesa's width everywhere: it leaves no 2DEG in the mesa",
+          d.mesa.where);
+    else if (left.Pieces().size() > 1)
+      add(Severity::kWarning, "mesa-etched-apart",
+          "the etch depletion (" + units::FormatSI(d.mesa.etch_depletion_m, "m") +
+              ") is more than half the mesa's width at a narrow place: the 2DEG falls apart into " +
+              std::to_string(left.Pieces().size()) + " pieces",
+          d.mesa.where);
+  }
+
   // Constrictions: the two sides must face each other across the 2DEG.
-  for (const Constriction& k : d.constrictions) {
+  for (std::size_t i = 0; i < d.constrictions.size(); ++i) {
+    const Constriction& k = d.constrictions[i];
+    // Two constrictions on the same pair of sides: they measure the same gap, so the network would
+    // cut two slits through one beam splitter. An error even when the transmissions agree: the
+    // design must say which one it means.
+    for (std::size_t j = 0; j < i; ++j) {
+      const Constriction& o = d.constrictions[j];
+      if ((o.first == k.first && o.second == k.second) || (o.first == k.second && o.second == k.first))
+        add(Severity::kError, "constriction-duplicate",
+            "constrictions " + o.name + " and " + k.name + " are both declared on the gap between " + k.first +
+                " and " + k.second + (o.transmission != k.transmission ? ", with different transmissions" : "") +
+                ": a gap is one beam splitter; declare it once",
+            k.where);
+    }
     ConstrictionGap gap;
     gap.name = k.name;
     gap.first = k.first;
@@ -150,6 +262,11 @@ CheckResult CheckDesign(const Design& d, const CheckOptions& opt) {
       continue;
     }
     const geometry::ClosestPair cp = *found;
+    if (cp.distance_m < kMinFeature_m) {
+      add(Severity::kError, "gap-below-lithography",
+          narrow_message("constriction " + k.name + ": " + k.first, k.second, cp.distance_m), k.where);
+      continue;
+    }
     gap.gap_m = cp.distance_m;
     gap.on_first = cp.on_a;
     gap.on_second = cp.on_b;
@@ -218,6 +335,7 @@ CheckResult CheckDesign(const Design& d, const CheckOptions& opt) {
     add(Severity::kError, "no-return",
         "a current source needs a return path, but no contact is grounded, an amplifier or a voltage source",
         wiring_where);
+  if (current_sources > 0 && returns > 0) warn_islands(d, vdep, add);
   if (floats == static_cast<int>(d.wiring.size()))
     add(Severity::kWarning, "all-floating", "every contact floats: the device is not connected to anything",
         wiring_where);

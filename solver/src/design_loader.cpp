@@ -20,12 +20,130 @@
 
 namespace hallway {
 
+namespace {
+
+// Well-formed UTF-8 (RFC 3629): no overlong forms, no surrogates, nothing above U+10FFFF.
+bool is_utf8(std::string_view s) {
+  std::size_t i = 0;
+  auto byte = [&](std::size_t k) { return static_cast<unsigned char>(s[k]); };
+  while (i < s.size()) {
+    const unsigned char c = byte(i);
+    std::size_t n = 0;
+    unsigned char lo = 0x80, hi = 0xBF;  // allowed range of the second byte
+    if (c < 0x80) {
+      ++i;
+      continue;
+    } else if (c >= 0xC2 && c <= 0xDF) {
+      n = 1;
+    } else if (c >= 0xE0 && c <= 0xEF) {
+      n = 2;
+      if (c == 0xE0) lo = 0xA0;
+      if (c == 0xED) hi = 0x9F;
+    } else if (c >= 0xF0 && c <= 0xF4) {
+      n = 3;
+      if (c == 0xF0) lo = 0x90;
+      if (c == 0xF4) hi = 0x8F;
+    } else {
+      return false;
+    }
+    if (i + n >= s.size()) return false;
+    if (byte(i + 1) < lo || byte(i + 1) > hi) return false;
+    for (std::size_t k = 2; k <= n; ++k)
+      if ((byte(i + k) & 0xC0) != 0x80) return false;
+    i += n + 1;
+  }
+  return true;
+}
+
+}  // namespace
+
+std::string PrintableText(std::string_view s) {
+  std::string out;
+  std::size_t i = 0;
+  while (i < s.size()) {
+    const auto c = static_cast<unsigned char>(s[i]);
+    if (c == '\n' || c == '\t') {  // kept: messages span lines, and tabs are harmless
+      out += static_cast<char>(c);
+      ++i;
+      continue;
+    }
+    const std::size_t n = c < 0x80 ? 1 : (c >> 5) == 0x6 ? 2 : (c >> 4) == 0xE ? 3 : (c >> 3) == 0x1E ? 4 : 0;
+    if (n > 1 && i + n <= s.size() && is_utf8(s.substr(i, n)) &&
+        !(c == 0xC2 && static_cast<unsigned char>(s[i + 1]) < 0xA0)) {
+      out.append(s.substr(i, n));  // a whole UTF-8 character that is not a C1 control
+      i += n;
+      continue;
+    }
+    if (n == 1 && c >= 0x20 && c != 0x7F) {
+      out += static_cast<char>(c);
+    } else {
+      char b[8];
+      std::snprintf(b, sizeof b, "\\x%02X", c);
+      out += b;
+    }
+    ++i;
+  }
+  return out;
+}
+
+bool IsCleanText(std::string_view s) {
+  return is_utf8(s) && PrintableText(s) == s && s.find('\t') == std::string_view::npos &&
+         s.find('\n') == std::string_view::npos;
+}
+
 DesignError::DesignError(SourceLocation where, const std::string& message)
-    : std::runtime_error(where.ToString() + ": " + message), where_(std::move(where)), message_(message) {}
+    : std::runtime_error(PrintableText(where.ToString() + ": " + message)),
+      where_(std::move(where)),
+      message_(PrintableText(message)) {
+  where_.file = PrintableText(where_.file);
+  where_.key_path = PrintableText(where_.key_path);
+}
 
 namespace {
 
 using units::Kind;
+
+// "" when `s` is a valid object name, else why not. The same rule holds for names in YAML and for
+// labels in a layout file.
+std::string name_problem(const std::string& s) {
+  const bool ok = !s.empty() && s.size() <= 64 && std::all_of(s.begin(), s.end(), [](char c) {
+    const auto u = static_cast<unsigned char>(c);
+    return u < 0x80 && (std::isalnum(u) || c == '_' || c == '-' || c == '.');
+  }) && std::isalpha(static_cast<unsigned char>(s[0]));
+  if (!ok) return "names start with a letter and use letters, digits, '_', '-' or '.' (at most 64), got '" + s + "'";
+  if (s == kMesaName) return "'mesa' is reserved for constrictions formed against the mesa edge";
+  return "";
+}
+
+// "" when `p` (in metres) is an outline the solvers can use, else the end of a sentence "the outline
+// ...". Inline outlines and every polygon from a layout file pass through here.
+std::string outline_problem(const geometry::Polygon& p) {
+  if (p.vertices.size() < 3) return "needs at least 3 points, got " + std::to_string(p.vertices.size());
+  if (p.vertices.size() > 100000) return "has more than 100000 points";
+  for (const auto& q : p.vertices)
+    if (!(std::abs(q.x) <= kMaxCoordinate_m) || !(std::abs(q.y) <= kMaxCoordinate_m)) {
+      char b[128];
+      std::snprintf(b, sizeof b, "has a point (%.6g m, %.6g m) more than 10 cm from the origin", q.x, q.y);
+      return b;
+    }
+  const auto defect = geometry::find_defect(p);
+  if (defect != geometry::PolygonDefect::kNone) return "is not a simple polygon: " + geometry::ToString(defect);
+  for (std::size_t i = 0; i < p.vertices.size(); ++i) {
+    const auto& a = p.vertices[i];
+    const auto& b = p.vertices[(i + 1) % p.vertices.size()];
+    const double d = std::hypot(b.x - a.x, b.y - a.y);
+    if (d < kMinFeature_m) {
+      char buf[200];
+      std::snprintf(buf, sizeof buf,
+                    "has two neighbouring points %s apart near (%.6g um, %.6g um), closer than %s: no lithography "
+                    "draws that",
+                    units::FormatSI(d, "m", 6).c_str(), a.x * 1e6, a.y * 1e6,
+                    units::FormatSI(kMinFeature_m, "m").c_str());
+      return buf;
+    }
+  }
+  return "";
+}
 
 // A YAML node together with where it is and what it is called.
 struct Value {
@@ -63,6 +181,7 @@ class Reader {
       const Value key{it->first, v.path};
       if (!it->first.IsScalar()) fail(key, "keys must be plain words");
       const std::string k = it->first.Scalar();
+      clean(key, k);
       const std::string child = v.path.empty() ? k : v.path + "." + k;
       if (std::find_if(allowed.begin(), allowed.end(), [&](const char* a) { return k == a; }) == allowed.end()) {
         std::string list;
@@ -88,7 +207,15 @@ class Reader {
                   (v.node.IsMap()        ? "mapping"
                    : v.node.IsSequence() ? "list"
                                          : "empty value"));
+    clean(v, v.node.Scalar());
     return v.node.Scalar();
+  }
+
+  // Text that reaches messages, the terminal and JSON must be UTF-8 without control characters
+  // (an escape sequence in a name would be written raw to the terminal).
+  void clean(const Value& v, const std::string& text) const {
+    if (!is_utf8(text)) fail(v, "the text '" + text + "' is not valid UTF-8 (the file must be saved as UTF-8)");
+    if (!IsCleanText(text)) fail(v, "the text '" + text + "' contains a control character (tab, line break or escape)");
   }
 
   double quantity(const Value& v, Kind kind) const {
@@ -171,21 +298,14 @@ class Reader {
         fail(pt, "coordinate lies more than 10 cm from the origin; check `units`");
       p.vertices.push_back({x, y});
     }
-    const auto defect = geometry::find_defect(p);
-    if (defect != geometry::PolygonDefect::kNone)
-      fail(v, "the outline is not a simple polygon: " + geometry::ToString(defect));
+    if (const std::string why = outline_problem(p); !why.empty()) fail(v, "the outline " + why);
     geometry::normalise(p);
     return p;
   }
 
   std::string name(const Value& v) const {
     const std::string s = scalar(v, "a name");
-    const bool ok = !s.empty() && s.size() <= 64 && std::all_of(s.begin(), s.end(), [](char c) {
-      return std::isalnum(static_cast<unsigned char>(c)) || c == '_' || c == '-' || c == '.';
-    }) && std::isalpha(static_cast<unsigned char>(s[0]));
-    if (!ok)
-      fail(v, "names start with a letter and use letters, digits, '_', '-' or '.' (at most 64), got '" + s + "'");
-    if (s == kMesaName) fail(v, "'mesa' is reserved for constrictions formed against the mesa edge");
+    if (const std::string why = name_problem(s); !why.empty()) fail(v, why);
     return s;
   }
 
@@ -195,10 +315,24 @@ class Reader {
   std::string file_;
 };
 
-void range(const Reader& r, const Value& v, double x, double lo, double hi, const std::string& what) {
+// How a value is shown in a range error: with an SI prefix on a plain symbol ("95 mm"), or scaled
+// into a fixed unit that takes no prefix ("9.9e+14 cm^-2").
+struct Shown {
+  const char* unit;     // "m", "K", or "cm^-2"
+  double per_si = 1.0;  // displayed value = SI value * per_si
+  bool prefix = true;   // FormatSI picks a prefix
+};
+std::string show(double x, const Shown& u) {
+  if (u.prefix) return units::FormatSI(x, u.unit, 6);
+  char b[64];
+  std::snprintf(b, sizeof b, "%.6g", x * u.per_si);
+  return std::string(b) + (u.unit[0] ? " " : "") + u.unit;
+}
+
+void range(const Reader& r, const Value& v, double x, double lo, double hi, const std::string& what,
+           const Shown& unit) {
   if (!(x >= lo && x <= hi))
-    r.fail(v, what + " must lie between " + units::FormatSI(lo, "") + " and " + units::FormatSI(hi, "") +
-                  " (SI units); got " + units::FormatSI(x, ""));
+    r.fail(v, what + " must lie between " + show(lo, unit) + " and " + show(hi, unit) + "; got " + show(x, unit));
 }
 
 Amplifier read_amplifier(const Reader& r, const Reader::Map& m, const std::optional<Amplifier>& base) {
@@ -208,12 +342,18 @@ Amplifier read_amplifier(const Reader& r, const Reader::Map& m, const std::optio
     Kind kind;
     double Amplifier::*member;
     bool may_be_zero;
+    double lo, hi;  // range of a nonzero value
+    Shown unit;
   };
-  const Field fields[] = {{"load", Kind::kResistance, &Amplifier::load_Ohm, false},
-                          {"voltage_noise", Kind::kVoltageNoise, &Amplifier::voltage_noise_V_per_rtHz, true},
-                          {"current_noise", Kind::kCurrentNoise, &Amplifier::current_noise_A_per_rtHz, true},
-                          {"bandwidth", Kind::kFrequency, &Amplifier::bandwidth_Hz, false},
-                          {"integration", Kind::kTime, &Amplifier::integration_s, false}};
+  // Ranges of real measurement chains, with room on both sides (common practice): a load of 1 Ohm
+  // to 1 TOhm; noise zero (ideal) or 1e-15 .. 1e-6 V/rtHz and 1e-18 .. 1e-9 A/rtHz; a bandwidth of
+  // 1 Hz to 10 GHz; an average of 1 ms to one year.
+  const Field fields[] = {
+      {"load", Kind::kResistance, &Amplifier::load_Ohm, false, 1.0, 1e12, {"Ohm"}},
+      {"voltage_noise", Kind::kVoltageNoise, &Amplifier::voltage_noise_V_per_rtHz, true, 1e-15, 1e-6, {"V/rtHz"}},
+      {"current_noise", Kind::kCurrentNoise, &Amplifier::current_noise_A_per_rtHz, true, 1e-18, 1e-9, {"A/rtHz"}},
+      {"bandwidth", Kind::kFrequency, &Amplifier::bandwidth_Hz, false, 1.0, 1e10, {"Hz"}},
+      {"integration", Kind::kTime, &Amplifier::integration_s, false, 1e-3, 3.16e7, {"s"}}};
   for (const Field& f : fields) {
     auto v = m.get(f.key);
     if (!v) {
@@ -225,6 +365,7 @@ Amplifier read_amplifier(const Reader& r, const Reader::Map& m, const std::optio
     const double x = r.quantity(*v, f.kind);
     if (f.may_be_zero ? !(x >= 0.0) : !(x > 0.0))
       r.fail(*v, std::string(f.key) + (f.may_be_zero ? " must not be negative" : " must be positive"));
+    if (x != 0.0) range(r, *v, x, f.lo, f.hi, f.key, f.unit);
     a.*(f.member) = x;
   }
   // Optional: absent keeps the shared block's value (or the default: the design temperature, no reference).
@@ -232,6 +373,7 @@ Amplifier read_amplifier(const Reader& r, const Reader::Map& m, const std::optio
     const double t = r.quantity(*v, Kind::kTemperature);
     if (!(t > 0.0)) r.fail(*v, "load_temperature must be above absolute zero");
     if (t > 300.0) r.fail(*v, "load_temperature above 300 K: a load resistor is at most at room temperature");
+    range(r, *v, t, kMinTemperature_K, 300.0, "load_temperature", {"K"});
     a.load_temperature_K = t;
   }
   if (auto v = m.get("reference_subtraction")) a.reference_subtraction = r.boolean(*v);
@@ -318,11 +460,19 @@ Wiring read_wiring(const Reader& r, const std::string& contact, const Value& v,
       w.bias_is_current = false;
       if (!(std::abs(w.bias) <= 0.1))
         r.fail(*bias_value, "a source bias beyond 100 mV is outside the quantum Hall regime");
+      // Zero, or at least 1 fV: smaller biases are below any measurable signal (common practice).
+      if (w.bias != 0.0 && std::abs(w.bias) < 1e-15)
+        r.fail(*bias_value,
+               "a source bias must be 0 or at least 1 fV in magnitude; got " + units::FormatSI(w.bias, "V", 6));
     } else if (q.dimension == units::DimensionOf(Kind::kCurrent)) {
       w.bias = q.value_si;
       w.bias_is_current = true;
       if (!(std::abs(w.bias) <= 1e-6))
         r.fail(*bias_value, "a source current beyond 1 uA is outside the quantum Hall regime");
+      // Zero, or at least 1 aA: a few electrons a second (common practice).
+      if (w.bias != 0.0 && std::abs(w.bias) < 1e-18)
+        r.fail(*bias_value,
+               "a source current must be 0 or at least 1 aA in magnitude; got " + units::FormatSI(w.bias, "A", 6));
     } else {
       r.fail(*bias_value, "a source bias is a voltage ('10 uV') or a current ('2 nA'), got '" + bias_text + "'");
     }
@@ -380,19 +530,27 @@ std::string where_text(geometry::Point p) {
   return b;
 }
 
+// Every polygon read from a layout passes the checks of an inline outline before CGAL sees it (a
+// keyhole, a polygon of equal points or a collapsed placement would crash the Boolean operations).
+void check_layout_polygon(const Reader& r, const Value& at, const geometry::Polygon& p, const std::string& what,
+                          const std::string& file) {
+  if (const std::string why = outline_problem(p); !why.empty())
+    r.fail(at, "layout file " + file + ": " + what + " near " +
+                   (p.vertices.empty() ? std::string("(no points)") : where_text(p.vertices.front())) +
+                   ": the outline " + why);
+}
+
 // Named objects of one layer: touching shapes are merged (CGAL), and each merged piece must hold
 // exactly one label, from the labels layer or its own.
 std::map<std::string, geometry::Polygon> named_objects(const Reader& r, const Value& at, const geometry::GdsFlat& flat,
                                                        geometry::GdsLayer layer,
                                                        std::optional<geometry::GdsLayer> labels,
-                                                       const std::string& what, Design* d) {
+                                                       const std::string& what, const std::string& file, Design* d) {
+  const std::string layer_text = std::to_string(layer.layer) + "/" + std::to_string(layer.datatype);
   geometry::Region all;
   if (const auto it = flat.polygons.find(layer); it != flat.polygons.end())
     for (const auto& p : it->second) {
-      if (geometry::find_defect(p) != geometry::PolygonDefect::kNone)
-        r.fail(at, "a " + what + " polygon on layer " + std::to_string(layer.layer) + "/" +
-                       std::to_string(layer.datatype) + " near " + where_text(p.vertices.front()) +
-                       " is not a simple polygon");
+      check_layout_polygon(r, at, p, "a " + what + " polygon on layer " + layer_text, file);
       all = all.Union(geometry::Region(p));
     }
   std::vector<geometry::GdsLabel> texts;
@@ -402,11 +560,16 @@ std::map<std::string, geometry::Polygon> named_objects(const Reader& r, const Va
         texts.insert(texts.end(), it->second.begin(), it->second.end());
   std::map<std::string, geometry::Polygon> out;
   std::vector<char> used(texts.size(), 0);
+  for (const auto& t : texts) {
+    if (!IsCleanText(t.text))
+      r.fail(at, "layout file " + file + ": the label '" + t.text + "' on a " + what + " layer near " +
+                     where_text(t.at) + " is not UTF-8 text without control characters");
+  }
   for (const auto& piece : all.Pieces()) {
+    check_layout_polygon(r, at, piece.outer, "the merged " + what + " on layer " + layer_text, file);
     std::vector<std::size_t> inside;
     for (std::size_t t = 0; t < texts.size(); ++t)
       if (geometry::contains(piece.outer, texts[t].at)) inside.push_back(t);
-    const std::string layer_text = std::to_string(layer.layer) + "/" + std::to_string(layer.datatype);
     if (inside.empty())
       r.fail(at, "a " + what + " polygon on layer " + layer_text + " near " + where_text(piece.outer.vertices.front()) +
                      " has no label");
@@ -414,6 +577,9 @@ std::map<std::string, geometry::Polygon> named_objects(const Reader& r, const Va
       r.fail(at, "a " + what + " polygon on layer " + layer_text + " holds two labels, '" + texts[inside[0]].text +
                      "' and '" + texts[inside[1]].text + "'");
     const std::string& name = texts[inside[0]].text;
+    if (const std::string why = name_problem(name); !why.empty())
+      r.fail(at, "layout file " + file + ": the " + what + " label '" + name + "' near " +
+                     where_text(texts[inside[0]].at) + " is not a valid name: " + why);
     if (out.count(name))
       r.fail(at, "two " + what + " polygons on layer " + layer_text + " are both labelled '" + name + "'");
     used[inside[0]] = 1;
@@ -469,17 +635,28 @@ Imported read_layout(const Reader& r, const Value& lv, const std::string& design
   im.where = r.where(lv);
   if (auto v = layers.get("mesa")) {
     const geometry::GdsLayer L = layer_of(r, *v);
+    const std::string layer_text = std::to_string(L.layer) + "/" + std::to_string(L.datatype);
     geometry::Region all;
     if (const auto it = flat.polygons.find(L); it != flat.polygons.end())
-      for (const auto& p : it->second) all = all.Union(geometry::Region(p));
+      for (const auto& p : it->second) {
+        check_layout_polygon(r, *v, p, "a mesa polygon on layer " + layer_text, file.string());
+        all = all.Union(geometry::Region(p));
+      }
     const auto pieces = all.Pieces();
-    if (pieces.size() != 1 || !pieces.front().holes.empty())
-      r.fail(*v, "the mesa layer must hold one connected polygon without holes; it has " +
-                     std::to_string(pieces.size()) + " pieces");
+    if (pieces.size() != 1 || !pieces.front().holes.empty()) {
+      const std::size_t holes = pieces.size() == 1 ? pieces.front().holes.size() : 0;
+      r.fail(*v, "layout file " + file.string() + ": the mesa layer " + layer_text +
+                     " must hold one connected polygon without holes; it has " + std::to_string(pieces.size()) +
+                     (pieces.size() == 1 ? " piece" : " pieces") +
+                     (holes ? " with " + std::to_string(holes) + (holes == 1 ? " hole" : " holes") : std::string()));
+    }
+    check_layout_polygon(r, *v, pieces.front().outer, "the merged mesa on layer " + layer_text, file.string());
     im.mesa = pieces.front().outer;
   }
-  if (auto v = layers.get("contacts")) im.contacts = named_objects(r, *v, flat, layer_of(r, *v), labels, "contact", d);
-  if (auto v = layers.get("gates")) im.gates = named_objects(r, *v, flat, layer_of(r, *v), labels, "gate", d);
+  if (auto v = layers.get("contacts"))
+    im.contacts = named_objects(r, *v, flat, layer_of(r, *v), labels, "contact", file.string(), d);
+  if (auto v = layers.get("gates"))
+    im.gates = named_objects(r, *v, flat, layer_of(r, *v), labels, "gate", file.string(), d);
   char buf[256];
   std::snprintf(buf, sizeof buf,
                 "layout %s: %zu structures, database unit %.3g m; imported %s%zu contacts and %zu gates",
@@ -503,11 +680,27 @@ Imported read_layout(const Reader& r, const Value& lv, const std::string& design
 
 }  // namespace
 
-Design LoadDesignFromString(const std::string& text, const std::string& path) {
+Design LoadDesignFromString(const std::string& original_text, const std::string& path) {
+  // The file name reaches messages and JSON output: it must be text.
+  if (!IsCleanText(path))
+    throw DesignError({path, 0, 0, ""},
+                      "the design file's name is not UTF-8 text without control characters; rename the file");
+  // Line ends: LF, CR LF, or CR alone (old Mac editors). A lone CR becomes LF, so that line numbers in
+  // messages count the lines the editor shows.
+  std::string text = original_text;
+  for (std::size_t i = 0; i < text.size(); ++i)
+    if (text[i] == '\r' && (i + 1 == text.size() || text[i + 1] != '\n')) text[i] = '\n';
   check_nesting(text, path);
   YAML::Node root;
   try {
-    root = YAML::Load(text);
+    const std::vector<YAML::Node> docs = YAML::LoadAll(text);
+    // A second document would be ignored silently; an empty one after a trailing '---' is harmless.
+    for (std::size_t k = 1; k < docs.size(); ++k)
+      if (!docs[k].IsNull())
+        throw DesignError({path, docs[k].Mark().line >= 0 ? docs[k].Mark().line + 1 : 0, 1, ""},
+                          "the file holds a second YAML document (after '---'); a design file is exactly one "
+                          "document");
+    if (!docs.empty()) root = docs.front();
   } catch (const YAML::Exception& e) {
     throw DesignError({path, e.mark.line + 1, e.mark.column + 1, ""}, "YAML syntax: " + e.msg);
   }
@@ -559,21 +752,24 @@ Design LoadDesignFromString(const std::string& text, const std::string& path) {
     auto& hs = d.heterostructure;
     const Value depth = r.require(h, "depth");
     hs.depth_m = r.quantity(depth, Kind::kLength);
-    range(r, depth, hs.depth_m, 1e-9, 10e-6, "depth");
+    range(r, depth, hs.depth_m, 1e-9, 10e-6, "depth", {"m"});
     const Value dens = r.require(h, "density");
     hs.density_per_m2 = r.quantity(dens, Kind::kSheetDensity);
-    range(r, dens, hs.density_per_m2, 1e13, 1e17, "density");
+    range(r, dens, hs.density_per_m2, 1e13, 1e17, "density", {"cm^-2", 1e-4, false});
     if (auto v = h.get("mobility")) {
       hs.mobility_m2_per_Vs = r.quantity(*v, Kind::kMobility);
-      range(r, *v, *hs.mobility_m2_per_Vs, 1e-4, 1e5, "mobility");
+      // 1 cm^2/Vs (a disordered film) to 1e9 cm^2/Vs, above the best GaAs wafers (common practice).
+      range(r, *v, *hs.mobility_m2_per_Vs, 1e-4, 1e5, "mobility", {"cm^2/Vs", 1e4, false});
     }
     if (auto v = h.get("permittivity")) {
       hs.permittivity = r.number(*v);
-      range(r, *v, hs.permittivity, 1.0, 100.0, "permittivity");
+      // Relative permittivity of a semiconductor host: 1 (vacuum) to 100 (common practice).
+      range(r, *v, hs.permittivity, 1.0, 100.0, "permittivity", {"", 1.0, false});
     }
     if (auto v = h.get("effective_mass")) {
       hs.effective_mass = r.number(*v);
-      range(r, *v, hs.effective_mass, 1e-3, 10.0, "effective_mass");
+      // In electron masses: 0.001 to 10 covers every known 2DEG host (common practice).
+      range(r, *v, hs.effective_mass, 1e-3, 10.0, "effective_mass", {"m_e", 1.0, false});
     }
     if (auto v = h.get("surface")) {
       const auto s = SurfaceModelFromString(r.scalar(*v, "pinned or frozen"));
@@ -591,6 +787,8 @@ Design LoadDesignFromString(const std::string& text, const std::string& path) {
     cd.temperature_K = r.quantity(t, Kind::kTemperature);
     if (!(cd.temperature_K > 0.0)) r.fail(t, "temperature must be above absolute zero");
     if (cd.temperature_K > 300.0) r.fail(t, "temperature above 300 K: no quantum Hall effect to design for");
+    // Lower bound: kMinTemperature_K (1 nK; design_loader.hpp, common practice).
+    range(r, t, cd.temperature_K, kMinTemperature_K, 300.0, "temperature", {"K"});
     const auto fill = c.get("filling");
     const auto field = c.get("field");
     if (fill && field) r.fail(*field, "give either `filling` or `field`, not both (the other is derived)");
@@ -602,6 +800,9 @@ Design LoadDesignFromString(const std::string& text, const std::string& path) {
       // B = n h / (e nu), positive by convention.
       cd.field_T = n * constants::kPlanck_Js / (constants::kElementaryCharge_C * cd.filling.value());
       if (cd.field_T > 100.0) r.fail(*fill, "this filling needs a field above 100 T at this density");
+      if (cd.field_T < kMinField_T)
+        r.fail(*fill, "this filling needs a field below " + units::FormatSI(kMinField_T, "T") + " at this density (" +
+                          units::FormatSI(cd.field_T, "T", 6) + "): no quantum Hall edges to design for");
     } else {
       filling_value = *field;
       cd.field_given = true;
@@ -609,6 +810,10 @@ Design LoadDesignFromString(const std::string& text, const std::string& path) {
       if (cd.field_T == 0.0)
         r.fail(*field, "a zero field has no quantum Hall edges; give a signed field such as 4.75 T");
       if (std::abs(cd.field_T) > 100.0) r.fail(*field, "fields beyond 100 T are not supported");
+      // Below 1 mT no 2DEG of the allowed densities shows a plateau (filling beyond 1000; common practice).
+      if (std::abs(cd.field_T) < kMinField_T)
+        r.fail(*field, "the field must be at least " + units::FormatSI(kMinField_T, "T") + " in magnitude; got " +
+                           units::FormatSI(cd.field_T, "T", 6));
       cd.filling_from_field = n * constants::kPlanck_Js / (constants::kElementaryCharge_C * std::abs(cd.field_T));
       const auto match = NearestPlateau(cd.filling_from_field, kPlateauTolerance);
       if (!match) {
@@ -680,7 +885,7 @@ Design LoadDesignFromString(const std::string& text, const std::string& path) {
     if (auto v = mm.get("etch_depletion")) {
       d.mesa.etch_depletion_m = r.quantity(*v, Kind::kLength);
       d.mesa.etch_depletion_given = true;
-      range(r, *v, d.mesa.etch_depletion_m, 0.0, 10e-6, "etch_depletion");
+      range(r, *v, d.mesa.etch_depletion_m, 0.0, 10e-6, "etch_depletion", {"m"});
     } else {
       d.notes.push_back("mesa.etch_depletion not given: the etched edge is taken to deplete nothing beyond itself");
     }
@@ -693,7 +898,9 @@ Design LoadDesignFromString(const std::string& text, const std::string& path) {
   };
 
   // Contacts.
-  std::set<std::string> listed;
+  // Names listed in YAML, per kind: a layout object is skipped below only when YAML lists it as the
+  // same kind (a layout gate labelled like a listed contact must be refused, not dropped).
+  std::set<std::string> listed, listed_gates;
   if (auto cv = m.get("contacts"); cv && !cv->node.IsNull()) {
     for (const Value& item : r.list(*cv, "ohmic contacts")) {
       const auto cm = r.map(item, {"name", "outline"});
@@ -735,12 +942,12 @@ Design LoadDesignFromString(const std::string& text, const std::string& path) {
       const Value nv = r.require(gm, "name");
       g.name = r.name(nv);
       claim(nv, g.name, "gate");
-      listed.insert(g.name);
+      listed_gates.insert(g.name);
       g.where = r.where(item);
       g.where.key_path = item.path + " (" + g.name + ")";
       const Value vv = r.require(gm, "voltage");
       g.voltage_V = r.quantity(vv, Kind::kVoltage);
-      range(r, vv, g.voltage_V, -20.0, 20.0, "a gate voltage");
+      range(r, vv, g.voltage_V, -20.0, 20.0, "a gate voltage", {"V"});
       const auto drawn = imported.gates.find(g.name);
       if (auto ov = gm.get("outline")) {
         if (drawn != imported.gates.end())
@@ -755,7 +962,7 @@ Design LoadDesignFromString(const std::string& text, const std::string& path) {
     }
   }
   for (const auto& [name, outline] : imported.gates) {
-    if (listed.count(name)) continue;
+    if (listed_gates.count(name)) continue;
     if (taken.count(name)) r.fail(m.self, "the layout's gate " + name + " has the name of a " + taken.at(name));
     taken.emplace(name, "gate");
     d.gates.push_back({name, 0.0, outline, imported.where});

@@ -1,6 +1,7 @@
 // Unit parsing and SI formatting; see units.hpp.
 #include "hallway/units.hpp"
 
+#include <algorithm>
 #include <array>
 #include <charconv>
 #include <cmath>
@@ -284,10 +285,24 @@ std::string FormatSI(double value_si, std::string_view unit, int digits) {
                                                                         {1e6, "M"},
                                                                         {1e9, "G"}}};
   const double a = std::abs(value_si);
+  char buf[64];
+  // Beyond the prefixes (below 1 a, from 1000 G on): plain scientific notation with the bare unit,
+  // never a prefix that would be read as a different number.
+  if (a < prefixes.front().first * 0.9995 || a >= prefixes.back().first * 999.5) {
+    std::snprintf(buf, sizeof buf, "%.*e", std::max(digits - 1, 0), value_si);
+    // Trim trailing zeros of the mantissa: "1.000e-282" -> "1e-282".
+    std::string t(buf);
+    const auto e = t.find('e');
+    std::string mant = t.substr(0, e), expo = t.substr(e);
+    if (mant.find('.') != std::string::npos) {
+      while (!mant.empty() && mant.back() == '0') mant.pop_back();
+      if (!mant.empty() && mant.back() == '.') mant.pop_back();
+    }
+    return mant + expo + " " + std::string(unit);
+  }
   std::size_t k = 0;
   while (k + 1 < prefixes.size() && a >= prefixes[k + 1].first * 0.9995) ++k;
   const double scaled = value_si / prefixes[k].first;
-  char buf[64];
   std::snprintf(buf, sizeof buf, "%.*g", digits, scaled);
   return std::string(buf) + " " + prefixes[k].second + std::string(unit);
 }
