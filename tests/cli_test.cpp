@@ -19,22 +19,9 @@ namespace {
 
 namespace fs = std::filesystem;
 
-struct CommandRun {
-  int exit_code = -1;
-  std::string output;  // stdout and stderr together
-};
-
-CommandRun hallway(const std::string& args) {
-  const std::string cmd = std::string("'") + HALLWAY_EXE + "' " + args + " 2>&1";
-  CommandRun r;
-  FILE* p = popen(cmd.c_str(), "r");
-  if (!p) return r;
-  char buf[4096];
-  std::size_t n;
-  while ((n = fread(buf, 1, sizeof buf, p)) > 0) r.output.append(buf, n);
-  const int status = pclose(p);
-  r.exit_code = WIFEXITED(status) ? WEXITSTATUS(status) : -1;
-  return r;
+using CommandRun = test::CommandRun;
+inline CommandRun hallway(const std::string& args) {
+  return test::RunHallway(args);
 }
 
 std::string read(const fs::path& p) {

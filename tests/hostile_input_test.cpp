@@ -140,21 +140,9 @@ TEST(Hostile, SecondYamlDocumentIsRefused) {
 }
 
 // Command-line values that are not numbers a solver can use are usage errors (exit 2) with a message.
-struct CliRun {
-  int exit_code = -1;
-  std::string output;
-};
-CliRun Hallway(const std::string& args) {
-  const std::string cmd = std::string("'") + HALLWAY_EXE + "' " + args + " 2>&1";
-  CliRun r;
-  FILE* p = popen(cmd.c_str(), "r");
-  if (!p) return r;
-  char buf[4096];
-  std::size_t n = 0;
-  while ((n = fread(buf, 1, sizeof buf, p)) > 0) r.output.append(buf, n);
-  const int status = pclose(p);
-  r.exit_code = WIFEXITED(status) ? WEXITSTATUS(status) : -1;
-  return r;
+using CliRun = test::CommandRun;
+inline CliRun Hallway(const std::string& args) {
+  return test::RunHallway(args);
 }
 
 TEST(Hostile, NoisePhaseThatIsNotAFiniteAngleIsAUsageError) {

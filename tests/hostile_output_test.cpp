@@ -28,22 +28,9 @@ namespace {
 
 namespace fs = std::filesystem;
 
-struct Outcome {
-  int exit_code = -1;
-  std::string output;  // stdout and stderr together
-};
-
-Outcome hallway(const std::string& args) {
-  const std::string cmd = std::string("'") + HALLWAY_EXE + "' " + args + " 2>&1";
-  Outcome r;
-  FILE* p = popen(cmd.c_str(), "r");
-  if (!p) return r;
-  char buf[4096];
-  std::size_t n;
-  while ((n = fread(buf, 1, sizeof buf, p)) > 0) r.output.append(buf, n);
-  const int status = pclose(p);
-  r.exit_code = WIFEXITED(status) ? WEXITSTATUS(status) : -1;
-  return r;
+using Outcome = test::CommandRun;
+inline Outcome hallway(const std::string& args) {
+  return test::RunHallway(args);
 }
 
 std::string read(const fs::path& p) {

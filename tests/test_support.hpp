@@ -3,7 +3,10 @@
 
 #include <gtest/gtest.h>
 
+#include <sys/wait.h>
+
 #include <cmath>
+#include <cstdio>
 #include <string>
 
 namespace hallway::test {
@@ -61,6 +64,26 @@ inline std::string replace(const std::string& text, const std::string& from, con
   if (at != std::string::npos) out.replace(at, from.size(), to);
   return out;
 }
+
+#ifdef HALLWAY_EXE
+// The built executable run with `args` (a shell command line), stdout and stderr together.
+struct CommandRun {
+  int exit_code = -1;
+  std::string output;
+};
+inline CommandRun RunHallway(const std::string& args) {
+  const std::string cmd = std::string("'") + HALLWAY_EXE + "' " + args + " 2>&1";
+  CommandRun r;
+  FILE* p = popen(cmd.c_str(), "r");
+  if (!p) return r;
+  char buf[4096];
+  std::size_t n = 0;
+  while ((n = fread(buf, 1, sizeof buf, p)) > 0) r.output.append(buf, n);
+  const int status = pclose(p);
+  r.exit_code = WIFEXITED(status) ? WEXITSTATUS(status) : -1;
+  return r;
+}
+#endif
 
 // Tolerance for values quoted to 4-6 significant digits in a reference.
 constexpr double kQuoted4 = 5e-4;
