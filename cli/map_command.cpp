@@ -72,7 +72,7 @@ int RunMap(const MapArgs& args) {
   if (!d.name.empty()) out += fmt::format("  design: {}\n", d.name);
   out +=
       "  model: self-consistent Thomas-Fermi density under a pinned surface with the image kernel and the quantum\n"
-      "  capacitance (physics.md 1.1-1.3), bound-constrained QP by primal-dual active sets with FFT-preconditioned "
+      "  capacitance (docs/models.md \"Thomas-Fermi electrostatics\"), bound-constrained QP by primal-dual active sets with FFT-preconditioned "
       "CG\n";
   const auto& s = m.map.stats;
   out += fmt::format("  whole mesa: grid {} x {} cells of {}, {} operator applications, residual {:.2e} (n/n_s), {}\n",

@@ -163,7 +163,7 @@ int RunPaths(const PathsArgs& args) {
     out +=
         "  (AB periods assume the interfering edge encloses the area shown; which period is seen depends on the "
         "regime, "
-        "physics.md 10)\n";
+        "docs/models.md \"Aharonov-Bohm period and charging\")\n";
   }
   if (!r.source_paths.empty()) {
     out += "\nSource constriction to splitter or collider\n";

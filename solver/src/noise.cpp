@@ -573,7 +573,7 @@ NoiseResult SolveNoise(const Design& d, const EdgeNetwork& net, const TransportR
     r.models.push_back(
         std::string(
             "integer channels: coherent scattering matrix with Büttiker's multi-terminal formula at finite temperature "
-            "(Büttiker, Phys. Rev. B 46, 12485 (1992); physics.md 4.1); ") +
+            "(Büttiker, Phys. Rev. B 46, 12485 (1992); docs/models.md \"Coherent noise of integer channels\"); ") +
         (r.loops.empty()    ? "the network has no loop, so the phases drop out"
          : r.phase_averaged ? "averaged over " + std::to_string(samples) + " phase configurations of its loop(s)"
                             : "with the loop phase fixed at " + std::to_string(*opt.loop_phase_rad) + " rad"));
@@ -616,7 +616,7 @@ NoiseResult SolveNoise(const Design& d, const EdgeNetwork& net, const TransportR
       }
     }
     r.models.push_back(
-        "floating contacts and current sources conserve current at low frequency (physics.md 4.4); their heating "
+        "floating contacts and current sources conserve current at low frequency (docs/models.md \"Floating contacts\"); their heating "
         "by the bias is not included");
   }
   const Mat excess_p = L * excess * L.transpose();
@@ -677,7 +677,7 @@ NoiseResult SolveNoise(const Design& d, const EdgeNetwork& net, const TransportR
         "amplifier chain: sample in parallel with the load, S_V = R^2 S_I + e_n^2 + R^2 i_n^2 + 4k R^2 (T_s/R_s + "
         "T_L/R_L) with the load at its own temperature; averaging "
         "error S/sqrt(df t) for autocorrelations and sqrt((SxxSyy + Sxy^2)/(2 df t)) for cross-correlations "
-        "(Dicke radiometer formula; physics.md 8)");
+        "(Dicke radiometer formula; docs/models.md \"Amplifier chain\")");
 
   // ---- Colliders: their time to know P from the drains' cross-correlation ----
   for (ColliderPrediction& cp : r.colliders) {

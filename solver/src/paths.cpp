@@ -136,9 +136,9 @@ PathResult ComputePaths(const Design& d, const EdgeNetwork& net, const Transport
   const HeterostructureFigures fig = DeriveFigures(d.heterostructure, d.conditions.field_T, d.conditions.temperature_K);
   const double kt = kBoltzmann_J_per_K * d.conditions.temperature_K;
   r.velocity_model =
-      map ? "E x B drift v = |grad U| / (e |B|) of the self-consistent potential along the edge (physics.md 7)"
+      map ? "E x B drift v = |grad U| / (e |B|) of the self-consistent potential along the edge (docs/models.md \"Edge velocity and lengths\")"
           : "a fixed drift velocity of " + std::to_string(static_cast<int>(opt.default_velocity_m_per_s)) +
-                " m/s (physics.md 7 range; no electrostatic map)";
+                " m/s (docs/models.md \"Edge velocity and lengths\"; no electrostatic map)";
   for (std::size_t p = 0; p < net.pieces.size(); ++p) {
     const EdgePiece& e = net.pieces[p];
     PieceMetrics pm;

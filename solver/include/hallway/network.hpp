@@ -30,10 +30,10 @@ namespace hallway {
 
 // Which model placed the channel boundaries.
 inline constexpr const char* kBareBoundaryModel =
-    "bare-potential lateral depletion estimate (physics.md 1.4 (i)); self-consistent boundaries are not used";
+    "bare-potential lateral depletion estimate (docs/models.md \"Channel boundaries and slits\"); self-consistent boundaries are not used";
 
 inline constexpr const char* kSelfConsistentBoundaryModel =
-    "self-consistent Thomas-Fermi density (physics.md 1.2, as in `hallway map`); channel k runs where the local "
+    "self-consistent Thomas-Fermi density (docs/models.md \"Thomas-Fermi electrostatics\", as in `hallway map`); channel k runs where the local "
     "filling "
     "crosses the middle of its step, c_k - g_k / 2";
 
