@@ -277,6 +277,22 @@ Feed FeedOf(const Design& d, const EdgeNetwork& net, const TransportResult& tr, 
   return f;
 }
 
+// Why the collider model cannot give P for this collider, in order of precedence (empty: it can).
+std::string NotComputedReason(const Channel& ch, const Feed& a, const Feed& b, const ColliderPrediction& cp) {
+  if (!ch.exchange_pi || !ch.scaling || !cp.exchange_below_half_pi)
+    return "exchange phase " + (ch.exchange_pi ? std::to_string(*ch.exchange_pi).substr(0, 5) + " pi" : "unknown") +
+           ": the sharp-step braiding model of P does not apply above pi/2 (finite anyon width: Thamm & Rosenow, "
+           "arXiv:2312.04475; Rosenow & Halperin, arXiv:2510.04319); the collider is not computed";
+  if (!(cp.scaling > 0.0 && cp.scaling < 0.5))
+    return "scaling dimension outside (0, 1/2): the collider formula does not apply";
+  if (!a.problem.empty() || !b.problem.empty())
+    return "input " + std::string(a.problem.empty() ? "2: " + b.problem : "1: " + a.problem);
+  if (cp.stream_first_A * cp.stream_second_A < 0.0)
+    return "the two input streams have opposite signs (one source biased negative): outside the domain of the "
+           "formula, which assumes streams of one sign";
+  return {};
+}
+
 // Colliders: constrictions on a fractional channel with 0 < t < 1 fed on at least one input by the
 // output of an upstream constriction that carries a stream, the other input a stream or an edge at
 // equilibrium (one-beam partitioning). P is computed where the model's domain allows; the collider is
@@ -346,20 +362,7 @@ std::vector<ColliderPrediction> FindColliders(const Design& d, const EdgeNetwork
         (f == 1 ? cp.output_first : cp.output_second) = best;
       }
       if (!ch.note.empty()) cp.caveats.push_back(ch.note);
-      // Why P is not computed, in order of precedence.
-      if (!ch.exchange_pi || !ch.scaling || !cp.exchange_below_half_pi)
-        cp.not_computed =
-            "exchange phase " + (ch.exchange_pi ? std::to_string(*ch.exchange_pi).substr(0, 5) + " pi" : "unknown") +
-            ": the sharp-step braiding model of P does not apply above pi/2 (finite anyon width: Thamm & Rosenow, "
-            "arXiv:2312.04475; Rosenow & Halperin, arXiv:2510.04319); the collider is not computed";
-      else if (!(cp.scaling > 0.0 && cp.scaling < 0.5))
-        cp.not_computed = "scaling dimension outside (0, 1/2): the collider formula does not apply";
-      else if (!a.problem.empty() || !b.problem.empty())
-        cp.not_computed = "input " + std::string(a.problem.empty() ? "2: " + b.problem : "1: " + a.problem);
-      else if (cp.stream_first_A * cp.stream_second_A < 0.0)
-        cp.not_computed =
-            "the two input streams have opposite signs (one source biased negative): outside the domain of the "
-            "formula, which assumes streams of one sign";
+      cp.not_computed = NotComputedReason(ch, a, b, cp);
       cp.rate_over_temperature = ColliderRateOverTemperature(
           cp.exchange_below_half_pi ? cp.exchange_pi * std::numbers::pi : std::numbers::pi / 2, std::abs(cp.i_plus_A),
           cp.charge_e * kElementaryCharge_C, temperature);
@@ -616,7 +619,8 @@ NoiseResult SolveNoise(const Design& d, const EdgeNetwork& net, const TransportR
       }
     }
     r.models.push_back(
-        "floating contacts and current sources conserve current at low frequency (docs/models.md \"Floating contacts\"); their heating "
+        "floating contacts and current sources conserve current at low frequency (docs/models.md \"Floating "
+        "contacts\"); their heating "
         "by the bias is not included");
   }
   const Mat excess_p = L * excess * L.transpose();
