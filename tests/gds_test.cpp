@@ -261,6 +261,27 @@ TEST(Gds, MalformedAndHostileFilesAreErrorsWithTheByteOffset) {
   labels.end_cell();
   labels.end();
   ExpectGdsError(labels.bytes, "more than 100000 labels");
+  // Labels without a position produce nothing, so neither the label nor the vertex limit sees them:
+  // 10^6 placements of 300 of them is 3 x 10^8 element visits, which the work bound (2 x 10^8) stops.
+  Gds empty;
+  empty.begin("LEAF");
+  for (int k = 0; k < 300; ++k) {
+    empty.rec(0x0C, 0);                  // TEXT
+    empty.rec(0x0D, 2, Gds::i16(63));    // LAYER
+    empty.rec(0x16, 2, Gds::i16(0));     // TEXTTYPE
+    empty.rec(0x19, 6, Gds::text("Q"));  // STRING, no XY
+    empty.rec(0x11, 0);                  // ENDEL
+  }
+  empty.end_cell();
+  empty.begin("TOP");
+  empty.rec(0x0B, 0);
+  empty.rec(0x12, 6, Gds::text("LEAF"));
+  empty.rec(0x13, 2, Gds::i16(1000) + Gds::i16(1000));
+  empty.rec(0x10, 3, Gds::xy({{0, 0}, {1000, 0}, {0, 1000}}));
+  empty.rec(0x11, 0);
+  empty.end_cell();
+  empty.end();
+  ExpectGdsError(empty.bytes, "visits more than 200000000 elements");
 }
 
 TEST(Gds, LayoutDesignSolvesLikeTheSameDesignInline) {

@@ -351,7 +351,7 @@ GdsFlat ReadGds(const std::string& bytes, const std::string& top, const GdsLimit
   const double u = flat.database_unit_m;
   // Nested arrays multiply: a few hundred bytes can place a structure 10^12 times. Every placement
   // and every emitted vertex or label counts against the limits, so that flattening always ends.
-  std::size_t vertices = 0, placements = 0, label_count = 0;
+  std::size_t vertices = 0, placements = 0, label_count = 0, visits = 0;
   std::vector<std::string> stack;
   std::function<void(const Cell&, const Transform&, int)> flatten = [&](const Cell& c, const Transform& t, int depth) {
     if (depth > limits.max_depth)
@@ -360,6 +360,9 @@ GdsFlat ReadGds(const std::string& bytes, const std::string& top, const GdsLimit
       throw GdsError(c.offset, "structure '" + c.name + "' refers to itself");
     stack.push_back(c.name);
     for (const Element& e : c.elements) {
+      if (++visits > limits.max_element_visits)
+        throw GdsError(e.offset, "flattening the layout visits more than " + std::to_string(limits.max_element_visits) +
+                                     " elements (arrays of structures that produce nothing still cost work)");
       auto emit = [&](std::vector<Point> pts) {
         vertices += pts.size();
         if (vertices > limits.max_output_vertices)

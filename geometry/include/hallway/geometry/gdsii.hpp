@@ -54,6 +54,9 @@ struct GdsLimits {
   std::size_t max_output_vertices = 20'000'000;  // polygon vertices after flattening
   std::size_t max_labels = 100'000;              // text labels after flattening (a design names dozens)
   std::size_t max_placements = 20'000'000;       // structure placements visited while flattening
+  // Elements visited while flattening, whether or not they produce anything (a label without a
+  // position, an empty path): bounds the work, not only the output. About a minute at most.
+  std::size_t max_element_visits = 200'000'000;
   int max_depth = 64;
 };
 
