@@ -267,7 +267,8 @@ TEST(ColliderFiniteTemperature, ExcessCrossCorrelationVanishesAtZeroBias) {
   //   p -> 1 - tan(theta) tan(pi delta) [psi'(delta) - psi'(1 - delta)] / pi^2   (finite).
   // The unnormalised excess S_34 = 2 e* I+ (dI_T/dI-) p is, in units of 4 e*^2 K' sin(pi delta) (K' fixed by T),
   // A cot(theta) Re J_1(zhat) p with A = 2 zeta proportional to I+.
-  for (const auto& [th, de] : {std::pair{kPi / 3, 1.0 / 3}, std::pair{kPi / 5, 0.2}}) {
+  for (const auto& [th_b, de_b] : {std::pair{kPi / 3, 1.0 / 3}, std::pair{kPi / 5, 0.2}}) {
+    const double th = th_b, de = de_b;  // copies: a lambda below captures them (clang 14: no bindings)
     const double limit = 1 - std::tan(th) * std::tan(kPi * de) * trigamma_gap(de) / (kPi * kPi);
     for (double x : {0.0, 0.5, 1.0}) {
       EXPECT_NEAR(ColliderShape(x, th, de, 1e-6).p, limit, 1e-4) << de << " " << x;
