@@ -220,8 +220,11 @@ TransportResult SolveTransport(const Design& d, const EdgeNetwork& net) {
     for (int c = 0; c < u; ++c)
       A(a, c) = G[static_cast<std::size_t>(unknown[static_cast<std::size_t>(a)])]
                  [static_cast<std::size_t>(unknown[static_cast<std::size_t>(c)])];
-  const Eigen::FullPivLU<Eigen::MatrixXd> lu(A);
-  if (u > 0 && !lu.isInvertible()) throw std::runtime_error("the wiring leaves the contact voltages undetermined");
+  Eigen::FullPivLU<Eigen::MatrixXd> lu;
+  if (u > 0) {  // an empty matrix is not factorised (Eigen asserts on it)
+    lu.compute(A);
+    if (!lu.isInvertible()) throw std::runtime_error("the wiring leaves the contact voltages undetermined");
+  }
   auto solve_unknown = [&](std::vector<double>& volts, const std::vector<double>& currents) {
     if (u == 0) return;
     Eigen::VectorXd b(u);
