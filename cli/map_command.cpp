@@ -22,52 +22,25 @@ using units::FormatSI;
 std::string volts(const std::optional<double>& v, const char* none) {
   return v ? FormatSI(*v, "V") : std::string(none);
 }
-}  // namespace
 
-int RunMap(const MapArgs& args) {
-  std::size_t max_memory = 0;
-  if (int code = 0; !ParseMaxMemory(args.max_memory, &max_memory, &code)) return code;
-  Design d;
-  if (int code = 0; !LoadOrReport(args.design_path, &d, &code)) return code;
-  MapOptions opt;
-  opt.electrostatics.max_memory_bytes = max_memory;
-  if (!args.grid.empty()) {
-    try {
-      opt.electrostatics.grid_m = units::Parse(args.grid, units::Kind::kLength);
-    } catch (const units::UnitError& e) {
-      std::cerr << "hallway: usage error: --grid: " << e.what() << "\n";
-      return kExitUsage;
-    }
-    // 1 nm to 10 um: finer than lithography draws is wasted memory, coarser than 10 um resolves no
-    // gate of a quantum Hall device (common practice).
-    if (!(opt.electrostatics.grid_m >= 1e-9 && opt.electrostatics.grid_m <= 10e-6)) {
-      std::cerr << "hallway: usage error: --grid must lie between 1 nm and 10 um; got '" << args.grid << "'\n";
-      return kExitUsage;
-    }
-  }
-  const CheckResult check = CheckDesign(d);
-  if (ReportErrors(check.findings) > 0) {
-    std::cerr << "hallway: run `hallway check` for the full list; nothing was solved\n";
-    return kExitDesignError;
-  }
-  MapResult m;
-  std::unique_ptr<Progress> progress;
-  opt.progress = [&](int step, int total, const std::string& what) {
-    if (!progress) progress = std::make_unique<Progress>("map", total, args.quiet);
-    progress->Step(step, what);
-  };
+// The --grid option: 1 nm to 10 um (finer than lithography draws is wasted memory, coarser than 10 um
+// resolves no gate of a quantum Hall device; common practice). False after a usage error.
+bool ParseGrid(const std::string& text, double* grid_m) {
+  if (text.empty()) return true;
   try {
-    m = ComputeMap(d, opt);
-  } catch (const GridTooLarge& e) {
-    progress.reset();
-    return ReportGridTooLarge(e, true);
+    *grid_m = units::Parse(text, units::Kind::kLength);
+  } catch (const units::UnitError& e) {
+    std::cerr << "hallway: usage error: --grid: " << e.what() << "\n";
+    return false;
   }
-  progress.reset();
-  if (ReportErrors(m.findings) > 0) {
-    std::cerr << "hallway: resource limit: the electrostatic solve did not converge within its iteration bound; no "
-                 "map is reported\n";
-    return kExitResourceLimit;
+  if (!(*grid_m >= 1e-9 && *grid_m <= 10e-6)) {
+    std::cerr << "hallway: usage error: --grid must lie between 1 nm and 10 um; got '" << text << "'\n";
+    return false;
   }
+  return true;
+}
+
+std::string MapText(const Design& d, const MapResult& m) {
   std::string out = fmt::format("hallway map  {}\n", d.path);
   if (!d.name.empty()) out += fmt::format("  design: {}\n", d.name);
   out +=
@@ -111,7 +84,11 @@ int RunMap(const MapArgs& args) {
       "\nPinch-off and depletion voltages are estimates; approach them slowly. A gate driven past its leakage or\n"
       "breakdown onset can destroy the sample.\n";
   out += kSafetyCaution;
-  // The result document, checked for non-finite numbers (with the density grid) before anything is shown.
+  return out;
+}
+
+json MapJson(const Design& d, const MapResult& m) {
+  const auto& s = m.map.stats;
   json doc;
   doc["hallway_map"] = 1;
   doc["design"] = d.path;
@@ -143,21 +120,63 @@ int RunMap(const MapArgs& args) {
                    {"solves", m.solves},
                    {"total_operator_applications", m.operator_applications},
                    {"seconds", m.seconds}};
+  return doc;
+}
+
+// The density grid as CSV: position, density and local filling of every cell.
+std::string MapCsv(const Design& d, const MapResult& m) {
+  std::string csv = "x_m,y_m,density_per_m2,filling\n";
+  const double scale = constants::kPlanck_Js / (constants::kElementaryCharge_C * std::abs(d.conditions.field_T));
+  for (int j = 0; j < m.map.ny; ++j)
+    for (int i = 0; i < m.map.nx; ++i) {
+      const double n = m.map.density_per_m2[static_cast<std::size_t>(j) * m.map.nx + i];
+      csv += fmt::format("{:.6e},{:.6e},{:.6e},{:.6g}\n", m.map.x0_m + i * m.map.cell_m,
+                         m.map.y0_m + j * m.map.cell_m, n, n * scale);
+    }
+  return csv;
+}
+}  // namespace
+
+int RunMap(const MapArgs& args) {
+  std::size_t max_memory = 0;
+  if (int code = 0; !ParseMaxMemory(args.max_memory, &max_memory, &code)) return code;
+  Design d;
+  if (int code = 0; !LoadOrReport(args.design_path, &d, &code)) return code;
+  MapOptions opt;
+  opt.electrostatics.max_memory_bytes = max_memory;
+  if (!ParseGrid(args.grid, &opt.electrostatics.grid_m)) return kExitUsage;
+  const CheckResult check = CheckDesign(d);
+  if (ReportErrors(check.findings) > 0) {
+    std::cerr << "hallway: run `hallway check` for the full list; nothing was solved\n";
+    return kExitDesignError;
+  }
+  MapResult m;
+  std::unique_ptr<Progress> progress;
+  opt.progress = [&](int step, int total, const std::string& what) {
+    if (!progress) progress = std::make_unique<Progress>("map", total, args.quiet);
+    progress->Step(step, what);
+  };
+  try {
+    m = ComputeMap(d, opt);
+  } catch (const GridTooLarge& e) {
+    progress.reset();
+    return ReportGridTooLarge(e, GridAdvice::kCoarserGrid);
+  }
+  progress.reset();
+  if (ReportErrors(m.findings) > 0) {
+    std::cerr << "hallway: resource limit: the electrostatic solve did not converge within its iteration bound; no "
+                 "map is reported\n";
+    return kExitResourceLimit;
+  }
+  // The result document, checked for non-finite numbers (with the density grid) before anything is shown.
+  const json doc = MapJson(d, m);
   if (!RequireFiniteJson(doc, "the map results") ||
       !RequireFinite({m.map.density_per_m2, m.map.energy_over_fermi}, "the density grid"))
     return kExitInternal;
-  std::cout << out;
+  std::cout << MapText(d, m);
   try {
     if (!args.csv_path.empty()) {
-      std::string csv = "x_m,y_m,density_per_m2,filling\n";
-      const double scale = constants::kPlanck_Js / (constants::kElementaryCharge_C * std::abs(d.conditions.field_T));
-      for (int j = 0; j < m.map.ny; ++j)
-        for (int i = 0; i < m.map.nx; ++i) {
-          const double n = m.map.density_per_m2[static_cast<std::size_t>(j) * m.map.nx + i];
-          csv += fmt::format("{:.6e},{:.6e},{:.6e},{:.6g}\n", m.map.x0_m + i * m.map.cell_m,
-                             m.map.y0_m + j * m.map.cell_m, n, n * scale);
-        }
-      WriteFileAtomically(args.csv_path, csv, {args.design_path});
+      WriteFileAtomically(args.csv_path, MapCsv(d, m), {args.design_path});
     }
     if (!args.json_path.empty()) {
       WriteFileAtomically(args.json_path, doc.dump(2) + "\n", {args.design_path});

@@ -83,7 +83,7 @@ bool BuildGeometry(const Design& design, bool fast, ChannelGeometry* geometry, s
     if (map_out) *map_out = map;
     return true;
   } catch (const GridTooLarge& e) {
-    *exit_code = ReportGridTooLarge(e, false);
+    *exit_code = ReportGridTooLarge(e, GridAdvice::kFastOption);
     return false;
   }
 }
@@ -128,12 +128,14 @@ bool ParseMaxMemory(const std::string& text, std::size_t* bytes, int* exit_code)
   return true;
 }
 
-int ReportGridTooLarge(const GridTooLarge& e, bool grid_option) {
+int ReportGridTooLarge(const GridTooLarge& e, GridAdvice advice) {
   std::cerr << "hallway: resource limit: " << e.what() << "; nothing was solved.\n";
-  if (grid_option)
+  if (advice == GridAdvice::kCoarserGrid)
     std::cerr << "  Coarsen the grid (--grid " << FormatSI(e.fitting_cell_m, "m") << " or coarser fits), or";
-  else
+  else if (advice == GridAdvice::kFastOption)
     std::cerr << "  Use --fast for the bare estimate without a grid, or";
+  else
+    std::cerr << "  A stage that needs a grid even with --fast (the constriction windows) exceeds the limit:";
   std::cerr << " raise the limit with --max-memory (now " << human_size(static_cast<double>(e.limit_bytes));
   if (const double have = physical_memory_bytes(); have > 0.0) std::cerr << "; this machine has " << human_size(have);
   std::cerr << ").\n";

@@ -43,9 +43,12 @@ bool BuildGeometry(const Design& design, bool fast, ChannelGeometry* geometry, s
 // gives the default. On a bad value prints a usage error and returns false with *exit_code set;
 // warns (without changing the value) when it exceeds this machine's physical memory.
 bool ParseMaxMemory(const std::string& text, std::size_t* bytes, int* exit_code);
-// Prints why an electrostatic grid was refused and the ways out; returns kExitResourceLimit.
-// `grid_option`: the command has --grid (map), so a coarser cell size can be suggested.
-int ReportGridTooLarge(const GridTooLarge& e, bool grid_option);
+// The way out of a refused grid that the command offers besides --max-memory: a coarser --grid (map),
+// --fast (a command run without it), or none (--fast was given and a later stage still needs a grid).
+enum class GridAdvice { kCoarserGrid, kFastOption, kMemoryOnly };
+// Prints why an electrostatic grid was refused and the ways out; returns kExitResourceLimit. Never
+// suggests an option the user already gave.
+int ReportGridTooLarge(const GridTooLarge& e, GridAdvice advice);
 
 // NaN or infinity in a result is never printed: returns false after naming the stage on stderr.
 bool RequireFinite(const std::vector<std::vector<double>>& values, const std::string& stage);

@@ -95,25 +95,11 @@ json PathsJson(const Design& d, const EdgeNetwork& net, const PathResult& r) {
           {"velocity_model", r.velocity_model}};
 }
 
-int RunPaths(const PathsArgs& args) {
-  std::size_t max_memory = 0;
-  if (int code = 0; !ParseMaxMemory(args.max_memory, &max_memory, &code)) return code;
-  Design d;
-  if (int code = 0; !LoadOrReport(args.design_path, &d, &code)) return code;
-  const CheckResult check = CheckDesign(d);
-  if (ReportErrors(check.findings) > 0) {
-    std::cerr << "hallway: run `hallway check` for the full list; nothing was solved\n";
-    return kExitDesignError;
-  }
-  ChannelGeometry geometry;
-  std::string es_note;
-  DensityMap map;
-  if (int code = 0; !BuildGeometry(d, args.fast, &geometry, &es_note, &code, &map, max_memory)) return code;
-  const DensityMap* map_ptr = args.fast ? nullptr : &map;
-  const EdgeNetwork net = TraceEdges(d, geometry, d.conditions.field_T);
-  if (ReportErrors(net.findings) > 0) return kExitDesignError;
-  const TransportResult tr = SolveTransport(d, net);
-  PathOptions po;
+namespace {
+
+// The options of `paths` in SI; false after a usage error.
+bool ParsePathOptions(const PathsArgs& args, std::size_t max_memory, PathOptions* out) {
+  PathOptions& po = *out;
   po.max_memory_bytes = max_memory;
   try {
     if (!args.target.empty()) po.target_transmission = units::Parse(args.target, units::Kind::kDimensionless);
@@ -122,14 +108,17 @@ int RunPaths(const PathsArgs& args) {
       po.relaxation_length_m = units::Parse(args.relaxation_length, units::Kind::kLength);
   } catch (const units::UnitError& e) {
     std::cerr << "hallway: usage error: " << e.what() << "\n";
-    return kExitUsage;
+    return false;
   }
   if (std::string why; !po.IsValid(&why)) {
     std::cerr << "hallway: usage error: " << why << "\n";
-    return kExitUsage;
+    return false;
   }
-  PathResult r = ComputePaths(d, net, tr, map_ptr, po);
-  ComputeConstrictionModels(d, po, &r);
+  return true;
+}
+
+std::string PathsText(const Design& d, const ChannelGeometry& geometry, const std::string& es_note,
+                      const EdgeNetwork& net, const PathResult& r, const PathOptions& po) {
   const double kt = constants::kBoltzmann_J_per_K * d.conditions.temperature_K;
 
   std::string out = fmt::format("hallway paths  {}\n", d.path);
@@ -210,6 +199,36 @@ int RunPaths(const PathsArgs& args) {
     out += "\nWarnings\n";
     for (const auto& w : warnings) out += "  - " + w + "\n";
   }
+  return out;
+}
+
+}  // namespace
+
+int RunPaths(const PathsArgs& args) {
+  std::size_t max_memory = 0;
+  if (int code = 0; !ParseMaxMemory(args.max_memory, &max_memory, &code)) return code;
+  Design d;
+  if (int code = 0; !LoadOrReport(args.design_path, &d, &code)) return code;
+  const CheckResult check = CheckDesign(d);
+  if (ReportErrors(check.findings) > 0) {
+    std::cerr << "hallway: run `hallway check` for the full list; nothing was solved\n";
+    return kExitDesignError;
+  }
+  ChannelGeometry geometry;
+  std::string es_note;
+  DensityMap map;
+  if (int code = 0; !BuildGeometry(d, args.fast, &geometry, &es_note, &code, &map, max_memory)) return code;
+  const DensityMap* map_ptr = args.fast ? nullptr : &map;
+  const EdgeNetwork net = TraceEdges(d, geometry, d.conditions.field_T);
+  if (ReportErrors(net.findings) > 0) return kExitDesignError;
+  const TransportResult tr = SolveTransport(d, net);
+  PathOptions po;
+  if (!ParsePathOptions(args, max_memory, &po)) return kExitUsage;
+  PathResult r = ComputePaths(d, net, tr, map_ptr, po);
+  ComputeConstrictionModels(d, po, &r);
+  std::string out = PathsText(d, geometry, es_note, net, r, po);
+  std::vector<std::string> warnings;
+  for (const Finding& f : r.findings) warnings.push_back(f.message);
   out += kSafetyCaution;
   json j = PathsJson(d, net, r);
   j["hallway_paths"] = 1;

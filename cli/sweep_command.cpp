@@ -38,7 +38,7 @@
 #include "hallway/map.hpp"
 #include "hallway/network.hpp"
 #include "hallway/noise.hpp"
-#include "hallway/saddle.hpp"
+#include "hallway/quantities.hpp"
 #include "hallway/transport.hpp"
 #include "hallway/units.hpp"
 #include "output.hpp"
@@ -99,33 +99,18 @@ struct Point {
   std::vector<std::size_t> index;  // per axis
 };
 
+// The chosen groups of quantities.hpp, in the table's order.
+std::vector<const QuantityGroup*> chosen_groups(const std::set<std::string>& q) {
+  std::vector<const QuantityGroup*> out;
+  for (const QuantityGroup& g : QuantityGroups())
+    if (q.count(g.name)) out.push_back(&g);
+  return out;
+}
+
 std::string quantities_header(const Design& d, const std::set<std::string>& q) {
   std::string h;
-  auto add = [&](const std::string& c) { h += "," + c; };
-  if (q.count("currents"))
-    for (const Contact& c : d.contacts) add("I_" + c.name + "_A");
-  if (q.count("voltages"))
-    for (const Contact& c : d.contacts) add("V_" + c.name + "_V");
-  if (q.count("conductance"))
-    for (const Contact& a : d.contacts)
-      for (const Contact& b : d.contacts) add("G_" + a.name + "_" + b.name + "_S");
-  std::vector<std::string> amps;
-  for (const Wiring& w : d.wiring)
-    if (w.role == Role::kAmplifier) amps.push_back(w.contact);
-  if (q.count("noise"))
-    for (std::size_t a = 0; a < amps.size(); ++a)
-      for (std::size_t b = a; b < amps.size(); ++b) add("S_exc_" + amps[a] + "_" + amps[b] + "_A2_per_Hz");
-  if (q.count("snr"))
-    for (const auto& a : amps) add("SNR_" + a);
-  if (q.count("fano"))
-    for (const Constriction& k : d.constrictions) {
-      add("P_" + k.name);
-      add("P_finite_temperature_" + k.name);
-    }
-  if (q.count("saddle"))
-    for (const Constriction& k : d.constrictions) add("saddle_density_" + k.name + "_per_m2");
-  if (q.count("pinchoff"))
-    for (const Constriction& k : d.constrictions) add("pinch_off_density_zero_" + k.name + "_V");
+  for (const QuantityGroup* g : chosen_groups(q))
+    for (const std::string& c : g->columns(d)) h += "," + c;
   return h;
 }
 
@@ -159,143 +144,97 @@ bool equal_step(const std::vector<double>& x, const std::vector<double>& last, c
   return moved;
 }
 
-// Solves one point at parameters `at`; *chain carries the electrostatic solutions of the previous
-// points of the chunk. The solve starts from the linear extrapolation of the last two when the points
-// are equally spaced, else from the last one, else from scratch.
+// The whole-mesa self-consistent density of one point, started from the linear extrapolation of the
+// chain's last two solutions when the points are equally spaced, else from the last one, else from
+// scratch; the chain then holds it.
+DensityMap solve_density(const Design& d, const std::vector<double>& at, std::size_t max_memory, WarmChain* chain,
+                         SolveCounts* counts) {
+  ElectrostaticsOptions eo;
+  eo.threads = 1;
+  eo.max_memory_bytes = max_memory;
+  const ElectrostaticProblem problem(d, eo);
+  std::vector<double> volts;
+  for (const Gate& g : d.gates) volts.push_back(g.voltage_V);
+  auto fits = [&](const std::optional<DensityMap>& s) { return s && s->nx == problem.nx() && s->ny == problem.ny(); };
+  std::optional<DensityMap> predicted;
+  if (fits(chain->last) && fits(chain->before) && equal_step(at, chain->last_at, chain->before_at))
+    predicted = ExtrapolatedStart(*chain->before, *chain->last);
+  const DensityMap* start = predicted ? &*predicted : fits(chain->last) ? &*chain->last : nullptr;
+  DensityMap map = problem.Solve(volts, start);
+  counts->applications += map.stats.operator_applications;
+  if (start) {
+    ++counts->warm_solves;
+  } else {
+    ++counts->cold_solves;
+    counts->cold_applications += map.stats.operator_applications;
+  }
+  if (!map.stats.converged)
+    throw LimitReached("the electrostatic solve did not converge within " +
+                       std::to_string(map.stats.operator_applications) + " operator applications (residual " +
+                       fmt::format("{:.2g}", map.stats.residual) + " of the ungated density)");
+  chain->before = std::move(chain->last);
+  chain->before_at = chain->last_at;
+  chain->last = map;
+  chain->last_at = at;
+  return map;
+}
+
+// The pinch-off search of `hallway map` (constrictions only, both sides swept together).
+MapResult pinch_off_search(const Design& d, std::size_t max_memory, SolveCounts* counts) {
+  MapOptions mo;
+  mo.constrictions_only = true;
+  mo.electrostatics.threads = 1;
+  mo.electrostatics.max_memory_bytes = max_memory;
+  MapResult mr = ComputeMap(d, mo);
+  counts->pinch_applications += mr.operator_applications;
+  counts->pinch_solves += mr.solves;
+  if (!mr.all_converged) throw LimitReached("a solve of the pinch-off search did not converge within its iteration bound");
+  return mr;
+}
+
+// Solves one point at parameters `at` and returns its CSV fields (each with its leading comma) for the
+// chosen groups of quantities.hpp. A value that does not exist (the voltage of an isolated floating
+// contact, P of a constriction that is no collider) is an empty field; a value that should exist and is
+// not finite stops the sweep. *chain carries the electrostatic solutions of the chunk's earlier points.
 std::string solve_point(const std::string& text, const std::string& path, const std::set<std::string>& q, bool fast,
                         const std::vector<double>& at, std::size_t max_memory, WarmChain* chain, SolveCounts* counts) {
   const Design d = LoadDesignFromString(text, path);
   const CheckResult check = CheckDesign(d);
-  if (!check.ok())
-    throw DesignError({path, 0, 0, ""}, "a sweep point fails the design checks: " + check.findings.front().message);
-  ChannelGeometry geometry;
+  // The first error, at its place in the user's file (the point's values are set in place).
+  for (const Finding& f : check.findings)
+    if (f.severity == Severity::kError)
+      throw DesignError(f.where.file.empty() ? SourceLocation{path, 0, 0, ""} : f.where,
+                        "a sweep point fails the design checks: " + f.message);
+  const std::vector<const QuantityGroup*> groups = chosen_groups(q);
+  auto needs = [&](QuantityNeeds n) {
+    return std::any_of(groups.begin(), groups.end(), [&](const QuantityGroup* g) { return g->needs == n; });
+  };
   std::optional<DensityMap> map;
-  if (!fast) {
-    ElectrostaticsOptions eo;
-    eo.threads = 1;
-    eo.max_memory_bytes = max_memory;
-    const ElectrostaticProblem problem(d, eo);
-    std::vector<double> volts;
-    for (const Gate& g : d.gates) volts.push_back(g.voltage_V);
-    auto fits = [&](const std::optional<DensityMap>& s) { return s && s->nx == problem.nx() && s->ny == problem.ny(); };
-    std::optional<DensityMap> predicted;
-    if (fits(chain->last) && fits(chain->before) && equal_step(at, chain->last_at, chain->before_at))
-      predicted = ExtrapolatedStart(*chain->before, *chain->last);
-    const DensityMap* start = predicted ? &*predicted : fits(chain->last) ? &*chain->last : nullptr;
-    map = problem.Solve(volts, start);
-    counts->applications += map->stats.operator_applications;
-    if (start) {
-      ++counts->warm_solves;
-    } else {
-      ++counts->cold_solves;
-      counts->cold_applications += map->stats.operator_applications;
-    }
-    if (!map->stats.converged)
-      throw LimitReached("the electrostatic solve did not converge within " +
-                         std::to_string(map->stats.operator_applications) + " operator applications (residual " +
-                         fmt::format("{:.2g}", map->stats.residual) + " of the ungated density)");
-    NetworkOptions no;
-    no.density = &*map;
-    geometry = BuildChannelGeometry(d, no);
-    chain->before = std::move(chain->last);
-    chain->before_at = chain->last_at;
-    chain->last = map;
-    chain->last_at = at;
-  } else {
-    geometry = BuildChannelGeometry(d);
-  }
+  if (!fast) map = solve_density(d, at, max_memory, chain, counts);
+  NetworkOptions no;
+  no.density = map ? &*map : nullptr;
+  const ChannelGeometry geometry = BuildChannelGeometry(d, no);
   const EdgeNetwork net = TraceEdges(d, geometry, d.conditions.field_T);
   for (const Finding& f : net.findings)
     if (f.severity == Severity::kError) throw std::runtime_error(f.message);
   const TransportResult tr = SolveTransport(d, net);
-  // A value that does not exist (the voltage of an isolated floating contact, P of a constriction
-  // that is no collider) is an empty field; a value that should exist and is not finite stops the sweep.
+  std::optional<NoiseResult> noise;
+  if (needs(QuantityNeeds::kNoise)) {
+    NoiseOptions nopt;
+    nopt.phase_samples = 64;
+    noise = SolveNoise(d, net, tr, nopt);
+  }
+  std::optional<MapResult> pinch;
+  if (needs(QuantityNeeds::kPinchOffSearch)) pinch = pinch_off_search(d, max_memory, counts);
+  const PointResults results{&d, &tr, noise ? &*noise : nullptr, map ? &*map : nullptr, pinch ? &*pinch : nullptr};
   std::string row;
-  const char* stage = "";
-  auto add = [&](double x) {
-    if (!std::isfinite(x))
-      throw std::runtime_error(std::string("a value that is not finite appeared in the ") + stage +
-                               "; nothing is written for this point");
-    row += fmt::format(",{:.10g}", x);
-  };
-  auto add_optional = [&](const std::optional<double>& x) {
-    if (x) {
-      add(*x);
-    } else {
-      row += ",";
+  for (const QuantityGroup* g : groups)
+    for (const std::optional<double>& x : g->values(results)) {
+      if (x && !std::isfinite(*x))
+        throw std::runtime_error(std::string("a value that is not finite appeared in the group '") + g->name +
+                                 "'; nothing is written for this point");
+      row += x ? fmt::format(",{:.10g}", *x) : std::string(",");
     }
-  };
-  stage = "contact currents";
-  if (q.count("currents"))
-    for (double i : tr.current_A) add(i);
-  stage = "contact voltages";
-  if (q.count("voltages"))
-    for (const auto& v : tr.voltage_V) add_optional(v);
-  stage = "conductance matrix";
-  if (q.count("conductance"))
-    for (const auto& r : tr.conductance_S)
-      for (double g : r) add(g);
-  if (q.count("noise") || q.count("snr") || q.count("fano")) {
-    NoiseOptions no;
-    no.phase_samples = 64;
-    const NoiseResult n = SolveNoise(d, net, tr, no);
-    std::vector<int> amps;
-    for (std::size_t i = 0; i < d.wiring.size(); ++i)
-      if (d.wiring[i].role == Role::kAmplifier) amps.push_back(static_cast<int>(i));
-    stage = "noise matrix";
-    if (q.count("noise"))
-      for (std::size_t a = 0; a < amps.size(); ++a)
-        for (std::size_t b = a; b < amps.size(); ++b)
-          add(n.excess_A2_per_Hz[static_cast<std::size_t>(amps[a])][static_cast<std::size_t>(amps[b])]);
-    stage = "amplifier signal-to-noise ratios";
-    if (q.count("snr"))
-      for (const AmplifierNoise& a : n.amplifiers) add(a.snr);
-    stage = "collider Fano factors";
-    if (q.count("fano"))
-      for (std::size_t k = 0; k < d.constrictions.size(); ++k) {
-        std::optional<double> p, pt;
-        for (const ColliderPrediction& c : n.colliders)
-          if (c.constriction == static_cast<int>(k) && c.fano) {
-            p = *c.fano;
-            pt = c.fano_finite_temperature;
-          }
-        add_optional(p);
-        add_optional(pt);
-      }
-  }
-  stage = "saddle densities";
-  if (q.count("saddle"))
-    for (const Constriction& k : d.constrictions) {
-      // The saddle of saddle.hpp on the point's whole-mesa map (the same definition as `hallway map`,
-      // whose figure comes from its finer window around the gap).
-      const auto gap = FindGap(d, k, nullptr);
-      std::optional<double> n;
-      if (map && gap) {
-        const Saddle s = DensitySaddle(*map, SaddleStrip::For(d, k, *gap, 0.5 * map->cell_m));
-        n = d.heterostructure.density_per_m2 * std::max(0.0, 1.0 - s.energy);
-      }
-      add_optional(n);
-    }
-  // Pinch-off of each constriction (both sides swept together) by the local-window search of
-  // `hallway map`; empty when the channel is still open at the search limit.
-  stage = "pinch-off voltages";
-  if (q.count("pinchoff")) {
-    MapOptions mo;
-    mo.constrictions_only = true;
-    mo.electrostatics.threads = 1;
-    mo.electrostatics.max_memory_bytes = max_memory;
-    const MapResult mr = ComputeMap(d, mo);
-    counts->pinch_applications += mr.operator_applications;
-    counts->pinch_solves += mr.solves;
-    if (!mr.all_converged)
-      throw LimitReached("a solve of the pinch-off search did not converge within its iteration bound");
-    for (const Constriction& k : d.constrictions) {
-      std::optional<double> v;
-      for (const ConstrictionMap& c : mr.constrictions)
-        if (c.name == k.name) v = c.pinch_off_V;
-      add_optional(v);
-    }
-  }
   return row;
 }
 
@@ -531,14 +470,14 @@ int prepare_output(const SweepArgs& args, const std::string& header, const std::
   return kExitOk;
 }
 
-}  // namespace
 
-int RunSweep(const SweepArgs& args, int argc, char** argv) {
-  // MPI only when started by mpirun (OpenMPI sets OMPI_COMM_WORLD_SIZE).
-  const bool use_mpi = std::getenv("OMPI_COMM_WORLD_SIZE") != nullptr;
+// MPI only when started by mpirun (OpenMPI sets OMPI_COMM_WORLD_SIZE); finalised on destruction.
+struct Mpi {
+  bool use = false;
   int rank = 0, size = 1;
-  bool threads_may_send = true;
-  if (use_mpi) {
+  bool threads_may_send = true;  // the library supports serialized calls from worker threads
+  Mpi(int& argc, char**& argv) : use(std::getenv("OMPI_COMM_WORLD_SIZE") != nullptr) {
+    if (!use) return;
     int provided = 0;
     // Worker threads send rows one at a time under a mutex: serialized, not funnelled, use of MPI.
     MPI_Init_thread(&argc, &argv, MPI_THREAD_SERIALIZED, &provided);
@@ -546,279 +485,366 @@ int RunSweep(const SweepArgs& args, int argc, char** argv) {
     MPI_Comm_rank(MPI_COMM_WORLD, &rank);
     MPI_Comm_size(MPI_COMM_WORLD, &size);
   }
-  struct Finalize {
-    bool on;
-    ~Finalize() {
-      if (on) MPI_Finalize();
+  ~Mpi() {
+    if (use) MPI_Finalize();
+  }
+  Mpi(const Mpi&) = delete;
+  Mpi& operator=(const Mpi&) = delete;
+  // Every rank takes rank 0's value.
+  int Share(int value) const {
+    if (use) MPI_Bcast(&value, 1, MPI_INT, 0, MPI_COMM_WORLD);
+    return value;
+  }
+};
+
+// What a sweep computes: the design, its axes and points, the chosen quantities and the CSV header.
+struct SweepPlan {
+  std::size_t max_memory = 0;
+  Design base;
+  std::string text;  // the design file's bytes; each point changes its values in place
+  std::vector<Axis> axes;
+  std::set<std::string> q;
+  std::vector<Point> points;
+  std::string header;
+
+  std::string TextOf(const Point& p, const std::string& path) const {
+    std::string t = text;
+    for (std::size_t a = 0; a < axes.size(); ++a) t = SetDesignValue(t, path, axes[a].key, axes[a].values[p.index[a]]);
+    return t;
+  }
+};
+
+std::vector<Axis> parse_axes(const std::vector<std::string>& vary) {
+  std::vector<Axis> axes;
+  for (const auto& v : vary) {
+    axes.push_back(parse_axis(v));
+    for (std::size_t k = 0; k + 1 < axes.size(); ++k)
+      if (axes[k].key == axes.back().key)
+        throw std::invalid_argument("--vary " + axes.back().key + " is given twice; vary each key once");
+  }
+  return axes;
+}
+
+// The groups --quantities names (or the table's defaults).
+std::set<std::string> parse_quantities(const SweepArgs& args) {
+  std::string defaults, all;
+  for (const QuantityGroup& g : QuantityGroups()) {
+    all += (all.empty() ? "" : ", ") + std::string(g.name);
+    if (g.default_on) defaults += (defaults.empty() ? "" : ",") + std::string(g.name);
+  }
+  std::set<std::string> q;
+  std::stringstream ss(args.quantities.empty() ? defaults : args.quantities);
+  for (std::string item; std::getline(ss, item, ',');) {
+    if (!FindQuantityGroup(item)) throw std::invalid_argument("--quantities: unknown group '" + item + "' (" + all + ")");
+    q.insert(item);
+  }
+  if (args.fast && q.count("pinchoff"))
+    throw std::invalid_argument("--quantities pinchoff needs the electrostatic solves; it cannot be combined with --fast");
+  return q;
+}
+
+// Points: a Cartesian grid (first --vary slowest) or lock-step; at most a million.
+std::vector<Point> list_points(const std::vector<Axis>& axes, bool zip) {
+  std::vector<Point> points;
+  if (zip) {
+    for (const Axis& a : axes)
+      if (a.values.size() != axes.front().values.size())
+        throw std::invalid_argument("--zip needs the same N on every --vary");
+    for (std::size_t i = 0; i < axes.front().values.size(); ++i)
+      points.push_back({std::vector<std::size_t>(axes.size(), i)});
+    return points;
+  }
+  // Count before listing: two axes of 100000 points would otherwise be listed before the check.
+  double count = 1.0;
+  for (const Axis& a : axes) count *= static_cast<double>(a.values.size());
+  if (count > 1e6)
+    throw std::invalid_argument("the grid has " + fmt::format("{:.3g}", count) + " points, more than a million");
+  std::vector<std::size_t> idx(axes.size(), 0);
+  while (true) {
+    points.push_back({idx});
+    std::size_t k = axes.size();
+    while (k > 0) {
+      --k;
+      if (++idx[k] < axes[k].values.size()) break;
+      idx[k] = 0;
+      if (k == 0) return points;
     }
-  } finalize{use_mpi};
+    if (axes.empty()) return points;
+  }
+}
+
+// Everything before any work: options, the design, axes, quantities, points, and both ends of every
+// range loaded. Every rank runs it on the same input and reaches the same verdict.
+int plan_sweep(const SweepArgs& args, int rank, SweepPlan* plan) {
   auto usage = [&](const std::string& why) {
     if (rank == 0) std::cerr << "hallway: usage error: " << why << "\n";
     return kExitUsage;
   };
-  std::size_t max_memory = 0;
-  if (int code = 0; !ParseMaxMemory(args.max_memory, &max_memory, &code)) return code;
-
-  Design base;
-  if (int code = 0; !LoadOrReport(args.design_path, &base, &code)) return code;
-  std::string text;
+  if (int code = 0; !ParseMaxMemory(args.max_memory, &plan->max_memory, &code)) return code;
+  if (int code = 0; !LoadOrReport(args.design_path, &plan->base, &code)) return code;
   {
     std::ifstream in(args.design_path, std::ios::binary);
     std::stringstream ss;
     ss << in.rdbuf();
-    text = ss.str();
+    plan->text = ss.str();
   }
   if (args.vary.empty()) return usage("give at least one --vary KEY=FROM:TO:N");
   if (args.output.empty()) return usage("--output FILE.csv is required");
-  std::vector<Axis> axes;
   try {
-    for (const auto& v : args.vary) {
-      axes.push_back(parse_axis(v));
-      for (std::size_t k = 0; k + 1 < axes.size(); ++k)
-        if (axes[k].key == axes.back().key)
-          throw std::invalid_argument("--vary " + axes.back().key + " is given twice; vary each key once");
-    }
+    plan->axes = parse_axes(args.vary);
+    plan->q = parse_quantities(args);
+    plan->points = list_points(plan->axes, args.zip);
   } catch (const std::exception& e) {
     return usage(e.what());
   }
-  std::set<std::string> q;
-  {
-    const std::string list = args.quantities.empty() ? "currents,voltages,noise,snr,fano,saddle" : args.quantities;
-    std::stringstream ss(list);
-    std::string item;
-    const std::set<std::string> known{"currents", "voltages", "conductance", "noise",
-                                      "snr",      "fano",     "saddle",      "pinchoff"};
-    while (std::getline(ss, item, ',')) {
-      if (!known.count(item))
-        return usage("--quantities: unknown group '" + item +
-                     "' (currents, voltages, conductance, noise, snr, fano, saddle, pinchoff)");
-      q.insert(item);
-    }
-    if (args.fast && q.count("pinchoff"))
-      return usage("--quantities pinchoff needs the electrostatic solves; it cannot be combined with --fast");
-  }
-  // Points: a Cartesian grid (first --vary slowest) or lock-step.
-  std::vector<Point> points;
-  if (args.zip) {
-    for (const Axis& a : axes)
-      if (a.values.size() != axes.front().values.size()) return usage("--zip needs the same N on every --vary");
-    for (std::size_t i = 0; i < axes.front().values.size(); ++i)
-      points.push_back({std::vector<std::size_t>(axes.size(), i)});
-  } else {
-    // Count before listing: two axes of 100000 points would otherwise be listed before the check.
-    double count = 1.0;
-    for (const Axis& a : axes) count *= static_cast<double>(a.values.size());
-    if (count > 1e6) return usage("the grid has " + fmt::format("{:.3g}", count) + " points, more than a million");
-    std::vector<std::size_t> idx(axes.size(), 0);
-    while (true) {
-      points.push_back({idx});
-      std::size_t k = axes.size();
-      while (k > 0) {
-        --k;
-        if (++idx[k] < axes[k].values.size()) break;
-        idx[k] = 0;
-        if (k == 0) goto done;
-      }
-      if (axes.size() == 0) break;
-    }
-  done:;
-  }
-  if (points.size() > 1000000) return usage("more than a million points");
-  auto text_of = [&](const Point& p) {
-    std::string t = text;
-    for (std::size_t a = 0; a < axes.size(); ++a)
-      t = SetDesignValue(t, args.design_path, axes[a].key, axes[a].values[p.index[a]]);
-    return t;
-  };
-  // Every key and both ends of every range must load before any work starts.
+  // Every key and both ends of every range must load before any work starts; the values are changed
+  // in place, so a message cites the line of the user's file.
   try {
-    for (std::size_t a = 0; a < axes.size(); ++a)
-      for (std::size_t end : {std::size_t{0}, axes[a].values.size() - 1}) {
-        std::string t = text;
-        t = SetDesignValue(t, args.design_path, axes[a].key, axes[a].values[end]);
-        LoadDesignFromString(t, args.design_path + " with " + axes[a].key + " = " + axes[a].values[end]);
+    for (const Axis& a : plan->axes)
+      for (std::size_t end : {std::size_t{0}, a.values.size() - 1}) {
+        const std::string t = SetDesignValue(plan->text, args.design_path, a.key, a.values[end]);
+        LoadDesignFromString(t, args.design_path + " with " + a.key + " = " + a.values[end]);
       }
   } catch (const DesignError& e) {
     if (rank == 0) std::cerr << "hallway: design error: " << e.what() << "\n";
     return kExitDesignError;
   }
-  std::string header = "point";
-  for (const Axis& a : axes) header += "," + a.key;
-  header += quantities_header(base, q) + "\n";
+  plan->header = "point";
+  for (const Axis& a : plan->axes) plan->header += "," + a.key;
+  plan->header += quantities_header(plan->base, plan->q) + "\n";
+  return kExitOk;
+}
 
-  // Rank 0 checks the output, takes its lock and reads what --resume keeps; every rank then exits
-  // with rank 0's verdict, so a refusal never leaves a rank waiting for work.
-  const int chunks = static_cast<int>((points.size() + kChunk - 1) / kChunk);
-  std::map<std::size_t, std::string> kept;
-  std::ofstream out;
-  SweepLock output_lock;
-  const std::vector<std::string> record = sweep_record(text, DesignInputs(args.design_path), axes, q, args);
-  int verdict = kExitOk;
-  if (rank == 0) verdict = prepare_output(args, header, axes, points, record, &output_lock, &kept, &out);
-  if (use_mpi) MPI_Bcast(&verdict, 1, MPI_INT, 0, MPI_COMM_WORLD);
-  if (verdict != kExitOk) return verdict;
-
-  std::vector<char> todo(static_cast<std::size_t>(chunks), 1);
-  std::size_t kept_points = 0;
-  for (int c = 0; c < chunks; ++c) {
-    bool complete = true;
-    const std::size_t first = static_cast<std::size_t>(c) * kChunk,
-                      last = std::min(points.size(), static_cast<std::size_t>(c + 1) * kChunk);
-    for (std::size_t p = first; p < last; ++p) complete = complete && kept.count(p);
-    if (complete) {
-      todo[static_cast<std::size_t>(c)] = 0;
-      kept_points += last - first;
-    }
+// The CSV row of point p: its index, its varied values, then its quantities.
+std::string point_row(const SweepArgs& args, const SweepPlan& plan, std::size_t p, WarmChain* chain,
+                      SolveCounts* counts) {
+  std::string row = std::to_string(p);
+  std::vector<double> at;
+  for (std::size_t a = 0; a < plan.axes.size(); ++a) {
+    at.push_back(plan.axes[a].si[plan.points[p].index[a]]);
+    row += fmt::format(",{:.10g}", at.back());
   }
-  if (use_mpi) MPI_Bcast(todo.data(), chunks, MPI_CHAR, 0, MPI_COMM_WORLD);
+  if (args.cold) chain->reset();
+  return row + solve_point(plan.TextOf(plan.points[p], args.design_path), args.design_path, plan.q, args.fast, at,
+                           plan.max_memory, chain, counts) +
+         "\n";
+}
 
-  // Rank 0 writes: the kept rows, then every finished row, flushed.
-  std::mutex out_mutex;
-  std::map<std::size_t, std::string> rows;
-  for (int c = 0; c < chunks; ++c)
-    if (!todo[static_cast<std::size_t>(c)])
-      for (std::size_t p = static_cast<std::size_t>(c) * kChunk;
-           p < std::min(points.size(), static_cast<std::size_t>(c + 1) * kChunk); ++p)
-        rows[p] = kept[p];
-  auto write_row = [&](std::size_t p, const std::string& r) {
-    std::lock_guard<std::mutex> lock(out_mutex);
-    rows[p] = r;
-    out << r;
-    out.flush();
-  };
-  // Chunks are handed out one at a time as workers become free, so ranks and threads stay busy when
-  // points cost different amounts: rank 0 owns the queue; its threads take from it directly, the
-  // other ranks' threads ask rank 0 for their next chunk.
-  std::vector<int> queue;
-  for (int c = 0; c < chunks; ++c)
-    if (todo[static_cast<std::size_t>(c)]) queue.push_back(c);
-  const int hw = std::max(1, static_cast<int>(std::thread::hardware_concurrency()) / size);
-  // An MPI library without serialized thread support gets one worker thread per rank.
-  const int threads = threads_may_send
-                          ? std::max(1, std::min(args.threads > 0 ? args.threads : hw, static_cast<int>(queue.size())))
-                          : 1;
-  std::atomic<int> next{0}, done_points{0};
+// Runs the chunks still to do over threads and MPI ranks. Chunks are handed out one at a time as
+// workers become free, so ranks and threads stay busy when points cost different amounts: rank 0 owns
+// the queue; its threads take from it directly, the other ranks' threads ask rank 0 for their next
+// chunk. Rank 0 writes every finished row to the output, flushed.
+class Scheduler {
+ public:
+  Scheduler(const SweepArgs& args, const SweepPlan& plan, const Mpi& mpi, std::ofstream& out,
+            std::map<std::size_t, std::string>& rows, const std::vector<char>& todo, std::size_t remaining)
+      : args_(args), plan_(plan), mpi_(mpi), out_(out), rows_(rows),
+        progress_("sweep", static_cast<int>(remaining), args.quiet || mpi.rank != 0) {
+    for (std::size_t c = 0; c < todo.size(); ++c)
+      if (todo[c]) queue_.push_back(static_cast<int>(c));
+  }
+
+  // Returns the first error ("" when every point was solved); counts are this rank's.
+  std::string Run() {
+    const int hw = std::max(1, static_cast<int>(std::thread::hardware_concurrency()) / mpi_.size);
+    // An MPI library without serialized thread support gets one worker thread per rank.
+    const int threads =
+        mpi_.threads_may_send
+            ? std::max(1, std::min(args_.threads > 0 ? args_.threads : hw, static_cast<int>(queue_.size())))
+            : 1;
+    std::vector<std::thread> pool;
+    for (int t = 0; t < threads; ++t) pool.emplace_back([this] { Work(); });
+    if (mpi_.rank == 0 && mpi_.use) Serve();
+    for (auto& t : pool) t.join();
+    if (mpi_.rank != 0 && mpi_.use)
+      MPI_Send(error_.data(), static_cast<int>(error_.size()), MPI_CHAR, 0, kTagDone, MPI_COMM_WORLD);
+    return error_;
+  }
   SolveCounts counts;
-  std::mutex mpi_mutex, error_mutex;
-  std::string error;
-  auto failed = [&] {
-    std::lock_guard<std::mutex> lock(error_mutex);
-    return !error.empty();
-  };
+
+ private:
+  bool Failed() {
+    std::lock_guard<std::mutex> lock(error_mutex_);
+    return !error_.empty();
+  }
+  void Fail(const std::string& why) {
+    std::lock_guard<std::mutex> lock(error_mutex_);
+    if (error_.empty()) error_ = why;
+  }
   // The next chunk of rank 0's queue, or -1 when none is left (or a point has failed).
-  auto take = [&] {
-    const int i = next++;
-    return i < static_cast<int>(queue.size()) && !failed() ? queue[static_cast<std::size_t>(i)] : -1;
-  };
-  auto next_chunk = [&] {
-    if (rank == 0) return take();
-    std::lock_guard<std::mutex> lock(mpi_mutex);  // request and reply as one exchange
+  int Take() {
+    const int i = next_++;
+    return i < static_cast<int>(queue_.size()) && !Failed() ? queue_[static_cast<std::size_t>(i)] : -1;
+  }
+  int NextChunk() {
+    if (mpi_.rank == 0) return Take();
+    std::lock_guard<std::mutex> lock(mpi_mutex_);  // request and reply as one exchange
     int c = -1;
     MPI_Send(nullptr, 0, MPI_CHAR, 0, kTagRequest, MPI_COMM_WORLD);
     MPI_Recv(&c, 1, MPI_INT, 0, kTagChunk, MPI_COMM_WORLD, MPI_STATUS_IGNORE);
     return c;
-  };
-  const Progress progress("sweep", static_cast<int>(points.size() - kept_points), args.quiet || rank != 0);
-  auto worker = [&] {
-    while (true) {
-      const int c = next_chunk();
-      if (c < 0) return;
-      WarmChain chain;
-      for (std::size_t p = static_cast<std::size_t>(c) * kChunk;
-           p < std::min(points.size(), static_cast<std::size_t>(c + 1) * kChunk); ++p) {
-        std::string row = std::to_string(p);
-        std::vector<double> at;
-        for (std::size_t a = 0; a < axes.size(); ++a) {
-          at.push_back(axes[a].si[points[p].index[a]]);
-          row += fmt::format(",{:.10g}", at.back());
-        }
-        try {
-          if (args.cold) chain.reset();
-          row +=
-              solve_point(text_of(points[p]), args.design_path, q, args.fast, at, max_memory, &chain, &counts) + "\n";
-        } catch (const GridTooLarge& e) {
-          std::lock_guard<std::mutex> lock(error_mutex);
-          if (error.empty())
-            error = std::string(kLimitPrefix) + "point " + std::to_string(p) + ": " + e.what() +
-                    "; raise the limit with --max-memory or use --fast";
-          return;
-        } catch (const LimitReached& e) {
-          std::lock_guard<std::mutex> lock(error_mutex);
-          if (error.empty()) error = std::string(kLimitPrefix) + "point " + std::to_string(p) + ": " + e.what();
-          return;
-        } catch (const std::exception& e) {
-          std::lock_guard<std::mutex> lock(error_mutex);
-          if (error.empty()) error = "point " + std::to_string(p) + ": " + e.what();
-          return;
-        }
-        if (rank == 0) {
-          write_row(p, row);
-        } else {
-          std::lock_guard<std::mutex> lock(mpi_mutex);
-          MPI_Send(row.data(), static_cast<int>(row.size()), MPI_CHAR, 0, kTagRow, MPI_COMM_WORLD);
-        }
-        progress.Step(done_points++, "points");
-      }
+  }
+  void WriteRow(std::size_t p, const std::string& r) {
+    std::lock_guard<std::mutex> lock(out_mutex_);
+    rows_[p] = r;
+    out_ << r;
+    out_.flush();
+  }
+  // Solves one point; false (with the error kept) when it failed.
+  bool Solve(std::size_t p, WarmChain* chain) {
+    const std::string at = "point " + std::to_string(p) + ": ";
+    std::string row;
+    try {
+      row = point_row(args_, plan_, p, chain, &counts);
+    } catch (const GridTooLarge& e) {
+      Fail(std::string(kLimitPrefix) + at + e.what() +
+           (args_.fast ? "; raise the limit with --max-memory" : "; raise the limit with --max-memory or use --fast"));
+      return false;
+    } catch (const LimitReached& e) {
+      Fail(std::string(kLimitPrefix) + at + e.what());
+      return false;
+    } catch (const std::exception& e) {
+      Fail(at + e.what());
+      return false;
     }
-  };
-  std::vector<std::thread> pool;
-  for (int t = 0; t < threads; ++t) pool.emplace_back(worker);
-  if (rank == 0 && use_mpi) {
-    // Hand out chunks and receive the other ranks' rows while the local threads work.
+    if (mpi_.rank == 0) {
+      WriteRow(p, row);
+    } else {
+      std::lock_guard<std::mutex> lock(mpi_mutex_);
+      MPI_Send(row.data(), static_cast<int>(row.size()), MPI_CHAR, 0, kTagRow, MPI_COMM_WORLD);
+    }
+    progress_.Step(done_points_++, "points");
+    return true;
+  }
+  void Work() {
+    const std::size_t n = plan_.points.size();
+    for (int c = NextChunk(); c >= 0; c = NextChunk()) {
+      WarmChain chain;
+      for (std::size_t p = static_cast<std::size_t>(c) * kChunk; p < std::min(n, static_cast<std::size_t>(c + 1) * kChunk);
+           ++p)
+        if (!Solve(p, &chain)) return;
+    }
+  }
+  // Rank 0 hands out chunks and receives the other ranks' rows while its own threads work.
+  void Serve() {
     int finished = 1;
-    while (finished < size) {
+    while (finished < mpi_.size) {
       // Poll with a pause: a blocking probe spins and would take a core from the workers.
       MPI_Status st;
       int flag = 0;
       {
-        std::lock_guard<std::mutex> lock(mpi_mutex);
+        std::lock_guard<std::mutex> lock(mpi_mutex_);
         MPI_Iprobe(MPI_ANY_SOURCE, MPI_ANY_TAG, MPI_COMM_WORLD, &flag, &st);
       }
       if (!flag) {
         std::this_thread::sleep_for(std::chrono::milliseconds(5));
         continue;
       }
-      std::lock_guard<std::mutex> lock(mpi_mutex);
+      std::lock_guard<std::mutex> lock(mpi_mutex_);
       int count = 0;
       MPI_Get_count(&st, MPI_CHAR, &count);
       std::string buf(static_cast<std::size_t>(count), '\0');
       MPI_Recv(buf.data(), count, MPI_CHAR, st.MPI_SOURCE, st.MPI_TAG, MPI_COMM_WORLD, MPI_STATUS_IGNORE);
       if (st.MPI_TAG == kTagRequest) {
-        const int c = take();
+        const int c = Take();
         MPI_Send(&c, 1, MPI_INT, st.MPI_SOURCE, kTagChunk, MPI_COMM_WORLD);
       } else if (st.MPI_TAG == kTagDone) {
         ++finished;
-        std::lock_guard<std::mutex> elock(error_mutex);
-        if (!buf.empty() && error.empty()) error = buf;
+        if (!buf.empty()) Fail(buf);
       } else {
-        write_row(std::stoul(buf.substr(0, buf.find(','))), buf);
-        progress.Step(done_points++, "points");
+        WriteRow(std::stoul(buf.substr(0, buf.find(','))), buf);
+        progress_.Step(done_points_++, "points");
       }
     }
   }
-  for (auto& t : pool) t.join();
-  if (rank != 0 && use_mpi)
-    MPI_Send(error.data(), static_cast<int>(error.size()), MPI_CHAR, 0, kTagDone, MPI_COMM_WORLD);
+
+  const SweepArgs& args_;
+  const SweepPlan& plan_;
+  const Mpi& mpi_;
+  std::ofstream& out_;
+  std::map<std::size_t, std::string>& rows_;
+  const Progress progress_;
+  std::vector<int> queue_;
+  std::atomic<int> next_{0}, done_points_{0};
+  std::mutex mpi_mutex_, error_mutex_, out_mutex_;
+  std::string error_;
+};
+
+// The chunks whose points --resume kept in full need no work; *rows gets their rows.
+std::vector<char> chunks_to_do(std::size_t points, const std::map<std::size_t, std::string>& kept,
+                               std::map<std::size_t, std::string>* rows, std::size_t* kept_points) {
+  const std::size_t chunks = (points + kChunk - 1) / kChunk;
+  std::vector<char> todo(chunks, 1);
+  *kept_points = 0;
+  for (std::size_t c = 0; c < chunks; ++c) {
+    const std::size_t first = c * kChunk, last = std::min(points, (c + 1) * kChunk);
+    bool complete = true;
+    for (std::size_t p = first; p < last; ++p) complete = complete && kept.count(p);
+    if (!complete) continue;
+    todo[c] = 0;
+    *kept_points += last - first;
+    for (std::size_t p = first; p < last; ++p) (*rows)[p] = kept.at(p);
+  }
+  return todo;
+}
+
+// `ranks`: the MPI ranks when run under mpirun, else 0.
+void print_summary(const SweepArgs& args, std::size_t points, std::size_t kept_points, const long* totals, int ranks) {
+  std::cout << "hallway sweep: " << points << " points (" << kept_points << " kept from before) written to "
+            << args.output << "; " << totals[0] << " electrostatic operator applications";
+  if (totals[2] + totals[3] > 0)
+    std::cout << fmt::format(" ({} in {} solves from scratch, {} in {} warm-started solves)", totals[1], totals[2],
+                             totals[0] - totals[1], totals[3]);
+  if (totals[5] > 0)
+    std::cout << fmt::format("; pinch-off searches: {} solves, {} operator applications", totals[5], totals[4]);
+  if (ranks > 0) std::cout << " over " << ranks << " MPI ranks";
+  std::cout << "\n";
+}
+
+}  // namespace
+
+int RunSweep(const SweepArgs& args, int argc, char** argv) {
+  const Mpi mpi(argc, argv);
+  SweepPlan plan;
+  if (const int code = plan_sweep(args, mpi.rank, &plan); code != kExitOk) return code;
+  // Rank 0 checks the output, takes its lock and reads what --resume keeps; every rank then exits
+  // with rank 0's verdict, so a refusal never leaves a rank waiting for work.
+  std::map<std::size_t, std::string> kept;
+  std::ofstream out;
+  SweepLock output_lock;
+  const std::vector<std::string> record =
+      sweep_record(plan.text, DesignInputs(args.design_path), plan.axes, plan.q, args);
+  int verdict = kExitOk;
+  if (mpi.rank == 0)
+    verdict = prepare_output(args, plan.header, plan.axes, plan.points, record, &output_lock, &kept, &out);
+  if (const int code = mpi.Share(verdict); code != kExitOk) return code;
+
+  std::map<std::size_t, std::string> rows;
+  std::size_t kept_points = 0;
+  std::vector<char> todo = chunks_to_do(plan.points.size(), kept, &rows, &kept_points);
+  if (mpi.use) MPI_Bcast(todo.data(), static_cast<int>(todo.size()), MPI_CHAR, 0, MPI_COMM_WORLD);
+  Scheduler scheduler(args, plan, mpi, out, rows, todo, plan.points.size() - kept_points);
+  const std::string error = scheduler.Run();
   // The solver statistics of all ranks, summed on rank 0.
+  const SolveCounts& counts = scheduler.counts;
   long totals[6] = {counts.applications.load(), counts.cold_applications.load(),  counts.cold_solves.load(),
                     counts.warm_solves.load(),  counts.pinch_applications.load(), counts.pinch_solves.load()};
-  if (use_mpi) {
+  if (mpi.use) {
     long sum[6] = {};
     MPI_Reduce(totals, sum, 6, MPI_LONG, MPI_SUM, 0, MPI_COMM_WORLD);
     std::copy(sum, sum + 6, totals);
   }
-  const int error_code = error.rfind(kLimitPrefix, 0) == 0 ? kExitResourceLimit : kExitDesignError;
   // Rank 0 finishes the file; every rank exits with its code.
   int final_code = kExitOk;
-  if (rank == 0) {
+  if (mpi.rank == 0) {
     out.close();
     if (!error.empty()) {
       std::cerr << "hallway: sweep stopped: " << error << "\n(the finished points are in " << args.output
                 << "; fix the cause and run again with --resume)\n";
-      final_code = error_code;
+      final_code = error.rfind(kLimitPrefix, 0) == 0 ? kExitResourceLimit : kExitDesignError;
     } else {
       // All points done: the sorted file replaces the output atomically.
-      std::string all = header;
+      std::string all = plan.header;
       for (const auto& [p, r] : rows) all += r;
       try {
         WriteFileAtomically(args.output, all, {args.design_path});
@@ -829,18 +855,9 @@ int RunSweep(const SweepArgs& args, int argc, char** argv) {
       }
     }
   }
-  if (use_mpi) MPI_Bcast(&final_code, 1, MPI_INT, 0, MPI_COMM_WORLD);
-  if (final_code != kExitOk || rank != 0) return final_code;
-  std::cout << "hallway sweep: " << points.size() << " points (" << kept_points << " kept from before) written to "
-            << args.output << "; " << totals[0] << " electrostatic operator applications";
-  if (totals[2] + totals[3] > 0)
-    std::cout << fmt::format(" ({} in {} solves from scratch, {} in {} warm-started solves)", totals[1], totals[2],
-                             totals[0] - totals[1], totals[3]);
-  if (totals[5] > 0)
-    std::cout << fmt::format("; pinch-off searches: {} solves, {} operator applications", totals[5], totals[4]);
-  if (use_mpi) std::cout << " over " << size << " MPI ranks";
-  std::cout << "\n";
+  final_code = mpi.Share(final_code);
+  if (final_code != kExitOk || mpi.rank != 0) return final_code;
+  print_summary(args, plan.points.size(), kept_points, totals, mpi.use ? mpi.size : 0);
   return kExitOk;
 }
-
 }  // namespace hallway::cli

@@ -145,13 +145,11 @@ std::string ToString(Format f) {
   return f == Format::kPng ? "png" : f == Format::kSvg ? "svg" : "pdf";
 }
 
-LayoutDrawing DrawLayout(const Design& d, const EdgeNetwork& net, const std::string& path, Format format,
-                         const std::string& title) {
-  const View v = fit(extent(d), 1000, 40, 170);
-  LayoutDrawing out;
-  out.width_px = v.width;
-  out.height_px = v.height;
-  // Arrows: at the middle of each piece and every ~160 px along longer ones, in travel direction.
+namespace {
+
+// Arrows: at the middle of each piece and every ~160 px along longer ones, in travel direction.
+std::vector<Arrow> place_arrows(const EdgeNetwork& net, const View& v) {
+  std::vector<Arrow> arrows;
   for (std::size_t p = 0; p < net.pieces.size(); ++p) {
     const EdgePiece& e = net.pieces[p];
     if (e.path.size() < 2 || e.length_m <= 0) continue;
@@ -164,7 +162,7 @@ LayoutDrawing DrawLayout(const Design& d, const EdgeNetwork& net, const std::str
           const double f = (target - walked) / seg;
           const Point at{e.path[k].x + f * (e.path[k + 1].x - e.path[k].x),
                          e.path[k].y + f * (e.path[k + 1].y - e.path[k].y)};
-          out.arrows.push_back({e.channel,
+          arrows.push_back({e.channel,
                                 static_cast<int>(p),
                                 at,
                                 {(e.path[k + 1].x - e.path[k].x) / seg, (e.path[k + 1].y - e.path[k].y) / seg}});
@@ -174,124 +172,154 @@ LayoutDrawing DrawLayout(const Design& d, const EdgeNetwork& net, const std::str
       }
     }
   }
+  return arrows;
+}
+
+// The mesa, the gates shaded by voltage and the contacts with their names and roles.
+void draw_shapes(cairo_t* cr, const View& v, const Design& d, double vmin) {
+  // Mesa.
+  polygon(cr, v, d.mesa.outline);
+  cairo_set_source_rgb(cr, 0.90, 0.90, 0.88);
+  cairo_fill_preserve(cr);
+  cairo_set_source_rgb(cr, 0.45, 0.45, 0.45);
+  cairo_set_line_width(cr, 1);
+  cairo_stroke(cr);
+  // Gates, shaded by voltage.
+  for (const Gate& g : d.gates) {
+    polygon(cr, v, g.outline);
+    set(cr, sequential(vmin < 0 ? g.voltage_V / vmin : 0.0), 0.85);
+    cairo_fill_preserve(cr);
+    cairo_set_source_rgb(cr, 0.2, 0.2, 0.2);
+    cairo_stroke(cr);
+  }
+  // Contacts: a gold fill with a diagonal hatch, name and role.
+  for (std::size_t i = 0; i < d.contacts.size(); ++i) {
+    const Contact& c = d.contacts[i];
+    polygon(cr, v, c.outline);
+    cairo_set_source_rgb(cr, 0.86, 0.74, 0.38);
+    cairo_fill_preserve(cr);
+    cairo_set_source_rgb(cr, 0.35, 0.27, 0.05);
+    cairo_set_line_width(cr, 1.2);
+    cairo_stroke(cr);
+    const auto bb = geometry::bounding_box(c.outline);
+    cairo_set_source_rgb(cr, 0.1, 0.1, 0.1);
+    const Wiring* w = d.FindWiring(c.name);
+    text(cr, v.px(0.5 * (bb.xmin + bb.xmax)), v.py(0.5 * (bb.ymin + bb.ymax)) + 4,
+         c.name + (w ? " (" + ToString(w->role) + ")" : ""), 11, true);
+  }
+}
+
+void draw_edges(cairo_t* cr, const View& v, const EdgeNetwork& net, const std::vector<Arrow>& arrows) {
+  // Edges with arrows.
+  for (const EdgePiece& e : net.pieces) {
+    const int ch = e.channel % 4;
+    set(cr, kChannel[ch]);
+    cairo_set_line_width(cr, 2.0);
+    cairo_set_dash(cr, kDash[ch], kDash[ch][1] > 0 ? 2 : 0, 0);
+    for (std::size_t k = 0; k < e.path.size(); ++k)
+      k == 0 ? cairo_move_to(cr, v.px(e.path[k].x), v.py(e.path[k].y))
+             : cairo_line_to(cr, v.px(e.path[k].x), v.py(e.path[k].y));
+    cairo_stroke(cr);
+  }
+  cairo_set_dash(cr, nullptr, 0, 0);
+  for (const Arrow& a : arrows) {
+    set(cr, kChannel[a.channel % 4]);
+    const double x = v.px(a.at.x), y = v.py(a.at.y), dx = a.direction.x, dy = -a.direction.y;  // y flips on screen
+    const double s = 9;
+    cairo_move_to(cr, x + dx * s, y + dy * s);
+    cairo_line_to(cr, x - dx * s - dy * s * 0.6, y - dy * s + dx * s * 0.6);
+    cairo_line_to(cr, x - dx * s + dy * s * 0.6, y - dy * s - dx * s * 0.6);
+    cairo_close_path(cr);
+    cairo_fill(cr);
+  }
+}
+
+void draw_constriction_labels(cairo_t* cr, const View& v, const Design& d) {
+  // Constriction labels.
+  for (const Constriction& k : d.constrictions) {
+    if (const auto gap = FindGap(d, k, nullptr)) {
+      std::string t;
+      for (double x : k.transmission) {
+        char b[16];
+        std::snprintf(b, sizeof b, "%.3g", x);
+        t += (t.empty() ? "" : ", ") + std::string(b);
+      }
+      cairo_set_source_rgb(cr, 0.05, 0.05, 0.05);
+      const Point m = gap->midpoint();
+      text(cr, v.px(m.x) + 8, v.py(m.y) - 8, k.name + " [" + t + "]", 11);
+    }
+  }
+}
+
+// The legend (channels, gate voltage scale) and the field direction.
+void draw_legend(cairo_t* cr, const View& v, const Design& d, const EdgeNetwork& net, double vmin) {
+  // Legend, field direction, title, scale bar.
+  const double lx = v.width - 160;
+  double ly = 50;
+  cairo_set_source_rgb(cr, 0.1, 0.1, 0.1);
+  text(cr, lx, ly, "edge channels", 12);
+  for (std::size_t c = 0; c < d.channels.size(); ++c) {
+    ly += 18;
+    set(cr, kChannel[c % 4]);
+    cairo_set_line_width(cr, 2.0);
+    cairo_set_dash(cr, kDash[c % 4], kDash[c % 4][1] > 0 ? 2 : 0, 0);
+    cairo_move_to(cr, lx, ly - 4);
+    cairo_line_to(cr, lx + 30, ly - 4);
+    cairo_stroke(cr);
+    cairo_set_dash(cr, nullptr, 0, 0);
+    cairo_set_source_rgb(cr, 0.1, 0.1, 0.1);
+    text(cr, lx + 36, ly, std::to_string(c + 1) + ": " + d.channels[c].conductance.ToString() + " e^2/h", 11);
+  }
+  ly += 30;
+  text(cr, lx, ly, "gate voltage", 12);
+  for (int i = 0; i <= 4; ++i) {
+    const double t = i / 4.0;
+    set(cr, sequential(t));
+    cairo_rectangle(cr, lx, ly + 8 + i * 16, 24, 14);
+    cairo_fill(cr);
+    cairo_set_source_rgb(cr, 0.1, 0.1, 0.1);
+    text(cr, lx + 30, ly + 19 + i * 16, units::FormatSI(t * vmin, "V"), 10);
+  }
+  ly += 110;
+  const double bx = lx + 14, by = ly;
+  cairo_set_source_rgb(cr, 0.1, 0.1, 0.1);
+  cairo_set_line_width(cr, 1.5);
+  cairo_new_path(cr);
+  cairo_arc(cr, bx, by, 9, 0, 2 * std::numbers::pi);
+  cairo_stroke(cr);
+  if (net.field_T > 0) {
+    cairo_new_path(cr);
+    cairo_arc(cr, bx, by, 2.5, 0, 2 * std::numbers::pi);
+    cairo_fill(cr);
+  } else {
+    cairo_move_to(cr, bx - 6, by - 6);
+    cairo_line_to(cr, bx + 6, by + 6);
+    cairo_move_to(cr, bx + 6, by - 6);
+    cairo_line_to(cr, bx - 6, by + 6);
+    cairo_stroke(cr);
+  }
+  char b[64];
+  std::snprintf(b, sizeof b, "B = %+.3g T", net.field_T);
+  text(cr, bx + 16, by + 4, b, 11);
+  text(cr, bx - 14, by + 24, net.field_T > 0 ? "(out of the page)" : "(into the page)", 10);
+}
+
+}  // namespace
+
+LayoutDrawing DrawLayout(const Design& d, const EdgeNetwork& net, const std::string& path, Format format,
+                         const std::string& title) {
+  const View v = fit(extent(d), 1000, 40, 170);
+  LayoutDrawing out;
+  out.width_px = v.width;
+  out.height_px = v.height;
+  out.arrows = place_arrows(net, v);
   double vmin = 0.0;
   for (const Gate& g : d.gates) vmin = std::min(vmin, g.voltage_V);
   render(path, format, v.width, v.height, [&](cairo_t* cr) {
-    // Mesa.
-    polygon(cr, v, d.mesa.outline);
-    cairo_set_source_rgb(cr, 0.90, 0.90, 0.88);
-    cairo_fill_preserve(cr);
-    cairo_set_source_rgb(cr, 0.45, 0.45, 0.45);
-    cairo_set_line_width(cr, 1);
-    cairo_stroke(cr);
-    // Gates, shaded by voltage.
-    for (const Gate& g : d.gates) {
-      polygon(cr, v, g.outline);
-      set(cr, sequential(vmin < 0 ? g.voltage_V / vmin : 0.0), 0.85);
-      cairo_fill_preserve(cr);
-      cairo_set_source_rgb(cr, 0.2, 0.2, 0.2);
-      cairo_stroke(cr);
-    }
-    // Contacts: a gold fill with a diagonal hatch, name and role.
-    for (std::size_t i = 0; i < d.contacts.size(); ++i) {
-      const Contact& c = d.contacts[i];
-      polygon(cr, v, c.outline);
-      cairo_set_source_rgb(cr, 0.86, 0.74, 0.38);
-      cairo_fill_preserve(cr);
-      cairo_set_source_rgb(cr, 0.35, 0.27, 0.05);
-      cairo_set_line_width(cr, 1.2);
-      cairo_stroke(cr);
-      const auto bb = geometry::bounding_box(c.outline);
-      cairo_set_source_rgb(cr, 0.1, 0.1, 0.1);
-      const Wiring* w = d.FindWiring(c.name);
-      text(cr, v.px(0.5 * (bb.xmin + bb.xmax)), v.py(0.5 * (bb.ymin + bb.ymax)) + 4,
-           c.name + (w ? " (" + ToString(w->role) + ")" : ""), 11, true);
-    }
-    // Edges with arrows.
-    for (const EdgePiece& e : net.pieces) {
-      const int ch = e.channel % 4;
-      set(cr, kChannel[ch]);
-      cairo_set_line_width(cr, 2.0);
-      cairo_set_dash(cr, kDash[ch], kDash[ch][1] > 0 ? 2 : 0, 0);
-      for (std::size_t k = 0; k < e.path.size(); ++k)
-        k == 0 ? cairo_move_to(cr, v.px(e.path[k].x), v.py(e.path[k].y))
-               : cairo_line_to(cr, v.px(e.path[k].x), v.py(e.path[k].y));
-      cairo_stroke(cr);
-    }
-    cairo_set_dash(cr, nullptr, 0, 0);
-    for (const Arrow& a : out.arrows) {
-      set(cr, kChannel[a.channel % 4]);
-      const double x = v.px(a.at.x), y = v.py(a.at.y), dx = a.direction.x, dy = -a.direction.y;  // y flips on screen
-      const double s = 9;
-      cairo_move_to(cr, x + dx * s, y + dy * s);
-      cairo_line_to(cr, x - dx * s - dy * s * 0.6, y - dy * s + dx * s * 0.6);
-      cairo_line_to(cr, x - dx * s + dy * s * 0.6, y - dy * s - dx * s * 0.6);
-      cairo_close_path(cr);
-      cairo_fill(cr);
-    }
-    // Constriction labels.
-    for (const Constriction& k : d.constrictions) {
-      if (const auto gap = FindGap(d, k, nullptr)) {
-        std::string t;
-        for (double x : k.transmission) {
-          char b[16];
-          std::snprintf(b, sizeof b, "%.3g", x);
-          t += (t.empty() ? "" : ", ") + std::string(b);
-        }
-        cairo_set_source_rgb(cr, 0.05, 0.05, 0.05);
-        const Point m = gap->midpoint();
-        text(cr, v.px(m.x) + 8, v.py(m.y) - 8, k.name + " [" + t + "]", 11);
-      }
-    }
-    // Legend, field direction, title, scale bar.
-    const double lx = v.width - 160;
-    double ly = 50;
-    cairo_set_source_rgb(cr, 0.1, 0.1, 0.1);
-    text(cr, lx, ly, "edge channels", 12);
-    for (std::size_t c = 0; c < d.channels.size(); ++c) {
-      ly += 18;
-      set(cr, kChannel[c % 4]);
-      cairo_set_line_width(cr, 2.0);
-      cairo_set_dash(cr, kDash[c % 4], kDash[c % 4][1] > 0 ? 2 : 0, 0);
-      cairo_move_to(cr, lx, ly - 4);
-      cairo_line_to(cr, lx + 30, ly - 4);
-      cairo_stroke(cr);
-      cairo_set_dash(cr, nullptr, 0, 0);
-      cairo_set_source_rgb(cr, 0.1, 0.1, 0.1);
-      text(cr, lx + 36, ly, std::to_string(c + 1) + ": " + d.channels[c].conductance.ToString() + " e^2/h", 11);
-    }
-    ly += 30;
-    text(cr, lx, ly, "gate voltage", 12);
-    for (int i = 0; i <= 4; ++i) {
-      const double t = i / 4.0;
-      set(cr, sequential(t));
-      cairo_rectangle(cr, lx, ly + 8 + i * 16, 24, 14);
-      cairo_fill(cr);
-      cairo_set_source_rgb(cr, 0.1, 0.1, 0.1);
-      text(cr, lx + 30, ly + 19 + i * 16, units::FormatSI(t * vmin, "V"), 10);
-    }
-    ly += 110;
-    const double bx = lx + 14, by = ly;
-    cairo_set_source_rgb(cr, 0.1, 0.1, 0.1);
-    cairo_set_line_width(cr, 1.5);
-    cairo_new_path(cr);
-    cairo_arc(cr, bx, by, 9, 0, 2 * std::numbers::pi);
-    cairo_stroke(cr);
-    if (net.field_T > 0) {
-      cairo_new_path(cr);
-      cairo_arc(cr, bx, by, 2.5, 0, 2 * std::numbers::pi);
-      cairo_fill(cr);
-    } else {
-      cairo_move_to(cr, bx - 6, by - 6);
-      cairo_line_to(cr, bx + 6, by + 6);
-      cairo_move_to(cr, bx + 6, by - 6);
-      cairo_line_to(cr, bx - 6, by + 6);
-      cairo_stroke(cr);
-    }
-    char b[64];
-    std::snprintf(b, sizeof b, "B = %+.3g T", net.field_T);
-    text(cr, bx + 16, by + 4, b, 11);
-    text(cr, bx - 14, by + 24, net.field_T > 0 ? "(out of the page)" : "(into the page)", 10);
+    draw_shapes(cr, v, d, vmin);
+    draw_edges(cr, v, net, out.arrows);
+    draw_constriction_labels(cr, v, d);
+    draw_legend(cr, v, d, net, vmin);
     text(cr, v.margin, 24, title, 14);
     scale_bar(cr, v);
   });

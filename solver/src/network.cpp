@@ -114,74 +114,192 @@ Region Corridor(const ChannelGeometry::Slit& s, const Region& region) {
   return Region(Polygon{{add(lo, u, -w), add(lo, u, w), add(hi, u, w), add(hi, u, -w)}});
 }
 
+
+// The state the steps of BuildChannelGeometry share.
+struct GeometryBuild {
+  GeometryBuild(const Design& design, const NetworkOptions& options, ChannelGeometry& out)
+      : d(design), opt(options), g(out) {}
+  const Design& d;
+  const NetworkOptions& opt;
+  ChannelGeometry& g;
+  double vdep = 0.0, nu = 0.0;
+  std::vector<Region> depleted;  // per gate: what a depleting gate removes (grown by its lateral depletion)
+  std::vector<double> filling;   // self-consistent only: the local filling of each density cell
+  Region mesa, base;             // the mesa, and the mesa less its etch depletion
+
+  void warn(std::string code, std::string msg, const SourceLocation& where) {
+    g.findings.push_back({Severity::kWarning, std::move(code), std::move(msg), where});
+  }
+  // Bare estimate only: whether gate `gate` reflects the channels up to cumulative conductance `c`.
+  bool reflects(std::size_t gate, double c) const {
+    return d.gates[gate].voltage_V <= vdep || c > g.local_filling[gate] + 1e-9;
+  }
+  int gate_index(const std::string& name) const {
+    for (std::size_t i = 0; i < d.gates.size(); ++i)
+      if (d.gates[i].name == name) return static_cast<int>(i);
+    return -1;
+  }
+};
+
+// Gates: what each removes (the lateral depletion of docs/models.md "Depletion under a wide gate") and
+// the bare local filling under those that do not deplete.
+void DepleteGates(GeometryBuild& b) {
+  const double depth = b.d.heterostructure.depth_m;
+  b.depleted.resize(b.d.gates.size());
+  for (std::size_t i = 0; i < b.d.gates.size(); ++i) {
+    const Gate& gate = b.d.gates[i];
+    double xe = 0.0;
+    if (gate.voltage_V <= b.vdep) {
+      if (gate.voltage_V < 2.0 * b.vdep) xe = depth / std::tan(std::numbers::pi * b.vdep / gate.voltage_V);
+      b.depleted[i] = Region(gate.outline).Offset(xe, b.opt.disc_segments);
+      b.g.local_filling.push_back(0.0);
+    } else {
+      b.g.local_filling.push_back(std::max(0.0, b.nu * (1.0 - gate.voltage_V / b.vdep)));
+    }
+    b.g.lateral_depletion_m.push_back(xe);
+  }
+}
+
+// Self-consistent boundaries: the local filling nu(r) = n(r) h / (e |B|) on the density grid, and under
+// each gate the median over the gate's cells that lie on the 2DEG more than two depths inside the
+// etched edge (so that the edge itself does not count).
+void SelfConsistentFilling(GeometryBuild& b) {
+  const DensityMap& m = *b.opt.density;
+  const Design& d = b.d;
+  const double per = constants::kPlanck_Js / (constants::kElementaryCharge_C * std::abs(d.conditions.field_T));
+  b.filling.resize(m.density_per_m2.size());
+  for (std::size_t c = 0; c < b.filling.size(); ++c) b.filling[c] = m.density_per_m2[c] * per;
+  b.g.model = kSelfConsistentBoundaryModel;
+  const double inset = d.mesa.etch_depletion_m + 2.0 * d.heterostructure.depth_m;
+  for (std::size_t i = 0; i < d.gates.size(); ++i) {
+    std::vector<double> under;
+    for (int jj = 0; jj < m.ny; ++jj)
+      for (int ii = 0; ii < m.nx; ++ii) {
+        const Point q{m.x0_m + ii * m.cell_m, m.y0_m + jj * m.cell_m};
+        if (geometry::contains(d.gates[i].outline, q) && geometry::contains(d.mesa.outline, q) &&
+            geometry::distance_to_boundary(d.mesa.outline, q) >= inset)
+          under.push_back(b.filling[static_cast<std::size_t>(jj) * m.nx + ii]);
+      }
+    if (under.empty()) {
+      b.g.local_filling[i] = b.nu;
+      continue;
+    }
+    std::nth_element(under.begin(), under.begin() + static_cast<long>(under.size() / 2), under.end());
+    b.g.local_filling[i] = under[under.size() / 2];
+  }
+}
+
+// The region of channel `ch` from the self-consistent density: inside the level curve of the local
+// filling at `level` (the middle of the channel's conductance step).
+Region DensityRegion(GeometryBuild& b, std::size_t ch, double level, ChannelRegion& cr) {
+  Region r;
+  const DensityMap& m = *b.opt.density;
+  const geometry::GridField field{m.nx, m.ny, m.x0_m, m.y0_m, m.cell_m, b.filling.data()};
+  auto loops = geometry::LevelCurves(field, level);
+  std::sort(loops.begin(), loops.end(),
+            [](const Polygon& x, const Polygon& y) { return geometry::area(x) > geometry::area(y); });
+  int skipped = 0;
+  for (Polygon& loop : loops) {
+    Polygon simple = geometry::Simplify(loop, 0.25 * m.cell_m);
+    if (geometry::find_defect(simple) != geometry::PolygonDefect::kNone) simple = loop;
+    if (geometry::find_defect(simple) != geometry::PolygonDefect::kNone ||
+        geometry::area(simple) < 4.0 * m.cell_m * m.cell_m) {
+      ++skipped;
+      continue;
+    }
+    r = geometry::signed_area(simple) > 0.0 ? r.Union(Region(simple)) : r.Difference(Region(simple));
+  }
+  if (skipped > 0)
+    b.warn("contour-skipped",
+           "channel " + std::to_string(ch + 1) + ": " + std::to_string(skipped) +
+               " tiny or irregular pieces of its boundary (below four grid cells) were left out",
+           b.d.mesa.where);
+  for (std::size_t i = 0; i < b.d.gates.size(); ++i)
+    (b.g.local_filling[i] < level ? cr.reflecting : cr.passing).push_back(b.d.gates[i].name);
+  return r;
+}
+
+// The region of the channels up to cumulative conductance `c` from the bare estimate: the etched mesa
+// less every gate that reflects them.
+Region BareRegion(const GeometryBuild& b, double c, ChannelRegion& cr) {
+  Region r = b.base;
+  for (std::size_t i = 0; i < b.d.gates.size(); ++i) {
+    if (!b.reflects(i, c)) {
+      cr.passing.push_back(b.d.gates[i].name);
+      continue;
+    }
+    cr.reflecting.push_back(b.d.gates[i].name);
+    r = r.Difference(b.d.gates[i].voltage_V <= b.vdep ? b.depleted[i] : Region(b.d.gates[i].outline));
+  }
+  return r;
+}
+
+// Cuts channel `ch`'s region `r` at every constriction it meets (docs/models.md "Channel boundaries and
+// slits"): a corridor where the estimate closes the gap, then the slit whose faces are the ports.
+void CutConstrictions(GeometryBuild& b, std::size_t ch, double c, double level, ChannelRegion& cr, Region& r) {
+  const Design& d = b.d;
+  const Region bare = r;
+  for (std::size_t ki = 0; ki < d.constrictions.size(); ++ki) {
+    const Constriction& k = d.constrictions[ki];
+    const ChannelGeometry::Slit& s = b.g.slits[ki];
+    const double t = k.transmission[ch];
+    if (s.gap_m <= 0.0) {
+      cr.estimate_open.push_back(false);
+      continue;
+    }
+    const Point mid = s.centre;
+    const bool open = bare.ContainsInterior(mid);
+    cr.estimate_open.push_back(open);
+    auto side_reflects = [&](int gate) {
+      if (gate < 0) return true;
+      return b.opt.density ? b.g.local_filling[static_cast<std::size_t>(gate)] < level
+                           : b.reflects(static_cast<std::size_t>(gate), c);
+    };
+    const bool side_a = side_reflects(b.gate_index(k.first)), side_b = side_reflects(b.gate_index(k.second));
+    const std::string chname = "channel " + std::to_string(ch + 1);
+    if (!side_a && !side_b) {
+      if (t < 1.0)
+        b.warn("constriction-passed-under",
+               "constriction " + k.name + ": " + chname + " passes under both its gates (their local filling is above " +
+                   fmt_g(c) + "), but the design gives transmission " + fmt_g(t) + "; this channel ignores the constriction",
+               k.where);
+      continue;
+    }
+    const std::string model =
+        b.opt.density ? "the self-consistent density (on the whole-mesa grid; at its saddle, local filling " +
+                            fmt_g(FillingAt(*b.opt.density, d, mid)) + " against the level " + fmt_g(level) +
+                            " where this channel's boundary runs)"
+                      : "the bare depletion estimate";
+    if (!open && t > 0.0)
+      b.warn("estimate-closes",
+             "constriction " + k.name + ": " + model + " closes the gap for " + chname +
+                 " at the design voltages, but the design gives transmission " + fmt_g(t) +
+                 "; the design's value is used (the channel is let through the gap)",
+             k.where);
+    if (open && t == 0.0)
+      b.warn("estimate-opens",
+             "constriction " + k.name + ": " + model + " leaves the gap open for " + chname +
+                 ", but the design gives transmission 0; the design's value is used",
+             k.where);
+    r = r.Union(Corridor(s, bare).Intersection(b.mesa)).Difference(Region(SlitOutline(s)));
+    cr.slit_constrictions.push_back(static_cast<int>(ki));
+  }
+}
+
 }  // namespace
 
 ChannelGeometry BuildChannelGeometry(const Design& d, const NetworkOptions& opt) {
   std::string why;
   if (!opt.IsValid(&why)) throw std::invalid_argument("NetworkOptions: " + why);
   ChannelGeometry g;
-  const HeterostructureFigures fig = DeriveFigures(d.heterostructure, d.conditions.field_T, d.conditions.temperature_K);
-  const double vdep = fig.depletion_voltage_V;
-  const double depth = d.heterostructure.depth_m;
-  const double nu = d.conditions.filling.value();
-  auto warn = [&](std::string code, std::string msg, const SourceLocation& where) {
-    g.findings.push_back({Severity::kWarning, std::move(code), std::move(msg), where});
-  };
-
-  // Gates: what each removes.
-  std::vector<Region> depleted(d.gates.size());
-  for (std::size_t i = 0; i < d.gates.size(); ++i) {
-    const Gate& gate = d.gates[i];
-    double xe = 0.0;
-    if (gate.voltage_V <= vdep) {
-      if (gate.voltage_V < 2.0 * vdep) xe = depth / std::tan(std::numbers::pi * vdep / gate.voltage_V);
-      depleted[i] = Region(gate.outline).Offset(xe, opt.disc_segments);
-      g.local_filling.push_back(0.0);
-    } else {
-      g.local_filling.push_back(std::max(0.0, nu * (1.0 - gate.voltage_V / vdep)));
-    }
-    g.lateral_depletion_m.push_back(xe);
-  }
-  // Self-consistent boundaries: the local filling nu(r) = n(r) h / (e |B|) on the density grid.
-  std::vector<double> filling;
-  if (opt.density) {
-    const DensityMap& m = *opt.density;
-    const double per = constants::kPlanck_Js / (constants::kElementaryCharge_C * std::abs(d.conditions.field_T));
-    filling.resize(m.density_per_m2.size());
-    for (std::size_t c = 0; c < filling.size(); ++c) filling[c] = m.density_per_m2[c] * per;
-    g.model = kSelfConsistentBoundaryModel;
-    // The local filling under each gate: the median over the gate's cells that lie on the 2DEG, more
-    // than two depths inside the etched edge (so that the edge itself does not count).
-    const double inset = d.mesa.etch_depletion_m + 2.0 * d.heterostructure.depth_m;
-    for (std::size_t i = 0; i < d.gates.size(); ++i) {
-      std::vector<double> under;
-      for (int jj = 0; jj < m.ny; ++jj)
-        for (int ii = 0; ii < m.nx; ++ii) {
-          const Point q{m.x0_m + ii * m.cell_m, m.y0_m + jj * m.cell_m};
-          if (geometry::contains(d.gates[i].outline, q) && geometry::contains(d.mesa.outline, q) &&
-              geometry::distance_to_boundary(d.mesa.outline, q) >= inset)
-            under.push_back(filling[static_cast<std::size_t>(jj) * m.nx + ii]);
-        }
-      if (under.empty()) {
-        g.local_filling[i] = nu;
-        continue;
-      }
-      std::nth_element(under.begin(), under.begin() + static_cast<long>(under.size() / 2), under.end());
-      g.local_filling[i] = under[under.size() / 2];
-    }
-  }
-  auto reflects = [&](std::size_t gate, double cumulative) {  // bare estimate only
-    return d.gates[gate].voltage_V <= vdep || cumulative > g.local_filling[gate] + 1e-9;
-  };
-  auto gate_index = [&](const std::string& name) -> int {
-    for (std::size_t i = 0; i < d.gates.size(); ++i)
-      if (d.gates[i].name == name) return static_cast<int>(i);
-    return -1;
-  };
-
-  const Region mesa(d.mesa.outline);
-  const Region base = mesa.Offset(-d.mesa.etch_depletion_m, opt.disc_segments);
-  if (base.empty())
+  GeometryBuild b{d, opt, g};
+  b.vdep = DeriveFigures(d.heterostructure, d.conditions.field_T, d.conditions.temperature_K).depletion_voltage_V;
+  b.nu = d.conditions.filling.value();
+  DepleteGates(b);
+  if (opt.density) SelfConsistentFilling(b);
+  b.mesa = Region(d.mesa.outline);
+  b.base = b.mesa.Offset(-d.mesa.etch_depletion_m, opt.disc_segments);
+  if (b.base.empty())
     g.findings.push_back(
         {Severity::kError, "mesa-etched-away",
          "the etch depletion (" + units::FormatSI(d.mesa.etch_depletion_m, "m") + ") leaves no 2DEG in the mesa",
@@ -198,97 +316,15 @@ ChannelGeometry BuildChannelGeometry(const Design& d, const NetworkOptions& opt)
   for (std::size_t ch = 0; ch < d.channels.size(); ++ch) {
     cumulative = cumulative + d.channels[ch].conductance;
     const double c = cumulative.value();
+    const double level = c - 0.5 * d.channels[ch].conductance.value();
     ChannelRegion cr;
     cr.channel = static_cast<int>(ch);
-    Region r = base;
-    const double level = c - 0.5 * d.channels[ch].conductance.value();
-    if (opt.density) {
-      r = Region();
-      const DensityMap& m = *opt.density;
-      const geometry::GridField field{m.nx, m.ny, m.x0_m, m.y0_m, m.cell_m, filling.data()};
-      auto loops = geometry::LevelCurves(field, level);
-      std::sort(loops.begin(), loops.end(),
-                [](const Polygon& a, const Polygon& b) { return geometry::area(a) > geometry::area(b); });
-      int skipped = 0;
-      for (Polygon& loop : loops) {
-        Polygon simple = geometry::Simplify(loop, 0.25 * m.cell_m);
-        if (geometry::find_defect(simple) != geometry::PolygonDefect::kNone) simple = loop;
-        if (geometry::find_defect(simple) != geometry::PolygonDefect::kNone ||
-            geometry::area(simple) < 4.0 * m.cell_m * m.cell_m) {
-          ++skipped;
-          continue;
-        }
-        r = geometry::signed_area(simple) > 0.0 ? r.Union(Region(simple)) : r.Difference(Region(simple));
-      }
-      if (skipped > 0)
-        warn("contour-skipped",
-             "channel " + std::to_string(ch + 1) + ": " + std::to_string(skipped) +
-                 " tiny or irregular pieces of its boundary (below four grid cells) were left out",
-             d.mesa.where);
-      for (std::size_t i = 0; i < d.gates.size(); ++i)
-        (g.local_filling[i] < level ? cr.reflecting : cr.passing).push_back(d.gates[i].name);
-    } else {
-      for (std::size_t i = 0; i < d.gates.size(); ++i) {
-        if (!reflects(i, c)) {
-          cr.passing.push_back(d.gates[i].name);
-          continue;
-        }
-        cr.reflecting.push_back(d.gates[i].name);
-        r = r.Difference(d.gates[i].voltage_V <= vdep ? depleted[i] : Region(d.gates[i].outline));
-      }
-    }
-    const Region bare = r;
-    for (std::size_t ki = 0; ki < d.constrictions.size(); ++ki) {
-      const Constriction& k = d.constrictions[ki];
-      const ChannelGeometry::Slit& s = g.slits[ki];
-      const double t = k.transmission[ch];
-      if (s.gap_m <= 0.0) {
-        cr.estimate_open.push_back(false);
-        continue;
-      }
-      const Point mid = s.centre;
-      const bool open = bare.ContainsInterior(mid);
-      cr.estimate_open.push_back(open);
-      const int ga = gate_index(k.first), gb = gate_index(k.second);
-      auto side_reflects = [&](int gate) {
-        if (gate < 0) return true;
-        return opt.density ? g.local_filling[static_cast<std::size_t>(gate)] < level
-                           : reflects(static_cast<std::size_t>(gate), c);
-      };
-      const bool side_a = side_reflects(ga), side_b = side_reflects(gb);
-      const std::string chname = "channel " + std::to_string(ch + 1);
-      if (!side_a && !side_b) {
-        if (t < 1.0)
-          warn("constriction-passed-under",
-               "constriction " + k.name + ": " + chname +
-                   " passes under both its gates (their local filling is above " + fmt_g(c) +
-                   "), but the design gives transmission " + fmt_g(t) + "; this channel ignores the constriction",
-               k.where);
-        continue;
-      }
-      const std::string model =
-          opt.density ? "the self-consistent density (on the whole-mesa grid; at its saddle, local filling " +
-                            fmt_g(FillingAt(*opt.density, d, mid)) + " against the level " + fmt_g(level) +
-                            " where this channel's boundary runs)"
-                      : "the bare depletion estimate";
-      if (!open && t > 0.0)
-        warn("estimate-closes",
-             "constriction " + k.name + ": " + model + " closes the gap for " + chname +
-                 " at the design voltages, but the design gives transmission " + fmt_g(t) +
-                 "; the design's value is used (the channel is let through the gap)",
-             k.where);
-      if (open && t == 0.0)
-        warn("estimate-opens",
-             "constriction " + k.name + ": " + model + " leaves the gap open for " + chname +
-                 ", but the design gives transmission 0; the design's value is used",
-             k.where);
-      r = r.Union(Corridor(s, bare).Intersection(mesa)).Difference(Region(SlitOutline(s)));
-      cr.slit_constrictions.push_back(static_cast<int>(ki));
-    }
+    Region r = opt.density ? DensityRegion(b, ch, level, cr) : BareRegion(b, c, cr);
+    CutConstrictions(b, ch, c, level, cr, r);
     cr.region = std::move(r);
     if (cr.region.empty())
-      warn("channel-nowhere", "channel " + std::to_string(ch + 1) + " has no region: the gates remove all of it",
-           d.mesa.where);
+      b.warn("channel-nowhere", "channel " + std::to_string(ch + 1) + " has no region: the gates remove all of it",
+             d.mesa.where);
     g.channels.push_back(std::move(cr));
   }
   return g;
@@ -327,8 +363,15 @@ void crossings(Point p, Point q, Point a, Point b, std::vector<double>& ts) {
 
 class Tracer {
  public:
+  // Each face is sampled every quarter slit width for the k-d tree, but never with more than its share
+  // of kMaxFaceSamples points (a bound on memory whatever the ratio of face length to gap); coarser
+  // samples only widen the search radius, not the answer.
+  static constexpr std::size_t kMaxFaceSamples = std::size_t{1} << 21;  // 2 Mi points, about 50 MB
   Tracer(const Design& d, const ChannelGeometry& g) : d_(d) {
     std::vector<Point> samples;
+    std::size_t faces = 0;
+    for (const auto& s : g.slits) faces += s.gap_m > 0.0 ? 2 : 0;
+    const double per_face = std::max(16.0, static_cast<double>(kMaxFaceSamples) / std::max<std::size_t>(faces, 1));
     for (std::size_t k = 0; k < g.slits.size(); ++k) {
       const auto& s = g.slits[k];
       if (s.gap_m <= 0.0) continue;
@@ -338,7 +381,7 @@ class Tracer {
         Face face{static_cast<int>(k), f, add(add(s.a, u, -s.ext_a_m), s.n, side),
                   add(add(s.b, u, s.ext_b_m), s.n, side)};
         const double len = geometry::distance(face.p0, face.p1);
-        const int n = std::max(2, static_cast<int>(std::ceil(len / (0.5 * s.half_width_m))));
+        const int n = static_cast<int>(std::clamp(std::ceil(len / (0.5 * s.half_width_m)), 2.0, per_face));
         for (int i = 0; i <= n; ++i) {
           const double t = static_cast<double>(i) / n;
           samples.push_back({face.p0.x + t * (face.p1.x - face.p0.x), face.p0.y + t * (face.p1.y - face.p0.y)});
@@ -477,9 +520,9 @@ EdgeNetwork TraceEdges(const Design& d, const ChannelGeometry& g, double field_T
                                   "constriction " + d.constrictions[static_cast<std::size_t>(k)].name + ": channel " +
                                       std::to_string(cr.channel + 1) + " meets face " + std::to_string(f) +
                                       " of its gap " + std::to_string(ins) +
-                                      " times instead of once; the layout around the gap is too irregular to trace "
-                                      "(try --fast for the bare "
-                                      "boundaries)",
+                                      " times instead of once; the layout around the gap is too irregular to trace" +
+                                      (g.model == kBareBoundaryModel ? std::string()
+                                                                     : " (try --fast for the bare boundaries)"),
                                   d.constrictions[static_cast<std::size_t>(k)].where});
       }
     }
