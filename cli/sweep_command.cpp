@@ -39,6 +39,7 @@
 #include "hallway/network.hpp"
 #include "hallway/noise.hpp"
 #include "hallway/quantities.hpp"
+#include "hallway/device.hpp"
 #include "hallway/transport.hpp"
 #include "hallway/units.hpp"
 #include "output.hpp"
@@ -121,63 +122,10 @@ class LimitReached : public std::runtime_error {
 };
 constexpr const char* kLimitPrefix = "resource limit: ";
 
-// The electrostatic solutions of the last two points of a chunk and where they were taken.
-struct WarmChain {
-  std::optional<DensityMap> last, before;
-  std::vector<double> last_at, before_at;
-  void reset() { *this = {}; }
-};
-
 struct SolveCounts {
   std::atomic<long> applications{0}, cold_applications{0}, cold_solves{0}, warm_solves{0};
   std::atomic<long> pinch_applications{0}, pinch_solves{0};  // the pinch-off searches, apart
 };
-
-// True when x - last equals last - before on every axis (to rounding) and the step is not zero.
-bool equal_step(const std::vector<double>& x, const std::vector<double>& last, const std::vector<double>& before) {
-  bool moved = false;
-  for (std::size_t a = 0; a < x.size(); ++a) {
-    const double scale = std::max({std::abs(x[a]), std::abs(last[a]), std::abs(before[a]), 1e-300});
-    if (std::abs((x[a] - last[a]) - (last[a] - before[a])) > 1e-9 * scale) return false;
-    moved = moved || x[a] != last[a];
-  }
-  return moved;
-}
-
-// The whole-mesa self-consistent density of one point, started from the linear extrapolation of the
-// chain's last two solutions when the points are equally spaced, else from the last one, else from
-// scratch; the chain then holds it.
-DensityMap solve_density(const Design& d, const std::vector<double>& at, std::size_t max_memory, WarmChain* chain,
-                         SolveCounts* counts) {
-  ElectrostaticsOptions eo;
-  eo.threads = 1;
-  eo.max_memory_bytes = max_memory;
-  const ElectrostaticProblem problem(d, eo);
-  std::vector<double> volts;
-  for (const Gate& g : d.gates) volts.push_back(g.voltage_V);
-  auto fits = [&](const std::optional<DensityMap>& s) { return s && s->nx == problem.nx() && s->ny == problem.ny(); };
-  std::optional<DensityMap> predicted;
-  if (fits(chain->last) && fits(chain->before) && equal_step(at, chain->last_at, chain->before_at))
-    predicted = ExtrapolatedStart(*chain->before, *chain->last);
-  const DensityMap* start = predicted ? &*predicted : fits(chain->last) ? &*chain->last : nullptr;
-  DensityMap map = problem.Solve(volts, start);
-  counts->applications += map.stats.operator_applications;
-  if (start) {
-    ++counts->warm_solves;
-  } else {
-    ++counts->cold_solves;
-    counts->cold_applications += map.stats.operator_applications;
-  }
-  if (!map.stats.converged)
-    throw LimitReached("the electrostatic solve did not converge within " +
-                       std::to_string(map.stats.operator_applications) + " operator applications (residual " +
-                       fmt::format("{:.2g}", map.stats.residual) + " of the ungated density)");
-  chain->before = std::move(chain->last);
-  chain->before_at = chain->last_at;
-  chain->last = map;
-  chain->last_at = at;
-  return map;
-}
 
 // The pinch-off search of `hallway map` (constrictions only, both sides swept together).
 MapResult pinch_off_search(const Design& d, std::size_t max_memory, SolveCounts* counts) {
@@ -195,38 +143,54 @@ MapResult pinch_off_search(const Design& d, std::size_t max_memory, SolveCounts*
 // Solves one point at parameters `at` and returns its CSV fields (each with its leading comma) for the
 // chosen groups of quantities.hpp. A value that does not exist (the voltage of an isolated floating
 // contact, P of a constriction that is no collider) is an empty field; a value that should exist and is
-// not finite stops the sweep. *chain carries the electrostatic solutions of the chunk's earlier points.
+// not finite stops the sweep. *warm carries the electrostatic solutions of the chunk's earlier points.
 std::string solve_point(const std::string& text, const std::string& path, const std::set<std::string>& q, bool fast,
-                        const std::vector<double>& at, std::size_t max_memory, WarmChain* chain, SolveCounts* counts) {
-  const Design d = LoadDesignFromString(text, path);
-  const CheckResult check = CheckDesign(d);
+                        const std::vector<double>& at, std::size_t max_memory, WarmStarts* warm, SolveCounts* counts) {
+  DeviceOptions options;
+  options.bare_estimate = fast;
+  options.electrostatics.threads = 1;
+  options.electrostatics.max_memory_bytes = max_memory;
+  if (!fast) options.start = warm->StartFor(at);
+  const Device device(LoadDesignFromString(text, path), options);
+  const Design& d = device.design();
   // The first error, at its place in the user's file (the point's values are set in place).
-  for (const Finding& f : check.findings)
-    if (f.severity == Severity::kError)
-      throw DesignError(f.where.file.empty() ? SourceLocation{path, 0, 0, ""} : f.where,
-                        "a sweep point fails the design checks: " + f.message);
+  if (!device.check().ok())
+    for (const Finding& f : device.check().findings)
+      if (f.severity == Severity::kError)
+        throw DesignError(f.where.file.empty() ? SourceLocation{path, 0, 0, ""} : f.where,
+                          "a sweep point fails the design checks: " + f.message);
+  if (const auto& es = device.summary().electrostatics) {
+    counts->applications += es->operator_applications;
+    if (device.summary().warm_started) {
+      ++counts->warm_solves;
+    } else {
+      ++counts->cold_solves;
+      counts->cold_applications += es->operator_applications;
+    }
+    if (!es->converged)
+      throw LimitReached("the electrostatic solve did not converge within " +
+                         std::to_string(es->operator_applications) + " operator applications (residual " +
+                         fmt::format("{:.2g}", es->residual) + " of the ungated density)");
+    warm->Push(*device.density(), at);
+  }
+  for (const Finding& f : device.summary().findings)
+    if (f.severity == Severity::kError) throw std::runtime_error(f.message);
+  for (const Finding& f : device.edges().findings)
+    if (f.severity == Severity::kError) throw std::runtime_error(f.message);
   const std::vector<const QuantityGroup*> groups = chosen_groups(q);
   auto needs = [&](QuantityNeeds n) {
     return std::any_of(groups.begin(), groups.end(), [&](const QuantityGroup* g) { return g->needs == n; });
   };
-  std::optional<DensityMap> map;
-  if (!fast) map = solve_density(d, at, max_memory, chain, counts);
-  NetworkOptions no;
-  no.density = map ? &*map : nullptr;
-  const ChannelGeometry geometry = BuildChannelGeometry(d, no);
-  const EdgeNetwork net = TraceEdges(d, geometry, d.conditions.field_T);
-  for (const Finding& f : net.findings)
-    if (f.severity == Severity::kError) throw std::runtime_error(f.message);
-  const TransportResult tr = SolveTransport(d, net);
   std::optional<NoiseResult> noise;
   if (needs(QuantityNeeds::kNoise)) {
     NoiseOptions nopt;
     nopt.phase_samples = 64;
-    noise = SolveNoise(d, net, tr, nopt);
+    noise = device.noise(nopt);
   }
   std::optional<MapResult> pinch;
   if (needs(QuantityNeeds::kPinchOffSearch)) pinch = pinch_off_search(d, max_memory, counts);
-  const PointResults results{&d, &tr, noise ? &*noise : nullptr, map ? &*map : nullptr, pinch ? &*pinch : nullptr};
+  const PointResults results{&d, &device.transport(), noise ? &*noise : nullptr, device.density(),
+                             pinch ? &*pinch : nullptr};
   std::string row;
   for (const QuantityGroup* g : groups)
     for (const std::optional<double>& x : g->values(results)) {
@@ -616,7 +580,7 @@ int plan_sweep(const SweepArgs& args, int rank, SweepPlan* plan) {
 }
 
 // The CSV row of point p: its index, its varied values, then its quantities.
-std::string point_row(const SweepArgs& args, const SweepPlan& plan, std::size_t p, WarmChain* chain,
+std::string point_row(const SweepArgs& args, const SweepPlan& plan, std::size_t p, WarmStarts* chain,
                       SolveCounts* counts) {
   std::string row = std::to_string(p);
   std::vector<double> at;
@@ -624,7 +588,7 @@ std::string point_row(const SweepArgs& args, const SweepPlan& plan, std::size_t 
     at.push_back(plan.axes[a].si[plan.points[p].index[a]]);
     row += fmt::format(",{:.10g}", at.back());
   }
-  if (args.cold) chain->reset();
+  if (args.cold) chain->Reset();
   return row + solve_point(plan.TextOf(plan.points[p], args.design_path), args.design_path, plan.q, args.fast, at,
                            plan.max_memory, chain, counts) +
          "\n";
@@ -691,7 +655,7 @@ class Scheduler {
     out_.flush();
   }
   // Solves one point; false (with the error kept) when it failed.
-  bool Solve(std::size_t p, WarmChain* chain) {
+  bool Solve(std::size_t p, WarmStarts* chain) {
     const std::string at = "point " + std::to_string(p) + ": ";
     std::string row;
     try {
@@ -719,7 +683,7 @@ class Scheduler {
   void Work() {
     const std::size_t n = plan_.points.size();
     for (int c = NextChunk(); c >= 0; c = NextChunk()) {
-      WarmChain chain;
+      WarmStarts chain;
       for (std::size_t p = static_cast<std::size_t>(c) * kChunk; p < std::min(n, static_cast<std::size_t>(c + 1) * kChunk);
            ++p)
         if (!Solve(p, &chain)) return;

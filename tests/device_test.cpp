@@ -1,0 +1,106 @@
+// The device API (device.hpp): one design run end to end through the library alone, its numbers
+// checked against published formulas and against what the CLI prints for the same design.
+#include <gtest/gtest.h>
+
+#include <cmath>
+#include <fstream>
+#include <nlohmann/json.hpp>
+#include <stdexcept>
+
+#include "hallway/constants.hpp"
+#include "hallway/design_loader.hpp"
+#include "hallway/device.hpp"
+#include "test_support.hpp"
+
+namespace hallway {
+namespace {
+
+bool near_rel(double a, double b, double rel) { return std::abs(a - b) <= rel * std::max(std::abs(a), std::abs(b)); }
+
+std::size_t contact(const Design& d, const std::string& name) {
+  for (std::size_t i = 0; i < d.contacts.size(); ++i)
+    if (d.contacts[i].name == name) return i;
+  throw std::out_of_range(name);
+}
+
+// The two-source collider demo at filling 1/3 under the bare estimate: sources SA and SB at 30 uV,
+// source constrictions QA and QB at t = 0.95, collider C at t = 0.9, drains D1 and D2 cold.
+TEST(Device, RunsADesignEndToEndWithoutCliCode) {
+  const Design design = LoadDesign(test::SourcePath("designs/02_two_source_collider.yaml"));
+  DeviceOptions options;
+  options.bare_estimate = true;
+  const Device device(design, options);
+  ASSERT_TRUE(device.usable());
+  EXPECT_EQ(device.density(), nullptr);
+  const Design& d = device.design();
+  const TransportResult& t = device.transport();
+  // Landauer-Buttiker (Buttiker, Phys. Rev. B 38, 9375 (1988)): a contact at V emits nu e^2/h V into
+  // its edge; nothing flows back into a source whose upstream edge comes from a cold ground.
+  const double emitted = (1.0 / 3.0) * constants::kConductanceQuantum_S * 30e-6;
+  EXPECT_TRUE(near_rel(t.current_A[contact(d, "SA")], emitted, 1e-9));
+  // D1 receives what QA reflects from SA's beam, (1 - 0.95), split by C with SB's reflected beam; by
+  // symmetry both shares add up to the same (1 - 0.95) of one beam.
+  EXPECT_TRUE(near_rel(t.current_A[contact(d, "D1")], -(1.0 - 0.95) * emitted, 1e-9));
+  // The reversed field is solved by the same device and differs (the edges run the other way).
+  const TransportResult& r = device.transport(FieldSign::kReversed);
+  EXPECT_LT(r.field_T * t.field_T, 0.0);
+  // The collider's generalised Fano factor for balanced dilute beams at 1/3: P = -2 (Rosenow,
+  // Levkivskyi & Halperin, Phys. Rev. Lett. 116, 156802 (2016)).
+  const NoiseResult n = device.noise();
+  bool found = false;
+  for (const ColliderPrediction& c : n.colliders)
+    if (d.constrictions[static_cast<std::size_t>(c.constriction)].name == "C" && c.fano) {
+      found = true;
+      EXPECT_TRUE(near_rel(*c.fano, -2.0, 1e-9)) << *c.fano;
+    }
+  EXPECT_TRUE(found);
+  const PathResult p = device.paths();
+  ASSERT_FALSE(p.pieces.empty());
+  for (const PieceMetrics& m : p.pieces) EXPECT_GT(m.length_m, 0.0);
+}
+
+// One number, one definition: the device's currents are the ones `hallway solve --fast` writes.
+TEST(Device, GivesTheNumbersTheCliPrints) {
+  const std::string path = test::SourcePath("designs/02_two_source_collider.yaml");
+  const std::string json_path = ::testing::TempDir() + "device_test_solve.json";
+  ASSERT_EQ(test::RunHallway("solve '" + path + "' --fast --json '" + json_path + "'").exit_code, 0);
+  std::ifstream in(json_path);
+  const nlohmann::json j = nlohmann::json::parse(in);
+  DeviceOptions options;
+  options.bare_estimate = true;
+  const Device device(LoadDesign(path), options);
+  for (const Contact& c : device.design().contacts)
+    EXPECT_EQ(j["currents_A"][c.name].get<double>(), device.transport().current_A[contact(device.design(), c.name)])
+        << c.name;
+}
+
+TEST(Device, RefusesToSolveADesignThatFailsItsChecks) {
+  const Device device(LoadDesign(test::SourcePath("designs/invalid/gates_overlap.yaml")));
+  EXPECT_FALSE(device.usable());
+  EXPECT_FALSE(device.summary().findings.empty());
+  EXPECT_THROW(device.transport(), std::logic_error);
+}
+
+// Equally spaced points are started from the linear extrapolation of the last two solutions, others
+// from the last one (ExtrapolatedStart, electrostatics.hpp).
+TEST(Device, WarmStartsExtrapolateEquallySpacedPoints) {
+  DensityMap a, b;
+  a.nx = b.nx = 2;
+  a.ny = b.ny = 1;
+  a.density_per_m2 = {1.0, 2.0};
+  b.density_per_m2 = {2.0, 2.5};
+  a.energy_over_fermi = b.energy_over_fermi = {0.0, 0.0};
+  WarmStarts warm;
+  EXPECT_EQ(warm.StartFor({0.0}), nullptr);
+  warm.Push(a, {0.0});
+  EXPECT_EQ(warm.StartFor({0.1})->density_per_m2, a.density_per_m2);
+  warm.Push(b, {0.1});
+  const DensityMap* next = warm.StartFor({0.2});
+  ASSERT_NE(next, nullptr);
+  EXPECT_NEAR(next->density_per_m2[0], 3.0, 1e-12);  // 2 + (2 - 1)
+  EXPECT_NEAR(next->density_per_m2[1], 3.0, 1e-12);  // 2.5 + (2.5 - 2)
+  EXPECT_EQ(warm.StartFor({0.5})->density_per_m2, b.density_per_m2);  // not equally spaced
+}
+
+}  // namespace
+}  // namespace hallway
