@@ -83,6 +83,9 @@ TEST(Cli, JsonHoldsTheDerivedFiguresAndTheWiring) {
   const auto j = nlohmann::json::parse(read(out));
   EXPECT_TRUE(j["ok"].get<bool>());
   EXPECT_EQ(j["derived"]["filling"], "2");
+  // V_dep = -e n_s (d / eps + 1 / (e^2 D)) at n_s = 2.3e11 cm^-2, d = 95 nm, eps_r = 12.9, m* = 0.067 m_e
+  // (series-capacitor law, Luryi, Appl. Phys. Lett. 52, 501 (1988); docs/models.md, Depletion under a
+  // wide gate): -0.3147 V (hand arithmetic, from memory).
   EXPECT_TRUE(test::NearRel(j["derived"]["depletion_voltage_V"].get<double>(), -0.3147, 1e-3));
   EXPECT_EQ(j["wiring"]["W"]["role"], "source");
   EXPECT_DOUBLE_EQ(j["wiring"]["W"]["bias_V"].get<double>(), 1e-5);

@@ -1,7 +1,8 @@
-// Electrostatics: the closed-form gate potential against GSL quadrature and the check values of
-// ../shared/physics.md 1.1 (Davies, Larkin & Sukhorukov, J. Appl. Phys. 77, 4504 (1995)); the FFT
-// operator against a direct sum; the Thomas-Fermi response against the plate capacitor with the
-// quantum capacitance (Luryi, Appl. Phys. Lett. 52, 501 (1988)) and against eps_TF(q) (physics.md 1.2);
+// Electrostatics: the closed-form gate potential against GSL quadrature and the rectangle formula of
+// Davies, Larkin & Sukhorukov, J. Appl. Phys. 77, 4504 (1995) (docs/models.md, Bare gate potential); the
+// FFT operator against a direct sum; the Thomas-Fermi response against the plate capacitor with the
+// quantum capacitance (Luryi, Appl. Phys. Lett. 52, 501 (1988)) and against eps_TF(q) (Ando, Fowler &
+// Stern, Rev. Mod. Phys. 54, 437 (1982); docs/models.md, Thomas-Fermi electrostatics);
 // mirror symmetry; convergence of the pinch-off voltage with the grid.
 #include <gsl/gsl_errno.h>
 #include <gsl/gsl_integration.h>
@@ -80,30 +81,59 @@ double quadrature(const std::vector<Strip>& strips, Point q, double d) {
   return total;
 }
 
+// Series-capacitor depletion voltage of the test wafer (n_s = 2.5e15 m^-2, d = 90 nm, eps_r = 12.9,
+// m* = 0.067 m_e): V_dep = -e n_s (d / eps + 1 / (e^2 D)), D = m* / (pi hbar^2) (Luryi, Appl. Phys. Lett.
+// 52, 501 (1988); docs/models.md, Depletion under a wide gate): -0.324545 V.
+double test_wafer_depletion_V() {
+  const double e = constants::kElementaryCharge_C, hbar = constants::kHbar_Js;
+  const double dos = 0.067 * constants::kElectronMass_kg / (std::numbers::pi * hbar * hbar);
+  return -e * 2.5e15 * (90e-9 / (12.9 * constants::kVacuumPermittivity_F_per_m) + 1 / (e * e * dos));
+}
+
 auto constant(double c) {
   return [c](double) { return c; };
 }
 
-TEST(GatePotential, RectangleCheckValuesOfThePhysicsNote) {
-  // physics.md 1.1: d = 90 nm, rectangle x in [-100, 100] nm, y in [-200, 200] nm, V = 1 V.
+// Potential per volt at q of the rectangle [x0, x1] x [y0, y1] at depth d, in the closed form of Davies,
+// Larkin & Sukhorukov, J. Appl. Phys. 77, 4504 (1995) (form from memory): the sum over the four corners
+// of f(u, v) = (1 / 2 pi) atan(u v / (d sqrt(u^2 + v^2 + d^2))), u and v the signed distances from q to
+// the corner's two sides. hallway itself sums triangle solid angles instead (docs/models.md, Bare gate
+// potential), so this is an independent route.
+double dls_rectangle(double x0, double x1, double y0, double y1, Point q, double d) {
+  auto f = [d](double u, double v) {
+    return std::atan2(u * v, d * std::sqrt(u * u + v * v + d * d)) / (2 * std::numbers::pi);
+  };
+  return f(q.x - x0, q.y - y0) + f(q.x - x0, y1 - q.y) + f(x1 - q.x, q.y - y0) + f(x1 - q.x, y1 - q.y);
+}
+
+TEST(GatePotential, RectangleLShapeAndFingersAgainstTheRectangleFormula) {
+  // d = 90 nm, rectangle x in [-100, 100] nm, y in [-200, 200] nm, V = 1 V: 0.47415539, 0.18226364,
+  // 0.07487621 and 0.01743688 at the four points below, from dls_rectangle.
   const Polygon r{{{-100e-9, -200e-9}, {100e-9, -200e-9}, {100e-9, 200e-9}, {-100e-9, 200e-9}}};
   const double d = 90e-9;
-  EXPECT_NEAR(GatePotentialPerVolt(r, {0, 0}, d), 0.47415539, 1e-8);
-  EXPECT_NEAR(GatePotentialPerVolt(r, {150e-9, 0}, d), 0.18226364, 1e-8);
-  EXPECT_NEAR(GatePotentialPerVolt(r, {0, 300e-9}, d), 0.07487621, 1e-8);
-  EXPECT_NEAR(GatePotentialPerVolt(r, {250e-9, 350e-9}, d), 0.01743688, 1e-8);
-  // L-shape of physics.md 1.1, either vertex order.
+  for (const Point q : {Point{0, 0}, Point{150e-9, 0}, Point{0, 300e-9}, Point{250e-9, 350e-9}})
+    EXPECT_NEAR(GatePotentialPerVolt(r, q, d), dls_rectangle(-100e-9, 100e-9, -200e-9, 200e-9, q, d), 1e-8)
+        << q.x << "," << q.y;
+  // L-shape, either vertex order: the sum of the rectangles [0, 100] x [0, 400] and [100, 300] x [0, 100]
+  // nm (0.30692227 at (50, 50) nm, 0.10034158 at (200, 250) nm).
+  auto l_expected = [d](Point q) {
+    return dls_rectangle(0, 100e-9, 0, 400e-9, q, d) + dls_rectangle(100e-9, 300e-9, 0, 100e-9, q, d);
+  };
   Polygon l{{{0, 0}, {300e-9, 0}, {300e-9, 100e-9}, {100e-9, 100e-9}, {100e-9, 400e-9}, {0, 400e-9}}};
-  EXPECT_NEAR(GatePotentialPerVolt(l, {50e-9, 50e-9}, d), 0.30692227, 1e-8);
-  EXPECT_NEAR(GatePotentialPerVolt(l, {200e-9, 250e-9}, d), 0.10034158, 1e-8);
+  EXPECT_NEAR(GatePotentialPerVolt(l, {50e-9, 50e-9}, d), l_expected({50e-9, 50e-9}), 1e-8);
+  EXPECT_NEAR(GatePotentialPerVolt(l, {200e-9, 250e-9}, d), l_expected({200e-9, 250e-9}), 1e-8);
   std::reverse(l.vertices.begin(), l.vertices.end());
-  EXPECT_NEAR(GatePotentialPerVolt(l, {50e-9, 50e-9}, d), 0.30692227, 1e-8);
+  EXPECT_NEAR(GatePotentialPerVolt(l, {50e-9, 50e-9}, d), l_expected({50e-9, 50e-9}), 1e-8);
   // Split gate, w = 300 nm, fingers 2 um across and 500 nm along: 0.180861 at the centre.
   const Polygon f1{{{-250e-9, 150e-9}, {250e-9, 150e-9}, {250e-9, 2150e-9}, {-250e-9, 2150e-9}}};
   const Polygon f2{{{-250e-9, -2150e-9}, {250e-9, -2150e-9}, {250e-9, -150e-9}, {-250e-9, -150e-9}}};
-  EXPECT_NEAR(GatePotentialPerVolt(f1, {0, 0}, d) + GatePotentialPerVolt(f2, {0, 0}, d), 0.180861, 2e-6);
-  // Semi-infinite gate limit: V/4 at x = d outside the edge (physics.md 1.1 (a)); approximated by a
-  // huge rectangle.
+  EXPECT_NEAR(GatePotentialPerVolt(f1, {0, 0}, d) + GatePotentialPerVolt(f2, {0, 0}, d),
+              dls_rectangle(-250e-9, 250e-9, 150e-9, 2150e-9, {0, 0}, d) +
+                  dls_rectangle(-250e-9, 250e-9, -2150e-9, -150e-9, {0, 0}, d),
+              2e-6);
+  // Semi-infinite gate limit: V [1/2 - (1/pi) atan(x / d)] = V/4 at x = d outside the edge (Davies,
+  // Larkin & Sukhorukov 1995; docs/models.md, Pinch-off: three figures with three meanings); approximated
+  // by a huge rectangle.
   const Polygon half{{{-1, -1}, {0, -1}, {0, 1}, {-1, 1}}};
   EXPECT_NEAR(GatePotentialPerVolt(half, {d, 0}, d), 0.25, 1e-6);
 }
@@ -143,13 +173,14 @@ TEST(Electrostatics, FftOperatorEqualsTheDirectSumOfTheKernel) {
 }
 
 TEST(Electrostatics, WideGateDensityFallsLinearlyAndEmptiesAtTheSeriesCapacitorVoltage) {
-  // n(V) = n_s (1 - V / V_dep), V_dep = -e n_s (d / eps + 1 / (e^2 D)) = -0.324545 V (physics.md 1.3;
-  // quantum capacitance: Luryi 1988). The discrete kernel on a 60 nm grid reproduces it to 1 %.
+  // n(V) = n_s (1 - V / V_dep), V_dep = -e n_s (d / eps + 1 / (e^2 D)) = -0.324545 V at n_s = 2.5e15
+  // m^-2, d = 90 nm, eps_r = 12.9, m* = 0.067 m_e (test_wafer_depletion_V). The discrete kernel on a
+  // 60 nm grid reproduces it to 1 %.
   Design d = LoadDesignFromString(read("tests/data/electrostatics/wide_gate.yaml"), "wide.yaml");
   ElectrostaticsOptions o;
   o.grid_m = 60e-9;
   const ElectrostaticProblem p(d, o);
-  const double vdep = -0.324545;
+  const double vdep = test_wafer_depletion_V();
   DensityMap last;
   const DensityMap* start = nullptr;
   for (double v : {-0.05, -0.15, -0.25}) {
@@ -167,7 +198,9 @@ TEST(Electrostatics, WideGateDensityFallsLinearlyAndEmptiesAtTheSeriesCapacitorV
 
 TEST(Electrostatics, LinearScreeningMatchesThomasFermiDielectricFunction) {
   // Weak potential: the 2DEG stays everywhere occupied and responds linearly,
-  // U = U_ext / eps_TF(q), eps_TF = 1 + (q_TF / q)(1 - exp(-2 q d)) (physics.md 1.2). A weak gate
+  // U = U_ext / eps_TF(q), eps_TF = 1 + (q_TF / q)(1 - exp(-2 q d)), q_TF = e^2 D / 2 eps (Ando, Fowler &
+  // Stern, Rev. Mod. Phys. 54, 437 (1982), with the image kernel of docs/models.md, Thomas-Fermi
+  // electrostatics). A weak gate
   // strip of width w over the centre probes q ~ pi / w; compare the induced density with the response
   // computed from the Fourier formula by numerical integration over the strip's spectrum.
   Design d = LoadDesignFromString(read("tests/data/electrostatics/wide_gate.yaml"), "wide.yaml");
@@ -182,7 +215,8 @@ TEST(Electrostatics, LinearScreeningMatchesThomasFermiDielectricFunction) {
   const DensityMap m = p.Solve({v});
   ASSERT_TRUE(m.stats.converged);
   const double dn_numeric = m.At({0, 0}) - 2.5e15;
-  // Strip of width w, long in y: phi_g(q) = V e^{-|q| d} 2 sin(q w/2) / q (physics.md 1.1 transform),
+  // Strip of width w, long in y: phi_g(q) = V e^{-|q| d} 2 sin(q w/2) / q (the half-space kernel of
+  // docs/models.md, Bare gate potential, in Fourier space),
   // U_ext = -e phi_g, U = U_ext / eps_TF(q), delta n(q) = -D U(q), delta n(0) = (1/pi) int_0^inf delta n(q) dq.
   const HeterostructureFigures f = DeriveFigures(d.heterostructure, 1.0, 0.02);
   const double qtf = constants::kElementaryCharge_C * constants::kElementaryCharge_C * f.density_of_states_per_J_m2 /
@@ -246,10 +280,10 @@ TEST(Electrostatics, PinchOffVoltageConvergesWithTheGrid) {
     std::printf("pinch-off with %4.1f nm cells: %.4f V\n", h * 1e9, v.back());
   }
   // Differences shrink as the cells are halved, and the self-consistent value lies below the bare
-  // estimate (physics.md A: screening by the electrons around the gap).
+  // estimate (docs/models.md, Pinch-off: three figures with three meanings).
   EXPECT_LT(std::abs(v[2] - v[1]), std::abs(v[1] - v[0]) + 2e-4);
   EXPECT_LT(std::abs(v[2] - v[1]), 0.02);
-  EXPECT_LT(v[2], BareSplitGatePinchOff_V(-0.324545, 300e-9, 90e-9));
+  EXPECT_LT(v[2], BareSplitGatePinchOff_V(test_wafer_depletion_V(), 300e-9, 90e-9));
 }
 
 // A converged density handed back as the start must pass the optimality test with the one fresh

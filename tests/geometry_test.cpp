@@ -18,7 +18,8 @@ Polygon rect(double x0, double y0, double x1, double y1) {
   return {{{x0, y0}, {x1, y0}, {x1, y1}, {x0, y1}}};
 }
 
-// The L-shaped gate of physics.md 1.1 (vertices in nm there; any unit here).
+// An L-shaped gate (vertices as in GatePotential.RectangleLShapeAndFingersAgainstTheRectangleFormula,
+// nm there; any unit here).
 Polygon l_shape() {
   return {{{0, 0}, {300, 0}, {300, 100}, {100, 100}, {100, 400}, {0, 400}}};
 }

@@ -1,7 +1,8 @@
 // Edge network and Landauer–Büttiker transport, driven through design files (tests/data/network,
 // designs/). Four-terminal resistances are compared with the closed forms of Büttiker, Phys. Rev.
 // Lett. 57, 1761 (1986); Beenakker & van Houten, Solid State Physics 44, 1 (1991), Sec. IV.B; and
-// Beenakker, Phys. Rev. Lett. 64, 216 (1990), as tabulated in ../shared/physics.md 3.2.
+// Beenakker, Phys. Rev. Lett. 64, 216 (1990) (from memory), evaluated in the tests (docs/models.md,
+// Edge network and Landauer–Büttiker transport).
 #include <gtest/gtest.h>
 
 #include <algorithm>
@@ -62,15 +63,30 @@ double R(const Solved& s, const TransportResult& t, const char* m, const char* n
   return FourTerminalResistance(t.conductance_S, index_of(d, m), index_of(d, n), index_of(d, k), index_of(d, l)) / kRK;
 }
 
-// Contact numbering of physics.md 3.2: 0 = W (source end), 1 = NW, 2 = NE, 3 = E, 4 = SE, 5 = SW.
-// Its chirality (0 -> 5 -> QPC) is that of our B < 0 (physics.md A: for B > 0 electrons circle the
-// mesa clockwise seen from above, W -> NW).
+// Hall bar with a constriction between the probe pairs: W (source end), NW, NE, E (drain), SE, SW.
+// The resistances below are for electrons running W -> SW -> constriction, i.e. our B < 0
+// (docs/models.md, Conventions: for B > 0 electrons circle the mesa clockwise seen from above,
+// W -> NW). R_L = R(NW, NE), R_H = R(SW, NW), R_D+ = R(SW, NE), R_D- = R(SE, NW).
+// The closed forms for ideal contacts, bulk filling nu, constriction passing nu_c, in h/e^2 (Beenakker &
+// van Houten, Solid State Physics 44, 1 (1991), Sec. IV.B; Beenakker, Phys. Rev. Lett. 64, 216 (1990),
+// from memory, for fractional channels): R_H = 1/nu, R_L = 1/nu_c - 1/nu, R_D+ = 1/nu_c,
+// R_D- = 2/nu - 1/nu_c.
 struct HallBarResistances {
   double longitudinal, hall, diagonal_plus, diagonal_minus;
 };
 HallBarResistances hall_bar(const Solved& s, const TransportResult& t) {
   return {R(s, t, "W", "E", "NW", "NE"), R(s, t, "W", "E", "SW", "NW"), R(s, t, "W", "E", "SW", "NE"),
           R(s, t, "W", "E", "SE", "NW")};
+}
+HallBarResistances closed_form(double nu, double nu_c) {
+  return {1 / nu_c - 1 / nu, 1 / nu, 1 / nu_c, 2 / nu - 1 / nu_c};
+}
+void expect_closed_form(const HallBarResistances& r, double nu, double nu_c) {
+  const HallBarResistances c = closed_form(nu, nu_c);
+  EXPECT_NEAR(r.longitudinal, c.longitudinal, kExact);
+  EXPECT_NEAR(r.hall, c.hall, kExact);
+  EXPECT_NEAR(r.diagonal_plus, c.diagonal_plus, kExact);
+  EXPECT_NEAR(r.diagonal_minus, c.diagonal_minus, kExact);
 }
 
 TEST(Landauer, HallBarHasQuantisedHallResistanceAndNoLongitudinalResistance) {
@@ -89,25 +105,19 @@ TEST(Landauer, HallBarHasQuantisedHallResistanceAndNoLongitudinalResistance) {
 }
 
 TEST(Landauer, QpcTransmittingOneOfTwoChannels) {
-  // Beenakker & van Houten 1991, Sec. IV.B (physics.md 3.2): N = 2, K = 1 gives R_L = 1/K - 1/N = 0.5,
-  // R_H = 1/N = 0.5, R_D+ = 1/K = 1, R_D- = 2/N - 1/K = 0 (h/e^2).
+  // Beenakker & van Houten 1991, Sec. IV.B: N = 2, K = 1 gives R_L = 1/K - 1/N = 0.5, R_H = 1/N = 0.5,
+  // R_D+ = 1/K = 1, R_D- = 2/N - 1/K = 0 (h/e^2).
   const Solved s = solve_file("tests/data/network/qpc_nu2_k1.yaml");
-  const auto r = hall_bar(s, s.minus);
-  EXPECT_NEAR(r.longitudinal, 0.5, kExact);
-  EXPECT_NEAR(r.hall, 0.5, kExact);
-  EXPECT_NEAR(r.diagonal_plus, 1.0, kExact);
-  EXPECT_NEAR(r.diagonal_minus, 0.0, kExact);
-  EXPECT_NEAR(r.longitudinal * kRK, 12906.4, 0.05);  // physics.md 3.2 check table, in ohms
+  expect_closed_form(hall_bar(s, s.minus), 2, 1);
+  // h/2e^2 = 12906.4 Ohm (h/e^2 = 25812.80745 Ohm, exact in the 2019 SI; Tiesinga et al., Rev. Mod.
+  // Phys. 93, 025010 (2021)).
+  EXPECT_NEAR(hall_bar(s, s.minus).longitudinal * kRK, 25812.80745 / 2, 0.05);
 }
 
 TEST(Landauer, QpcTransmittingTwoOfFourChannels) {
-  // physics.md 3.2 check table: nu = 4, K = 2 -> R_L = R_H = 0.25, R_D+ = 0.5, R_D- = 0.
+  // Beenakker & van Houten 1991, Sec. IV.B: nu = 4, K = 2 -> R_L = R_H = 0.25, R_D+ = 0.5, R_D- = 0.
   const Solved s = solve_file("tests/data/network/qpc_nu4_k2.yaml");
-  const auto r = hall_bar(s, s.minus);
-  EXPECT_NEAR(r.longitudinal, 0.25, kExact);
-  EXPECT_NEAR(r.hall, 0.25, kExact);
-  EXPECT_NEAR(r.diagonal_plus, 0.5, kExact);
-  EXPECT_NEAR(r.diagonal_minus, 0.0, kExact);
+  expect_closed_form(hall_bar(s, s.minus), 4, 2);
 }
 
 TEST(Landauer, GateAcrossTheBarWithLowerFillingUnderIt) {
@@ -127,25 +137,19 @@ TEST(Landauer, GateAcrossTheBarWithLowerFillingUnderIt) {
 }
 
 TEST(Landauer, FractionalChannelsNuOneWithQpcAtOneThird) {
-  // Beenakker, Phys. Rev. Lett. 64, 216 (1990) (physics.md 3.2 check table): bulk 1 (1/3 + 2/3), QPC at
-  // nu_c = 1/3 -> R_L = 1/nu_c - 1/nu = 2, R_H = 1, R_D+ = 3, R_D- = -1 (h/e^2); 2 h/e^2 = 51625.6 Ohm.
+  // Beenakker, Phys. Rev. Lett. 64, 216 (1990) (from memory): bulk 1 (1/3 + 2/3), QPC at nu_c = 1/3 ->
+  // R_L = 1/nu_c - 1/nu = 2, R_H = 1, R_D+ = 3, R_D- = -1 (h/e^2); 2 h/e^2 = 51625.6 Ohm.
   const Solved s = solve_file("tests/data/network/qpc_nu1_third.yaml");
   const auto r = hall_bar(s, s.minus);
-  EXPECT_NEAR(r.longitudinal, 2.0, kExact);
-  EXPECT_NEAR(r.hall, 1.0, kExact);
-  EXPECT_NEAR(r.diagonal_plus, 3.0, kExact);
-  EXPECT_NEAR(r.diagonal_minus, -1.0, kExact);
-  EXPECT_NEAR(r.longitudinal * kRK, 51625.6, 0.1);
+  expect_closed_form(r, 1, 1.0 / 3);
+  EXPECT_NEAR(r.longitudinal * kRK, 2 * 25812.80745, 0.1);  // h/e^2 exact in the 2019 SI (CODATA 2018)
 }
 
 TEST(Landauer, FractionalChannelsTwoFifthsWithQpcAtOneThird) {
-  // physics.md 3.2 check table: bulk 2/5 (1/3 + 1/15), QPC at 1/3 -> R_L = 0.5, R_H = 2.5, R_D+ = 3, R_D- = 2.
+  // Beenakker, Phys. Rev. Lett. 64, 216 (1990) (from memory): bulk 2/5 (1/3 + 1/15), QPC at 1/3 ->
+  // R_L = 0.5, R_H = 2.5, R_D+ = 3, R_D- = 2 (h/e^2).
   const Solved s = solve_file("tests/data/network/qpc_nu2fifths_third.yaml");
-  const auto r = hall_bar(s, s.minus);
-  EXPECT_NEAR(r.longitudinal, 0.5, kExact);
-  EXPECT_NEAR(r.hall, 2.5, kExact);
-  EXPECT_NEAR(r.diagonal_plus, 3.0, kExact);
-  EXPECT_NEAR(r.diagonal_minus, 2.0, kExact);
+  expect_closed_form(hall_bar(s, s.minus), 0.4, 1.0 / 3);
 }
 
 const char* kAllDesigns[] = {"designs/01_hallbar_qpc.yaml",
@@ -159,7 +163,8 @@ const char* kAllDesigns[] = {"designs/01_hallbar_qpc.yaml",
                              "tests/data/network/qpc_nu2fifths_third.yaml"};
 
 TEST(Landauer, RowsAndColumnsOfTheConductanceMatrixSumToZero) {
-  // Current conservation and gauge invariance (Büttiker 1986; physics.md 3.1 sum rules).
+  // Current conservation and gauge invariance (Büttiker, Phys. Rev. Lett. 57, 1761 (1986): rows and
+  // columns of G sum to zero).
   for (const char* f : kAllDesigns) {
     const Solved s = solve_file(f);
     for (const TransportResult* t : {&s.plus, &s.minus}) {
@@ -247,7 +252,8 @@ TEST(Landauer, SelfConsistentBoundariesGiveTheSameQuantisedResistances) {
 }
 
 TEST(Network, HallBarEdgesRunClockwiseForPositiveField) {
-  // physics.md A: for B > 0 the electrons keep the 2DEG on their right, clockwise seen from above:
+  // docs/models.md, Conventions: for B > 0 the electrons keep the 2DEG on their right, clockwise seen
+  // from above:
   // from the left end W the edge runs up to the top-left probe NW.
   const Solved s = solve_file("tests/data/network/hallbar_nu2.yaml");
   const int w = index_of(s.design, "W"), nw = index_of(s.design, "NW"), sw = index_of(s.design, "SW");
@@ -281,7 +287,7 @@ TEST(Network, CollidersSourceBeamsReachTheCentralConstriction) {
   const auto& t = s.plus.transmission[0];
   // The 0.05 reflected at QA runs down CN's west flank to C. What C transmits (0.9) passes the gap and
   // continues on CN's side, up its east flank to D2; what C reflects (0.1) turns back on the west side,
-  // down CS's west flank to D1 (physics.md A, constriction transmission).
+  // down CS's west flank to D1 (docs/models.md, Conventions: a constriction's transmission).
   EXPECT_NEAR(t[static_cast<std::size_t>(d1)][static_cast<std::size_t>(sa)], 0.05 * 0.1, kExact);
   EXPECT_NEAR(t[static_cast<std::size_t>(d2)][static_cast<std::size_t>(sa)], 0.05 * 0.9, kExact);
   EXPECT_NEAR(t[static_cast<std::size_t>(ga)][static_cast<std::size_t>(sa)], 0.95, kExact);

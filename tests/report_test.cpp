@@ -1,6 +1,6 @@
 // Figures and the HTML report: files decode as PNG, SVG and PDF of the expected size; the layout map's
-// arrows follow the chirality of physics.md A (checked on the drawing's own geometry, not on pixels);
-// the report holds every section, passes an HTML checker and renders in a headless browser.
+// arrows follow the chirality of docs/models.md, Conventions (checked on the drawing's own geometry, not
+// on pixels); the report holds every section, passes an HTML checker and renders in a headless browser.
 #include <cairo.h>
 #include <gtest/gtest.h>
 #include <sys/wait.h>
@@ -41,8 +41,8 @@ int run(const std::string& cmd) {
 }
 
 TEST(Drawing, LayoutArrowsFollowTheChirality) {
-  // physics.md A: for B > 0 electrons circle the mesa clockwise seen from above, so on the top edge of
-  // the bar (y near +10 um) they move towards +x and on the bottom edge towards -x; B -> -B reverses.
+  // docs/models.md, Conventions: for B > 0 electrons circle the mesa clockwise seen from above, so on the
+  // top edge of the bar (y near +10 um) they move towards +x and on the bottom edge towards -x; B -> -B reverses.
   const Design d = LoadDesign(test::SourcePath("tests/data/network/hallbar_nu2.yaml"));
   const ChannelGeometry g = BuildChannelGeometry(d);
   const fs::path dir = scratch();

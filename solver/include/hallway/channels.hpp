@@ -1,6 +1,6 @@
 // hallway/channels.hpp: which bulk fillings hallway supports, and their default edge channels.
 //
-// Table of ../shared/physics.md section A (project conventions):
+// The table of docs/models.md, Default edge channels per filling:
 //   integer N      N channels of e^2/h, charge e                                   common practice
 //   1/m, m odd     one channel 1/m, e* = e/m, theta/pi = 1/m, delta = 1/m            Kane & Fisher,
 //                                                                     Phys. Rev. Lett. 72, 724 (1994)

@@ -2,7 +2,7 @@
 //
 // e, h and k_B are exact in the 2019 SI. Source: Tiesinga, Mohr, Newell & Taylor, "CODATA recommended
 // values of the fundamental physical constants: 2018", Rev. Mod. Phys. 93, 025010 (2021) (from memory;
-// the values were checked against the CODATA 2018 table, see shared physics notes, section 9).
+// the values were checked against the CODATA 2018 table).
 #pragma once
 
 #include <numbers>

@@ -102,7 +102,7 @@ enum class Role { kSource, kGround, kAmplifier, kFloat };
 std::string ToString(Role r);
 std::optional<Role> RoleFromString(const std::string& s);
 
-// The amplifier chain at an amplifier contact (physics.md section 8).
+// The amplifier chain at an amplifier contact (docs/models.md, Amplifier chain).
 struct Amplifier {
   double load_Ohm = 0.0;
   double voltage_noise_V_per_rtHz = 0.0;

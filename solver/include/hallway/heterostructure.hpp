@@ -7,7 +7,8 @@
 //   B_nu  = n_s h / (e nu)                   field at which the bulk filling is nu
 //   C_g   = eps_r eps_0 / d                  plate capacitance per area of a wide gate
 //   V_dep = -e n_s (d / (eps_r eps_0) + 1 / (e^2 D))   wide-gate depletion voltage with the quantum
-//                                            capacitance (series-capacitor form, physics.md 1.3)
+//                                            capacitance (series-capacitor form; docs/models.md,
+//                                            Depletion under a wide gate)
 // References for the tests: Ando, Fowler & Stern, Rev. Mod. Phys. 54, 437 (1982) (2-D density of
 // states and Drude mobility; from memory) and Davies, The Physics of Low-Dimensional Semiconductors
 // (Cambridge University Press, 1998) (magnetic length, cyclotron energy; from memory).
@@ -40,7 +41,8 @@ struct HeterostructureFigures {
 
 HeterostructureFigures DeriveFigures(const Heterostructure& h, double field_T, double temperature_K);
 
-// Bare-potential split-gate pinch-off for infinitely long fingers with gap w (physics.md 1.4 (i)):
+// Bare-potential split-gate pinch-off for infinitely long fingers with gap w (docs/models.md, Pinch-off:
+// three figures with three meanings, "bare"):
 // V_pinch = V_dep / (1 - (2/pi) atan(w / 2d)).
 double BareSplitGatePinchOff_V(double depletion_voltage_V, double gap_m, double depth_m);
 

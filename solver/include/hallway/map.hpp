@@ -1,8 +1,9 @@
 // hallway/map.hpp: what the self-consistent electrostatics says about a layout (`hallway map`).
 //
-// For each gate: the wide-gate depletion voltage (physics.md 1.3) and the voltage at which the 2DEG
-// under the gate itself empties (the gate alone, the others at 0 V), the lateral depletion width
-// at the design voltages, and the E x B drift velocity v = E / |B| of the edge there (physics.md 7).
+// For each gate: the wide-gate depletion voltage (docs/models.md, Depletion under a wide gate) and the
+// voltage at which the 2DEG under the gate itself empties (the gate alone, the others at 0 V), the
+// lateral depletion width at the design voltages, and the E x B drift velocity v = E / |B| of the
+// edge there (docs/models.md, Edge velocity and lengths).
 // For each constriction: the gap, the saddle (found, saddle.hpp) and its density at the design
 // voltages, and the pinch-off voltage: both sides swept together, the other gates at their design
 // voltages, bisection on the self-consistent density at the saddle (found anew at each voltage) to

@@ -4,17 +4,18 @@
 //   the mesa eroded by `etch_depletion`,
 //   minus every gate that reflects channel k: a gate at or below the wide-gate depletion voltage
 //     V_dep removes its footprint grown by the bare lateral depletion width
-//     x_e = d cot(pi V_dep / V_g) (physics.md 1.4 (i); for 2 V_dep < V_g <= V_dep the formula puts the
-//     edge inside the footprint and hallway keeps the footprint itself); a weaker gate lowers the
-//     local filling under it to nu (1 - V_g / V_dep) (plate capacitor with quantum capacitance,
-//     physics.md 1.3) and reflects the channels whose cumulative filling (outermost first)
-//     exceeds that, at its footprint;
+//     x_e = d cot(pi V_dep / V_g) (docs/models.md, Channel boundaries and slits; for
+//     2 V_dep < V_g <= V_dep the formula puts the edge inside the footprint and hallway keeps the
+//     footprint itself); a weaker gate lowers the local filling under it to nu (1 - V_g / V_dep)
+//     (plate capacitor with quantum capacitance, docs/models.md, Depletion under a wide gate) and
+//     reflects the channels whose cumulative filling (outermost first) exceeds that, at its footprint;
 //   with each constriction whose sides reflect channel k cut across its gap (a thin slit along the
 //     shortest segment between the two sides, moved along the current to pass through the saddle of
 //     saddle.hpp; the gap is first re-opened by a corridor along the current through the saddle, so
 //     the design's transmission decides what passes, and a warning says when the estimate disagrees).
-// Edges follow the boundary of each region with the chirality of physics.md A: for B > 0 the 2DEG
-// is on the electron's right-hand side, i.e. clockwise around the outer boundary seen from above.
+// Edges follow the boundary of each region with the chirality of docs/models.md, Conventions: for
+// B > 0 the 2DEG is on the electron's right-hand side, i.e. clockwise around the outer boundary seen
+// from above.
 // They are cut where they enter and leave ohmic contacts and where they meet a constriction's slit:
 // the two faces of the slit are the constriction's ports.
 #pragma once

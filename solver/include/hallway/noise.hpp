@@ -1,5 +1,6 @@
 // hallway/noise.hpp: zero-frequency current noise at every contact and the signal-to-noise of the
-// planned measurement (physics.md sections 4, 5, 6 and 8). One-sided spectral densities: Poisson
+// planned measurement (docs/models.md: Coherent noise of integer channels, Fractional constriction,
+// Floating contacts, Anyon collider, Amplifier chain). One-sided spectral densities: Poisson
 // noise is 2eI, Johnson–Nyquist noise 4 k_B T G; "excess" is the total minus the same quantity at
 // zero bias and the same temperature.
 //
@@ -14,12 +15,12 @@
 // Fractional channels: each constriction with 0 < t < 1 is an independent noise source
 //     S_Q = 2 e* |V_Q| g (e^2/h) t (1 - t) [coth(e*|V_Q| / 2 k_B T) - 2 k_B T / (e*|V_Q|)]
 //   with V_Q the potential difference of its two incoming edges, e* the charge of its regime
-//   (Kane & Fisher, Phys. Rev. Lett. 72, 724 (1994); physics.md 5), carried to the contacts by the
-//   incoherent network.
-// Floating contacts and current sources hold dI = 0 at low frequency (physics.md 4.4):
+//   (Kane & Fisher, Phys. Rev. Lett. 72, 724 (1994); docs/models.md, Fractional constriction), carried
+//   to the contacts by the incoherent network.
+// Floating contacts and current sources hold dI = 0 at low frequency (docs/models.md, Floating contacts):
 //   S' = L S L^T, L = [1, -G_AF G_FF^-1]. Their heating by the bias is not included.
-// Colliders: physics.md A and 6 (collider.hpp).
-// Amplifiers: physics.md 8 (Dicke radiometer formula for the averaging time).
+// Colliders: docs/models.md, Anyon collider (collider.hpp).
+// Amplifiers: docs/models.md, Amplifier chain (Dicke radiometer formula for the averaging time).
 #pragma once
 
 #include <optional>
@@ -115,7 +116,7 @@ struct ColliderPrediction {
   std::string not_computed;                   // why P is not computed or not used (empty when it is)
   int output_first = -1, output_second = -1;  // contacts that receive most of each output
   bool dilute = false, weak_tunnelling = false, exchange_below_half_pi = false;
-  double rate_over_temperature = 0.0;     // zeta, physics.md 6.6
+  double rate_over_temperature = 0.0;     // zeta (docs/models.md, Anyon collider)
   std::optional<double> time_for_fano_s;  // averaging for P to +- NoiseOptions::collider_fano_uncertainty
   // The collider's block in the contact matrix (model of NoiseOptions::collider_model), A^2/Hz:
   // S_34 = s1t - s2t - stt (with I3 = I1 - I_T, I4 = I2 + I_T), S_1T, S_2T and the excess S_TT.
@@ -143,12 +144,12 @@ struct NoiseResult {
 NoiseResult SolveNoise(const Design& design, const EdgeNetwork& network, const TransportResult& transport,
                        const NoiseOptions& options = {});
 
-// The measurement chain at one amplifier contact (physics.md 8): the sample conductance gs seen there
-// in parallel with the load, R = R_s || R_L, S_V = R^2 S_exc + e_n^2 + R^2 i_n^2 + J, SNR = S_sig / S_tot
-// sqrt(df t), and the averaging time for `target_sigmas`. J is each resistor's Johnson noise divided
-// by the other, the sample at `temperature_K` (the design's) and the load at its own T_L
-// (Amplifier::load_temperature_K, default the design's; Johnson, Phys. Rev. 32, 97 (1928); Nyquist,
-// Phys. Rev. 32, 110 (1928)):
+// The measurement chain at one amplifier contact (docs/models.md, Amplifier chain): the sample
+// conductance gs seen there in parallel with the load, R = R_s || R_L,
+// S_V = R^2 S_exc + e_n^2 + R^2 i_n^2 + J, SNR = S_sig / S_tot sqrt(df t), and the averaging time for
+// `target_sigmas`. J is each resistor's Johnson noise divided by the other, the sample at
+// `temperature_K` (the design's) and the load at its own T_L (Amplifier::load_temperature_K, default
+// the design's; Johnson, Phys. Rev. 32, 97 (1928); Nyquist, Phys. Rev. 32, 110 (1928)):
 //   J = 4 k_B T_s R_s (R_L / (R_s + R_L))^2 + 4 k_B T_L R_L (R_s / (R_s + R_L))^2,
 // which is 4 k_B T R when T_L = T_s; R_s = infinity (gs = 0) leaves 4 k_B T_L R_L. With
 // Amplifier::reference_subtraction (on/off: the difference of two averages, each t long) the variance
@@ -157,8 +158,8 @@ NoiseResult SolveNoise(const Design& design, const EdgeNetwork& network, const T
 AmplifierNoise AmplifierChain(double sample_conductance_S, const Amplifier& amplifier, double temperature_K,
                               double excess_A2_per_Hz, double target_sigmas);
 
-// 2 e* V g t (1 - t) [coth(e* V / 2 k_B T) - 2 k_B T / (e* V)] (physics.md 5; tends to Kane & Fisher's
-// 2 e* I_B [...] with I_B = g (1 - t) V as t -> 1).
+// 2 e* V g t (1 - t) [coth(e* V / 2 k_B T) - 2 k_B T / (e* V)] (docs/models.md, Fractional constriction;
+// tends to Kane & Fisher's 2 e* I_B [...] with I_B = g (1 - t) V as t -> 1).
 double FractionalPartitionNoise_A2_per_Hz(double charge_C, double voltage_V, double conductance_S, double t,
                                           double temperature_K);
 

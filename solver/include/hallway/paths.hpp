@@ -1,20 +1,22 @@
 // hallway/paths.hpp: the design metrics of every edge path and constriction (`hallway paths`).
 //
 // Edge pieces: length along the edge, mean E x B drift velocity v = E / |B| from the local confining
-// field of the self-consistent potential (physics.md 7; a fixed velocity when no map is given), time of
-// flight, thermal lengths hbar v / k_B T and hbar v / (2 pi k_B T) (both conventions, labelled).
+// field of the self-consistent potential (docs/models.md, Edge velocity and lengths; a fixed velocity
+// when no map is given), time of flight, thermal lengths hbar v / k_B T and hbar v / (2 pi k_B T)
+// (both conventions, labelled).
 // Loops: enclosed area, Aharonov-Bohm periods h/(eA) and h/(e*A), the charging energy e^2/2C of the
 // enclosed island (disk C = 8 eps_eff eps_0 r, eps_eff = (eps_r + 1)/2, or the plate C = eps A / d
-// when a gate covers most of it; physics.md 10) against k_B T, and the thermal visibility factor
-// X / sinh X, X = pi k_B T dL / (hbar v), for the round trip dL = loop length (physics.md 7).
+// when a gate covers most of it; docs/models.md, Aharonov-Bohm period and charging) against k_B T, and
+// the thermal visibility factor X / sinh X, X = pi k_B T dL / (hbar v), for the round trip dL = loop
+// length (docs/models.md, Edge velocity and lengths).
 // Source constriction -> collider/splitter: the distance along the edge, against a relaxation length.
 // Floating contacts: Joule power (e^2/2h) sum g (mu_in - V_f)^2 and the electron temperature from
-// P = N_out (pi^2 k_B^2 / 6h)(T_f^2 - T^2), phonons neglected (physics.md 10; Jezouin et al.,
-// Science 342, 601 (2013), from memory).
+// P = N_out (pi^2 k_B^2 / 6h)(T_f^2 - T^2), phonons neglected (docs/models.md, Floating contacts;
+// Jezouin et al., Science 342, 601 (2013)).
 // Constrictions: saddle point of the self-consistent potential energy, curvatures along and across,
 // transverse subbands by a sparse eigensolver (Spectra) against the harmonic spacing, and the
 // saddle-point transmission of each integer channel in field (Büttiker, Phys. Rev. B 41, 7906 (1990);
-// physics.md 2) as a function of the constriction's gate voltage.
+// docs/models.md, Saddle-point transmission) as a function of the constriction's gate voltage.
 #pragma once
 
 #include <optional>
@@ -30,10 +32,12 @@
 namespace hallway {
 
 struct PathOptions {
-  double default_velocity_m_per_s = 2e4;  // used without a density map (physics.md 7 range 1e4-1e5, from memory)
+  // Used without a density map: within the 1e4-1e5 m/s of GaAs edges (docs/models.md, Edge velocity and
+  // lengths; from memory).
+  double default_velocity_m_per_s = 2e4;
   // Source-to-splitter distance beyond which the non-equilibrium distribution relaxes: 1 um for
   // integer fillings >= 2 (judgement on le Sueur et al., Phys. Rev. Lett. 105, 056803 (2010)), 3 um
-  // otherwise (physics.md 7, rule 3, "a few um"); 0: these defaults.
+  // otherwise (judgement, docs/models.md, Edge velocity and lengths); 0: these defaults.
   double relaxation_length_m = 0.0;
   double gate_voltage_limit_V = -2.0;         // conservative leakage onset of surface gates (common practice)
   int curve_points = 25;                      // transmission-versus-voltage samples per constriction
@@ -110,10 +114,11 @@ struct PathResult {
 
 // Saddle-point transmission of subband n with spin sign s (+1, -1) at E - V0 = energy_J (Büttiker 1990).
 double SaddleTransmission(double energy_J, double hbar_omega_x_J, double hbar_omega_y_J, double hbar_omega_c_J, int n);
-// X / sinh X with X = pi k_B T dL / (hbar v) (physics.md 7).
+// X / sinh X with X = pi k_B T dL / (hbar v) (docs/models.md, Edge velocity and lengths).
 double ThermalVisibility(double path_difference_m, double velocity_m_per_s, double temperature_K);
 // Self-capacitance of an island of area A: the plate eps_r eps_0 A / d under a gate, otherwise the
-// disk 8 eps_eff eps_0 r with r = sqrt(A / pi), eps_eff = (eps_r + 1) / 2 (physics.md 10).
+// disk 8 eps_eff eps_0 r with r = sqrt(A / pi), eps_eff = (eps_r + 1) / 2 (docs/models.md, Aharonov-Bohm
+// period and charging).
 double IslandCapacitance_F(double area_m2, bool gated, double permittivity, double depth_m);
 
 // Spin-resolved channel k (outermost first) of the same saddle, with the spin-resolved levels at
@@ -123,7 +128,7 @@ double IslandCapacitance_F(double area_m2, bool gated, double permittivity, doub
 // a Landau level at its centre, and exchange enhancement is not modelled.)
 double SpinResolvedSaddleTransmission(double energy_J, double hbar_omega_x_J, double hbar_omega_y_J,
                                       double hbar_omega_c_J, int k);
-// E_1 and E_2 of Büttiker's saddle (physics.md 2).
+// E_1 and E_2 of Büttiker's saddle (docs/models.md, Saddle-point transmission).
 void SaddleEnergies(double hbar_omega_x_J, double hbar_omega_y_J, double hbar_omega_c_J, double* e1_J, double* e2_J);
 
 // The edge metrics (pieces, loops, source paths, floating contacts). `map` may be null.

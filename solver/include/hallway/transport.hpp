@@ -1,4 +1,5 @@
-// hallway/transport.hpp: Landauer–Büttiker transport of an edge network (physics.md section A, 3.1).
+// hallway/transport.hpp: Landauer–Büttiker transport of an edge network (docs/models.md, Conventions;
+// Edge network and Landauer–Büttiker transport).
 //
 //   I_i = sum_j G_ij V_j,   G_ij = (e^2/h) sum_k g_k (M_ik delta_ij - T_ij,k)
 // with I_i the conventional current into the device at contact i, g_k the conductance of channel k in
@@ -77,8 +78,9 @@ Matrix ConductanceFromTransmissions(const std::vector<Matrix>& t, const std::vec
                                     const std::vector<double>& g_e2h);
 
 // R_{mn,kl} = (V_k - V_l) / I for a current I into contact m and out of contact n, every other
-// contact floating (physics.md 3.1). Throws std::invalid_argument when the indices repeat in m, n
-// or are out of range, std::runtime_error when the network leaves the voltages undetermined.
+// contact floating (Büttiker, Phys. Rev. Lett. 57, 1761 (1986)). Throws std::invalid_argument when the
+// indices repeat in m, n or are out of range, std::runtime_error when the network leaves the voltages
+// undetermined.
 double FourTerminalResistance(const Matrix& conductance_S, int m, int n, int k, int l);
 
 }  // namespace hallway
