@@ -88,6 +88,48 @@ bool BuildGeometry(const Design& design, bool fast, ChannelGeometry* geometry, s
   }
 }
 
+bool BuildDevice(Design design, bool fast, std::size_t max_memory_bytes, std::optional<Device>* device,
+                 std::string* note, int* exit_code) {
+  DeviceOptions options;
+  options.bare_estimate = fast;
+  options.electrostatics.max_memory_bytes = max_memory_bytes;
+  try {
+    const Progress progress("hallway", 1, false);
+    if (!fast) progress.Step(0, "self-consistent electrostatics");
+    device->emplace(std::move(design), options);
+  } catch (const GridTooLarge& e) {
+    *exit_code = ReportGridTooLarge(e, GridAdvice::kFastOption);
+    return false;
+  }
+  const Device& dev = **device;
+  if (ReportErrors(dev.check().findings) > 0) {
+    std::cerr << "hallway: run `hallway check` for the full list; nothing was solved\n";
+    *exit_code = kExitDesignError;
+    return false;
+  }
+  if (const auto& s = dev.summary().electrostatics) {
+    *note += fmt::format(
+        "  electrostatics: {} x {} cells of {:.3g} nm, {} operator applications, residual {:.1e}, {}, {:.2g} s\n",
+        dev.density()->nx, dev.density()->ny, dev.density()->cell_m * 1e9, s->operator_applications, s->residual,
+        s->converged ? "converged" : "NOT converged", s->seconds);
+    if (!s->converged) {
+      std::cerr << "hallway: resource limit: the electrostatic solve did not converge within "
+                << s->operator_applications << " operator applications (residual " << s->residual
+                << " of the ungated density); use --fast for the bare estimate\n";
+      *exit_code = kExitResourceLimit;
+      return false;
+    }
+  } else {
+    *note += "  (--fast: bare-potential boundaries, no electrostatic solve)\n";
+  }
+  if (!dev.usable()) {  // an error of the channel geometry (the checks passed)
+    ReportErrors(dev.summary().findings);
+    *exit_code = kExitDesignError;
+    return false;
+  }
+  return true;
+}
+
 namespace {
 double physical_memory_bytes() {
   const long pages = sysconf(_SC_PHYS_PAGES), page = sysconf(_SC_PAGE_SIZE);

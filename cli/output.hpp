@@ -1,6 +1,7 @@
 // cli/output.hpp: files hallway writes, written whole or not at all.
 #pragma once
 
+#include <optional>
 #include <stdexcept>
 #include <string>
 #include <vector>
@@ -9,6 +10,7 @@
 
 #include "hallway/check.hpp"
 #include "hallway/design.hpp"
+#include "hallway/device.hpp"
 #include "hallway/electrostatics.hpp"
 #include "hallway/network.hpp"
 
@@ -38,6 +40,13 @@ int ReportErrors(const std::vector<Finding>& findings);
 // false (with *exit_code) when the electrostatic solve fails or does not converge.
 bool BuildGeometry(const Design& design, bool fast, ChannelGeometry* geometry, std::string* note, int* exit_code,
                    DensityMap* map_out = nullptr, std::size_t max_memory_bytes = kDefaultMaxMemoryBytes);
+
+// The device for solve, noise, paths and report (device.hpp): checks the design and prints its errors,
+// solves the electrostatics unless `fast`, builds the channel geometry, and appends a line about the
+// electrostatic solve to *note (the same line BuildGeometry writes). Returns false (with *exit_code)
+// when the design fails its checks, the grid is too large or the solve does not converge.
+bool BuildDevice(Design design, bool fast, std::size_t max_memory_bytes, std::optional<Device>* device,
+                 std::string* note, int* exit_code);
 
 // The --max-memory option: "4GiB", "512 MiB", "2 GB" (B, kB, MB, GB, TB, KiB, MiB, GiB, TiB); empty
 // gives the default. On a bad value prints a usage error and returns false with *exit_code set;

@@ -207,25 +207,18 @@ std::string PathsText(const Design& d, const ChannelGeometry& geometry, const st
 int RunPaths(const PathsArgs& args) {
   std::size_t max_memory = 0;
   if (int code = 0; !ParseMaxMemory(args.max_memory, &max_memory, &code)) return code;
-  Design d;
-  if (int code = 0; !LoadOrReport(args.design_path, &d, &code)) return code;
-  const CheckResult check = CheckDesign(d);
-  if (ReportErrors(check.findings) > 0) {
-    std::cerr << "hallway: run `hallway check` for the full list; nothing was solved\n";
-    return kExitDesignError;
-  }
-  ChannelGeometry geometry;
+  Design design;
+  if (int code = 0; !LoadOrReport(args.design_path, &design, &code)) return code;
+  std::optional<Device> device;
   std::string es_note;
-  DensityMap map;
-  if (int code = 0; !BuildGeometry(d, args.fast, &geometry, &es_note, &code, &map, max_memory)) return code;
-  const DensityMap* map_ptr = args.fast ? nullptr : &map;
-  const EdgeNetwork net = TraceEdges(d, geometry, d.conditions.field_T);
+  if (int code = 0; !BuildDevice(std::move(design), args.fast, max_memory, &device, &es_note, &code)) return code;
+  const Design& d = device->design();
+  const ChannelGeometry& geometry = device->geometry();
+  const EdgeNetwork& net = device->edges();
   if (ReportErrors(net.findings) > 0) return kExitDesignError;
-  const TransportResult tr = SolveTransport(d, net);
   PathOptions po;
   if (!ParsePathOptions(args, max_memory, &po)) return kExitUsage;
-  PathResult r = ComputePaths(d, net, tr, map_ptr, po);
-  ComputeConstrictionModels(d, po, &r);
+  const PathResult r = device->paths(po);
   std::string out = PathsText(d, geometry, es_note, net, r, po);
   std::vector<std::string> warnings;
   for (const Finding& f : r.findings) warnings.push_back(f.message);
