@@ -11,7 +11,9 @@
 #include "hallway/constants.hpp"
 #include "hallway/design_loader.hpp"
 #include "hallway/geometry/polygon.hpp"
+#include "hallway/network.hpp"
 #include "hallway/units.hpp"
+#include "hallway/wiring.hpp"
 #include "json_parts.hpp"
 #include "output.hpp"
 
@@ -64,7 +66,7 @@ std::string channel_text(const Channel& c) {
   return s;
 }
 
-std::string render_text(const Design& d, const CheckResult& r) {
+std::string render_text(const Design& d, const CheckResult& r, const WiringVerdict* v) {
   const auto& f = r.figures;
   const auto& h = d.heterostructure;
   std::string out;
@@ -142,10 +144,15 @@ std::string render_text(const Design& d, const CheckResult& r) {
     for (const Finding& x : r.findings)
       out += fmt::format("  {}: {} [{}]\n      at {}\n", ToString(x.severity), x.message, x.code, x.where.ToString());
   }
+  if (v) out += WiringVerdictText(d, *v, "bare-potential edges, as `solve --fast`");
   out += kSafetyCaution;
-  out += fmt::format("\n{}: {} error(s), {} warning(s)\n", r.ok() ? "check passed" : "check FAILED", r.error_count(),
+  out += fmt::format("\n{}: {} error(s), {} warning(s)", r.ok() ? "check passed" : "check FAILED", r.error_count(),
                      r.warning_count());
-  return out;
+  if (v && v->assessed)
+    out += v->ok                  ? "; wiring works in the design field"
+           : v->reversed_field_ok ? "; wiring FAILS in the design field (works with the field reversed)"
+                                  : "; wiring FAILS in both field directions";
+  return out + "\n";
 }
 
 nlohmann::json location_json(const SourceLocation& s) {
@@ -157,7 +164,7 @@ nlohmann::json polygon_json(const geometry::Polygon& p) {
   return {{"area_m2", geometry::area(p)}, {"bounding_box_m", {bb.xmin, bb.ymin, bb.xmax, bb.ymax}}};
 }
 
-std::string render_json(const Design& d, const CheckResult& r) {
+std::string render_json(const Design& d, const CheckResult& r, const WiringVerdict* v) {
   using nlohmann::json;
   const auto& f = r.figures;
   json j;
@@ -250,7 +257,212 @@ std::string render_json(const Design& d, const CheckResult& r) {
   j["errors"] = errors;
   j["warnings"] = warnings;
   j["ok"] = r.ok();
+  if (v) j["wiring_verdict"] = WiringVerdictJson(d, *v);
   return j.dump(2) + "\n";
+}
+
+std::string contact_list(const Design& d, const std::vector<int>& contacts) {
+  std::string s;
+  for (int c : contacts) s += (s.empty() ? "" : ", ") + d.contacts[static_cast<std::size_t>(c)].name;
+  return s;
+}
+
+void problem_lines(std::string& out, const std::vector<WiringProblem>& problems) {
+  for (const WiringProblem& p : problems) {
+    out += fmt::format("    - {} [{}{}]\n", p.message, p.code, p.mistake ? ", a common wiring mistake" : "");
+    out += fmt::format("        what to change: {}\n", p.fix);
+  }
+}
+
+void field_views(std::string& out, const Design& d, const FieldAssessment& a) {
+  auto name = [&](int c) { return d.contacts[static_cast<std::size_t>(c)].name; };
+  auto qname = [&](int q) { return d.constrictions[static_cast<std::size_t>(q)].name; };
+  for (const AmplifierView& v : a.amplifiers) {
+    std::string s;
+    for (const auto& p : v.partitioned)
+      s += fmt::format("{}partitioned current of {} through {} (channel {})", s.empty() ? "" : "; ", name(p.source),
+                       qname(p.constriction), p.channel + 1);
+    for (int q : v.collider_outputs) s += (s.empty() ? "" : "; ") + std::string("output of collider ") + qname(q);
+    if (!v.direct_sources.empty())
+      s += (s.empty() ? "" : "; ") + std::string("DC straight from ") + contact_list(d, v.direct_sources);
+    row(out, "  amplifier " + name(v.contact), s.empty() ? "sees nothing partitioned" : s);
+  }
+  for (const ColliderView& v : a.colliders) {
+    if (!v.fed) {
+      row(out, "  collider " + qname(v.constriction), "no stream arrives");
+      continue;
+    }
+    auto feed = [&](int q, int c, const std::vector<int>& src, double dil) {
+      return (src.empty() ? std::string("no source") : contact_list(d, src)) +
+             (q >= 0   ? " through " + qname(q)
+              : c >= 0 ? " straight from " + name(c)
+                       : std::string()) +
+             fmt::format(" ({:.3g} % of the hot input)", 100.0 * dil);
+    };
+    row(out, "  collider " + qname(v.constriction),
+        fmt::format("inputs {} and {}; outputs to {} and {}; {}",
+                    feed(v.feed_first, v.contact_first, v.sources_first, v.dilution_first),
+                    feed(v.feed_second, v.contact_second, v.sources_second, v.dilution_second),
+                    v.output_first >= 0 ? name(v.output_first) : "-",
+                    v.output_second >= 0 ? name(v.output_second) : "-",
+                    v.inputs_dilute && v.outputs_measured ? "dilute inputs, both outputs measured" : "NOT as planned"));
+  }
+  for (const SourceView& v : a.sources) {
+    std::string s;
+    for (const auto& r : v.returns)
+      s += fmt::format("{}{} {:.3g} %", s.empty() ? "" : ", ", name(r.first), 100.0 * r.second);
+    row(out, "  source " + name(v.contact), "current returns at " + (s.empty() ? std::string("no contact") : s));
+  }
+}
+
+std::string card_text(const Design& d, const WiringVerdict& v) {
+  std::string out =
+      fmt::format("\nWiring card at B = {:+.4g} T (expected DC values: the transport solution the verdict used)\n",
+                  d.conditions.field_T);
+  out += fmt::format("  {:<8} {:<10} {:<58} {}\n", "contact", "role", "connect", "expected DC");
+  for (const CardRow& r : v.card) {
+    out += fmt::format("  {:<8} {:<10} {:<58} I = {} into the device, V = {}\n",
+                       d.contacts[static_cast<std::size_t>(r.contact)].name, ToString(r.role), r.connect,
+                       FormatSI(r.current_A, "A"), r.voltage_V ? FormatSI(*r.voltage_V, "V") : "undetermined");
+    out += fmt::format("  {:<8} {:<10} {}\n", "", "", r.purpose);
+  }
+  for (const VoltagePair& p : v.voltage_pairs)
+    out += fmt::format("  voltage pair V({}) - V({}): {} voltage, {} at the design field, {} reversed\n",
+                       d.contacts[static_cast<std::size_t>(p.first)].name,
+                       d.contacts[static_cast<std::size_t>(p.second)].name, p.hall ? "Hall" : "longitudinal",
+                       FormatSI(p.voltage_V, "V"), FormatSI(p.reversed_voltage_V, "V"));
+  return out;
+}
+
+}  // namespace
+
+std::string WiringVerdictText(const Design& d, const WiringVerdict& v, const std::string& edges) {
+  std::string out = fmt::format("\nWiring verdict ({}, both field signs)\n", edges);
+  if (!v.assessed) return out + "  not assessed: " + v.not_assessed + "\n";
+  out += "  " + v.summary + "\n";
+  out += fmt::format("  at the design field B = {:+.4g} T\n", d.conditions.field_T);
+  field_views(out, d, v.design);
+  if (!v.problems.empty()) {
+    out += "  problems in the design field\n";
+    problem_lines(out, v.problems);
+  }
+  const std::string label = ReversedFieldLabel(d, v, -d.conditions.field_T);
+  if (!v.reversed.problems.empty()) {
+    out +=
+        fmt::format("  {} (B = {:+.4g} T): {} problem(s)\n", label, -d.conditions.field_T, v.reversed.problems.size());
+    problem_lines(out, v.reversed.problems);
+  }
+  return out + card_text(d, v);
+}
+
+std::string EdgesLabel(const ChannelGeometry& geometry) {
+  return geometry.model == kBareBoundaryModel ? "bare-potential edges, as `check` and `solve --fast`"
+                                              : "self-consistent edges";
+}
+
+nlohmann::json WiringVerdictJson(const Design& d, const WiringVerdict& v) {
+  using nlohmann::json;
+  auto names = [&](const std::vector<int>& cs) {
+    json a = json::array();
+    for (int c : cs) a.push_back(c >= 0 ? json(d.contacts[static_cast<std::size_t>(c)].name) : json(nullptr));
+    return a;
+  };
+  auto qname = [&](int q) { return q >= 0 ? json(d.constrictions[static_cast<std::size_t>(q)].name) : json(nullptr); };
+  auto problems = [&](const std::vector<WiringProblem>& ps) {
+    json a = json::array();
+    for (const WiringProblem& p : ps) {
+      json qs = json::array();
+      for (int q : p.constrictions) qs.push_back(qname(q));
+      a.push_back({{"code", p.code},
+                   {"mistake", p.mistake},
+                   {"contacts", names(p.contacts)},
+                   {"constrictions", qs},
+                   {"message", p.message},
+                   {"fix", p.fix}});
+    }
+    return a;
+  };
+  json j = {{"assessed", v.assessed},
+            {"ok", v.ok},
+            {"reversed_field_ok", v.reversed_field_ok},
+            {"design_field_T", d.conditions.field_T},
+            {"summary", v.summary}};
+  j["not_assessed"] = v.assessed ? json(nullptr) : json(v.not_assessed);
+  j["problems"] = problems(v.problems);
+  j["reversed_field_problems"] = problems(v.reversed.problems);
+  json amps = json::array();
+  for (const AmplifierView& a : v.design.amplifiers) {
+    json parts = json::array();
+    for (const auto& p : a.partitioned)
+      parts.push_back({{"source", d.contacts[static_cast<std::size_t>(p.source)].name},
+                       {"constriction", qname(p.constriction)},
+                       {"channel", p.channel + 1}});
+    json outs = json::array();
+    for (int q : a.collider_outputs) outs.push_back(qname(q));
+    amps.push_back({{"contact", d.contacts[static_cast<std::size_t>(a.contact)].name},
+                    {"partitioned", parts},
+                    {"collider_outputs", outs},
+                    {"direct_sources", names(a.direct_sources)},
+                    {"sees_signal", a.sees_signal()}});
+  }
+  j["amplifiers"] = amps;
+  json cols = json::array();
+  for (const ColliderView& c : v.design.colliders)
+    cols.push_back({{"constriction", qname(c.constriction)},
+                    {"channel", c.channel + 1},
+                    {"fed", c.fed},
+                    {"feeds", {qname(c.feed_first), qname(c.feed_second)}},
+                    {"sources", {names(c.sources_first), names(c.sources_second)}},
+                    {"dilution", {c.dilution_first, c.dilution_second}},
+                    {"outputs", names({c.output_first, c.output_second})},
+                    {"inputs_dilute", c.inputs_dilute},
+                    {"outputs_measured", c.outputs_measured}});
+  j["colliders"] = cols;
+  json srcs = json::array();
+  for (const SourceView& s : v.design.sources) {
+    json ret = json::object();
+    for (const auto& r : s.returns) ret[d.contacts[static_cast<std::size_t>(r.first)].name] = r.second;
+    srcs.push_back({{"contact", d.contacts[static_cast<std::size_t>(s.contact)].name},
+                    {"current_A", s.current_A},
+                    {"returns", ret}});
+  }
+  j["sources"] = srcs;
+  json card = json::array();
+  for (const CardRow& r : v.card) {
+    json x = {{"contact", d.contacts[static_cast<std::size_t>(r.contact)].name},
+              {"role", ToString(r.role)},
+              {"connect", r.connect},
+              {"purpose", r.purpose},
+              {"current_A", r.current_A}};
+    x["voltage_V"] = r.voltage_V ? json(*r.voltage_V) : json(nullptr);
+    if (r.bias) x[r.bias_is_current ? "bias_A" : "bias_V"] = *r.bias;
+    card.push_back(x);
+  }
+  j["card"] = card;
+  json pairs = json::array();
+  for (const VoltagePair& p : v.voltage_pairs)
+    pairs.push_back({{"contacts", names({p.first, p.second})},
+                     {"kind", p.hall ? "hall" : "longitudinal"},
+                     {"voltage_V", p.voltage_V},
+                     {"reversed_voltage_V", p.reversed_voltage_V}});
+  j["voltage_pairs"] = pairs;
+  return j;
+}
+
+namespace {
+
+WiringVerdict bare_verdict(const Design& d, const CheckResult& r) {
+  WiringVerdict v;
+  if (!r.ok()) {
+    v.not_assessed = "the design has errors (see Findings)";
+    return v;
+  }
+  try {
+    return AssessWiring(d, BuildChannelGeometry(d));
+  } catch (const std::runtime_error& e) {
+    v.not_assessed = std::string("the edges could not be traced: ") + e.what();
+    return v;
+  }
 }
 
 }  // namespace
@@ -259,10 +471,11 @@ int RunCheck(const CheckArgs& args) {
   Design d;
   if (int code = 0; !LoadOrReport(args.design_path, &d, &code)) return code;
   const CheckResult r = CheckDesign(d);
-  std::cout << render_text(d, r);
+  const WiringVerdict v = bare_verdict(d, r);
+  std::cout << render_text(d, r, &v);
   if (!args.json_path.empty()) {
     try {
-      WriteFileAtomically(args.json_path, render_json(d, r), {args.design_path});
+      WriteFileAtomically(args.json_path, render_json(d, r, &v), {args.design_path});
     } catch (const OutputError& e) {
       std::cerr << "hallway: output error: " << e.what() << "\n";
       return kExitOutputError;
@@ -273,7 +486,7 @@ int RunCheck(const CheckArgs& args) {
 }
 
 std::string CheckJsonText(const Design& d, const CheckResult& r) {
-  return render_json(d, r);
+  return render_json(d, r, nullptr);
 }
 
 }  // namespace hallway::cli

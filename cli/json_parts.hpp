@@ -9,6 +9,7 @@
 #include "hallway/noise.hpp"
 #include "hallway/paths.hpp"
 #include "hallway/transport.hpp"
+#include "hallway/wiring.hpp"
 
 namespace hallway::cli {
 
@@ -20,5 +21,12 @@ std::string CheckJsonText(const Design& design, const CheckResult& check);
 nlohmann::json TransportJson(const Design& design, const EdgeNetwork& network, const TransportResult& transport);
 // The body of `hallway noise --json`.
 nlohmann::json NoiseJson(const Design& design, const NoiseResult& noise);
+// The wiring verdict (hallway/wiring.hpp): `wiring_verdict` of check, solve, noise and report --json.
+nlohmann::json WiringVerdictJson(const Design& design, const WiringVerdict& verdict);
+// The same as text: the one-line verdict, what each amplifier, collider and source does, the problems
+// with their fixes, then the wiring card. `edges` says which edge model the verdict was computed on.
+std::string WiringVerdictText(const Design& design, const WiringVerdict& verdict, const std::string& edges);
+// "bare-potential edges, as `check`" or "self-consistent edges": which edges a verdict was computed on.
+std::string EdgesLabel(const ChannelGeometry& geometry);
 
 }  // namespace hallway::cli

@@ -14,6 +14,7 @@
 #include "hallway/noise.hpp"
 #include "hallway/transport.hpp"
 #include "hallway/units.hpp"
+#include "hallway/wiring.hpp"
 #include "json_parts.hpp"
 #include "output.hpp"
 #include "progress.hpp"
@@ -259,6 +260,53 @@ json noise_json(const Design& d, const NoiseResult& n) {
   return j;
 }
 
+// The bias sweep as CSV: one row per point with the biases, the contact currents, the amplifiers'
+// excess noise and each collider's P.
+std::string sweep_csv(const Design& d, const EdgeNetwork& net, const NoiseOptions& opt, const Sweep& sweep,
+                      const NoiseResult& n, bool quiet) {
+  std::string csv;
+  std::vector<int> amps;
+  for (std::size_t i = 0; i < d.wiring.size(); ++i)
+    if (d.wiring[i].role == Role::kAmplifier) amps.push_back(static_cast<int>(i));
+  csv = "point";
+  for (int c : sweep.contacts)
+    csv += fmt::format(",bias_{}_{}", d.contacts[static_cast<std::size_t>(c)].name,
+                       d.wiring[static_cast<std::size_t>(c)].bias_is_current ? "A" : "V");
+  for (const Contact& c : d.contacts) csv += ",I_" + c.name + "_A";
+  for (std::size_t a = 0; a < amps.size(); ++a)
+    for (std::size_t b = a; b < amps.size(); ++b)
+      csv += fmt::format(",S_exc_{}_{}_A2_per_Hz", d.contacts[static_cast<std::size_t>(amps[a])].name,
+                         d.contacts[static_cast<std::size_t>(amps[b])].name);
+  for (const ColliderPrediction& c : n.colliders)
+    csv += ",P_" + d.constrictions[static_cast<std::size_t>(c.constriction)].name;
+  csv += "\n";
+  const Progress progress("noise sweep", sweep.points, quiet);
+  for (int k = 0; k < sweep.points; ++k) {
+    progress.Step(k, "bias point");
+    const double x = sweep.points == 1 ? sweep.from : sweep.from + (sweep.to - sweep.from) * k / (sweep.points - 1);
+    Design dk = d;
+    for (std::size_t s = 0; s < sweep.contacts.size(); ++s)
+      dk.wiring[static_cast<std::size_t>(sweep.contacts[s])].bias = x * sweep.ratio[s];
+    const TransportResult tk = SolveTransport(dk, net);
+    const NoiseResult nk = SolveNoise(dk, net, tk, opt);
+    std::string row = std::to_string(k);
+    for (std::size_t s = 0; s < sweep.contacts.size(); ++s) row += fmt::format(",{:.9g}", x * sweep.ratio[s]);
+    for (double i : tk.current_A) row += fmt::format(",{:.9g}", i);
+    for (std::size_t a = 0; a < amps.size(); ++a)
+      for (std::size_t b = a; b < amps.size(); ++b)
+        row += fmt::format(",{:.9g}",
+                           nk.excess_A2_per_Hz[static_cast<std::size_t>(amps[a])][static_cast<std::size_t>(amps[b])]);
+    for (const ColliderPrediction& c : n.colliders) {
+      std::string p;
+      for (const ColliderPrediction& ck : nk.colliders)
+        if (ck.constriction == c.constriction && ck.fano) p = fmt::format("{:.9g}", *ck.fano);
+      row += "," + p;
+    }
+    csv += row + "\n";
+  }
+  return csv;
+}
+
 }  // namespace
 
 int RunNoise(const NoiseArgs& args) {
@@ -332,10 +380,15 @@ int RunNoise(const NoiseArgs& args) {
   out += fmt::format("  checks: |s^+ s - 1| = {:.1e}; equilibrium noise against 2kT(G + G^T): {:.1e} relative\n",
                      n.unitarity_error, n.equilibrium_identity_error);
   out += print_noise(d, n);
+  const WiringVerdict verdict = AssessWiring(d, geometry);
+  out += WiringVerdictText(d, verdict, EdgesLabel(geometry));
   std::vector<std::string> warnings;
-  for (const std::vector<Finding>* list : std::initializer_list<const std::vector<Finding>*>{
-           &check.findings, &geometry.findings, &net.findings, &tr.findings, &n.findings})
-    for (const Finding& f : *list) warnings.push_back(f.message);
+  for (const Finding& f : check.findings) warnings.push_back(f.message);
+  for (const Finding& f : geometry.findings) warnings.push_back(f.message);
+  const std::string label = ReversedFieldLabel(d, verdict, field);
+  for (const std::vector<Finding>* list :
+       std::initializer_list<const std::vector<Finding>*>{&net.findings, &tr.findings, &n.findings})
+    for (const Finding& f : *list) warnings.push_back((label.empty() ? "" : "[" + label + "] ") + f.message);
   if (!warnings.empty()) {
     out += "\nWarnings\n";
     for (const auto& w : warnings) out += "  - " + w + "\n";
@@ -344,46 +397,8 @@ int RunNoise(const NoiseArgs& args) {
   // Bias sweep.
   std::string csv;
   if (!sweep.contacts.empty()) {
-    std::vector<int> amps;
-    for (std::size_t i = 0; i < d.wiring.size(); ++i)
-      if (d.wiring[i].role == Role::kAmplifier) amps.push_back(static_cast<int>(i));
-    csv = "point";
-    for (int c : sweep.contacts)
-      csv += fmt::format(",bias_{}_{}", d.contacts[static_cast<std::size_t>(c)].name,
-                         d.wiring[static_cast<std::size_t>(c)].bias_is_current ? "A" : "V");
-    for (const Contact& c : d.contacts) csv += ",I_" + c.name + "_A";
-    for (std::size_t a = 0; a < amps.size(); ++a)
-      for (std::size_t b = a; b < amps.size(); ++b)
-        csv += fmt::format(",S_exc_{}_{}_A2_per_Hz", d.contacts[static_cast<std::size_t>(amps[a])].name,
-                           d.contacts[static_cast<std::size_t>(amps[b])].name);
-    for (const ColliderPrediction& c : n.colliders)
-      csv += ",P_" + d.constrictions[static_cast<std::size_t>(c.constriction)].name;
-    csv += "\n";
+    csv = sweep_csv(d, net, opt, sweep, n, args.quiet);
     out += fmt::format("\nSweep of {} point(s)\n", sweep.points);
-    const Progress progress("noise sweep", sweep.points, args.quiet);
-    for (int k = 0; k < sweep.points; ++k) {
-      progress.Step(k, "bias point");
-      const double x = sweep.points == 1 ? sweep.from : sweep.from + (sweep.to - sweep.from) * k / (sweep.points - 1);
-      Design dk = d;
-      for (std::size_t s = 0; s < sweep.contacts.size(); ++s)
-        dk.wiring[static_cast<std::size_t>(sweep.contacts[s])].bias = x * sweep.ratio[s];
-      const TransportResult tk = SolveTransport(dk, net);
-      const NoiseResult nk = SolveNoise(dk, net, tk, opt);
-      std::string row = std::to_string(k);
-      for (std::size_t s = 0; s < sweep.contacts.size(); ++s) row += fmt::format(",{:.9g}", x * sweep.ratio[s]);
-      for (double i : tk.current_A) row += fmt::format(",{:.9g}", i);
-      for (std::size_t a = 0; a < amps.size(); ++a)
-        for (std::size_t b = a; b < amps.size(); ++b)
-          row += fmt::format(",{:.9g}",
-                             nk.excess_A2_per_Hz[static_cast<std::size_t>(amps[a])][static_cast<std::size_t>(amps[b])]);
-      for (const ColliderPrediction& c : n.colliders) {
-        std::string p;
-        for (const ColliderPrediction& ck : nk.colliders)
-          if (ck.constriction == c.constriction && ck.fano) p = fmt::format("{:.9g}", *ck.fano);
-        row += "," + p;
-      }
-      csv += row + "\n";
-    }
     out += args.csv_path.empty() ? csv : "  written to " + args.csv_path + "\n";
   }
   out += kSafetyCaution;
@@ -398,6 +413,7 @@ int RunNoise(const NoiseArgs& args) {
   json w = json::array();
   for (const auto& s : warnings) w.push_back(s);
   j["warnings"] = w;
+  j["wiring_verdict"] = WiringVerdictJson(d, verdict);
   if (!RequireFiniteJson(j, "the noise results")) return kExitInternal;
   std::cout << out;
 

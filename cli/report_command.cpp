@@ -19,6 +19,7 @@
 #include "hallway/paths.hpp"
 #include "hallway/transport.hpp"
 #include "hallway/units.hpp"
+#include "hallway/wiring.hpp"
 #include "json_parts.hpp"
 #include "output.hpp"
 #include "progress.hpp"
@@ -75,6 +76,14 @@ std::string img(const fs::path& png, const std::string& caption) {
          "\"><figcaption>" + html_escape(caption) + "</figcaption></figure>\n";
 }
 
+// A CSV field, quoted when it holds a comma, a quote or a line break (RFC 4180).
+std::string csv_field(const std::string& x) {
+  if (x.find_first_of(",\"\n") == std::string::npos) return x;
+  std::string o = "\"";
+  for (char c : x) o += c == '"' ? std::string("\"\"") : std::string(1, c);
+  return o + "\"";
+}
+
 struct Table {
   std::vector<std::string> head;
   std::vector<std::vector<std::string>> rows;
@@ -92,7 +101,7 @@ struct Table {
   std::string csv() const {
     std::string o;
     auto line = [&](const std::vector<std::string>& v) {
-      for (std::size_t i = 0; i < v.size(); ++i) o += (i ? "," : "") + v[i];
+      for (std::size_t i = 0; i < v.size(); ++i) o += (i ? "," : "") + csv_field(v[i]);
       o += "\n";
     };
     line(head);
@@ -151,75 +160,65 @@ std::string sci(double x) {
   return fmt::format("{:.4e}", x);
 }
 
-}  // namespace
+// The wiring card as a table (report page and wiring_card.csv): the same rows as `hallway check`.
+Table card_table(const Design& d, const WiringVerdict& v) {
+  Table t{
+      {"contact", "role", "connect", "bias", "expected DC current into the device", "expected DC potential", "purpose"},
+      {}};
+  for (const CardRow& r : v.card)
+    t.rows.push_back({d.contacts[static_cast<std::size_t>(r.contact)].name, ToString(r.role), r.connect,
+                      r.bias ? FormatSI(*r.bias, r.bias_is_current ? "A" : "V") : std::string("-"),
+                      FormatSI(r.current_A, "A"), r.voltage_V ? FormatSI(*r.voltage_V, "V") : "undetermined",
+                      r.purpose});
+  for (const VoltagePair& p : v.voltage_pairs)
+    t.rows.push_back({"V(" + d.contacts[static_cast<std::size_t>(p.first)].name + ") - V(" +
+                          d.contacts[static_cast<std::size_t>(p.second)].name + ")",
+                      "voltage pair", "voltmeter between the two", "-", "-", FormatSI(p.voltage_V, "V"),
+                      std::string(p.hall ? "Hall" : "longitudinal") + " voltage; " +
+                          FormatSI(p.reversed_voltage_V, "V") + " with the field reversed"});
+  return t;
+}
 
-int RunReport(const ReportArgs& args) {
-  std::size_t max_memory = 0;
-  if (int code = 0; !ParseMaxMemory(args.max_memory, &max_memory, &code)) return code;
-  Design d;
-  if (int code = 0; !LoadOrReport(args.design_path, &d, &code)) return code;
-  const CheckResult check = CheckDesign(d);
-  if (ReportErrors(check.findings) > 0) {
-    std::cerr << "hallway: run `hallway check` for the full list; no report was written\n";
-    return kExitDesignError;
-  }
-  // The report is built in a hidden sibling folder and renamed into place when complete, so the
-  // folder named by -o is a whole report or is left as it was.
-  fs::path final_dir = fs::absolute(args.out_dir).lexically_normal();
-  if (final_dir.filename().empty()) final_dir = final_dir.parent_path();
-  if (const std::string why = report_folder_refusal(final_dir); !why.empty()) {
-    std::cerr << "hallway: output error: " << why << "; nothing was written\n";
-    return kExitOutputError;
-  }
-  std::error_code ec;
-  fs::create_directories(final_dir.parent_path(), ec);
-  const fs::path dir =
-      final_dir.parent_path() / ("." + final_dir.filename().string() + ".hallway-tmp-" + std::to_string(::getpid()));
-  fs::remove_all(dir, ec);
-  RegisterTemporary(dir.string(), true);
-  struct Discard {
-    fs::path dir;
-    bool keep = false;
-    ~Discard() {
-      if (keep) return;
-      std::error_code e;
-      fs::remove_all(dir, e);
-      UnregisterTemporary(dir.string());
-    }
-  } discard{dir};
-  if (!fs::create_directory(dir, ec) || ec) {
-    std::cerr << "hallway: output error: cannot create the folder " << dir.string()
-              << (ec ? ": " + ec.message() : std::string()) << "\n";
-    return kExitOutputError;
-  }
-  const Progress progress("report", 7, args.quiet);
+std::string verdict_html(const Design& d, const WiringVerdict& v) {
+  std::string h = "<h2 id=\"wiring\">Wiring verdict and wiring card</h2>\n";
+  if (!v.assessed) return h + "<p>Not assessed: " + html_escape(v.not_assessed) + "</p>\n";
+  h += "<p><b>" + html_escape(v.summary) + "</b></p>\n";
+  auto list = [&](const std::vector<WiringProblem>& ps) {
+    std::string o = "<ul>\n";
+    for (const WiringProblem& p : ps)
+      o += "<li>" + html_escape(p.message) + " [" + html_escape(p.code) + "]. What to change: " + html_escape(p.fix) +
+           "</li>\n";
+    return o + "</ul>\n";
+  };
+  if (!v.problems.empty()) h += "<p>Problems in the design field:</p>\n" + list(v.problems);
+  if (!v.reversed.problems.empty())
+    h += "<p>" + html_escape(ReversedFieldLabel(d, v, -d.conditions.field_T)) +
+         " (B = " + fmt::format("{:+.4g} T", -d.conditions.field_T) + "):</p>\n" + list(v.reversed.problems);
+  return h + "<p>Wiring card at the design field (the currents are those of the table above):</p>\n" +
+         card_table(d, v).html();
+}
 
-  progress.Step(0, "electrostatics");
-  ChannelGeometry geometry;
-  std::string es_note;
-  DensityMap map;
-  if (int code = 0; !BuildGeometry(d, args.fast, &geometry, &es_note, &code, &map, max_memory)) return code;
-  progress.Step(1, "edge network, both field directions");
-  const double b = d.conditions.field_T;
-  const EdgeNetwork plus = TraceEdges(d, geometry, b), minus = TraceEdges(d, geometry, -b);
-  if (ReportErrors(plus.findings) + ReportErrors(minus.findings) > 0) return kExitDesignError;
-  const TransportResult tp = SolveTransport(d, plus), tm = SolveTransport(d, minus);
-  if (ReportErrors(tp.findings) + ReportErrors(tm.findings) > 0) return kExitDesignError;
-  progress.Step(2, "noise");
-  const NoiseResult noise = SolveNoise(d, plus, tp);
-  progress.Step(3, "paths and constriction models");
-  PathOptions po;
-  po.max_memory_bytes = max_memory;
-  PathResult paths = ComputePaths(d, plus, tp, args.fast ? nullptr : &map, po);
-  ComputeConstrictionModels(d, po, &paths);
-
-  progress.Step(4, "bias sweep");
+// Everything a report is made of, computed once by RunReport.
+struct ReportData {
+  const Design& d;
+  const CheckResult& check;
+  const ChannelGeometry& geometry;
+  const DensityMap& map;
+  bool fast = false;
+  const EdgeNetwork &plus, &minus;
+  const TransportResult &tp, &tm;
+  const NoiseResult& noise;
+  const PathResult& paths;
+  const WiringVerdict& verdict;
   std::vector<int> sources, amps;
-  for (std::size_t i = 0; i < d.wiring.size(); ++i) {
-    if (d.wiring[i].role == Role::kSource) sources.push_back(static_cast<int>(i));
-    if (d.wiring[i].role == Role::kAmplifier) amps.push_back(static_cast<int>(i));
-  }
-  std::vector<figures::Series> current_series, noise_series;
+};
+
+// Currents and excess noise at the amplifiers with every source bias scaled from 0 to 2.
+void bias_sweep(const ReportData& r, std::vector<figures::Series>* current, std::vector<figures::Series>* noise_out) {
+  const Design& d = r.d;
+  const EdgeNetwork& plus = r.plus;
+  const std::vector<int>& sources = r.sources;
+  const std::vector<int>& amps = r.amps;
   std::vector<double> scale;
   for (int k = 0; k <= 10; ++k) scale.push_back(0.2 * k);
   for (int a : amps) {
@@ -237,82 +236,95 @@ int RunReport(const ReportArgs& args) {
       sn.x.push_back(s);
       sn.y.push_back(nk.excess_A2_per_Hz[static_cast<std::size_t>(a)][static_cast<std::size_t>(a)] * 1e30);
     }
-    current_series.push_back(si);
-    noise_series.push_back(sn);
+    current->push_back(si);
+    noise_out->push_back(sn);
   }
+}
 
-  // Nothing is drawn or written from a result that holds NaN or infinity.
-  if (!RequireFiniteJson(TransportJson(d, plus, tp), "the transport results for +B") ||
-      !RequireFiniteJson(TransportJson(d, minus, tm), "the transport results for -B") ||
-      !RequireFiniteJson(NoiseJson(d, noise), "the noise results") ||
-      !RequireFiniteJson(PathsJson(d, plus, paths), "the path metrics and constriction models"))
-    return kExitInternal;
-  progress.Step(5, "figures");
+// Draws every figure into `dir`; returns the pictures for the page with their captions. Throws on failure.
+std::vector<std::pair<fs::path, std::string>> draw_figures(const ReportData& r, const fs::path& dir,
+                                                           const std::vector<figures::Series>& current_series,
+                                                           const std::vector<figures::Series>& noise_series) {
   std::vector<std::pair<fs::path, std::string>> pictures;
-  try {
-    for (auto f : {figures::Format::kPng, figures::Format::kSvg, figures::Format::kPdf}) {
-      figures::DrawLayout(d, plus, (dir / ("layout_field_plus." + figures::ToString(f))).string(), f,
-                          "edges at the design field");
-      figures::DrawLayout(d, minus, (dir / ("layout_field_minus." + figures::ToString(f))).string(), f,
-                          "edges with the field reversed");
-    }
-    pictures.push_back(
-        {dir / "layout_field_plus.png", "Layout and edge channels at the design field (arrows: electron travel)"});
-    pictures.push_back({dir / "layout_field_minus.png", "Layout and edge channels with the field reversed"});
-    if (!args.fast) {
-      figures::DrawDensity(d, map, (dir / "density.png").string(), figures::Format::kPng);
-      figures::DrawDensity(d, map, (dir / "density.svg").string(), figures::Format::kSvg);
-      pictures.push_back({dir / "density.png", "Local filling factor of the self-consistent density"});
-    }
-    for (const ConstrictionModel& c : paths.constrictions) {
-      std::vector<figures::Series> ss;
-      for (std::size_t ch = 0; ch < d.channels.size(); ++ch) {
-        if (!d.channels[ch].conductance.is_integer()) continue;
-        figures::Series s{"channel " + std::to_string(ch + 1), {}, {}};
-        for (const auto& pt : c.curve) {
-          s.x.push_back(pt.voltage_V);
-          s.y.push_back(pt.transmission.empty() ? std::nan("") : pt.transmission[ch]);
-        }
-        ss.push_back(s);
-      }
-      if (ss.empty()) continue;
-      const std::string name = d.constrictions[static_cast<std::size_t>(c.constriction)].name;
-      const fs::path p = dir / ("transmission_" + name + ".png");
-      figures::DrawPlot(ss, "gate voltage of both sides (V)", "transmission",
-                        "constriction " + name + ": saddle-point model", p.string(), figures::Format::kPng);
-      pictures.push_back({p, "Transmission of each channel of " + name + " against its gate voltage"});
-    }
-    if (!amps.empty() && !sources.empty()) {
-      figures::DrawPlot(current_series, "bias / design bias", "current into the device (pA)",
-                        "currents at the amplifier contacts", (dir / "current_vs_bias.png").string(),
-                        figures::Format::kPng);
-      figures::DrawPlot(noise_series, "bias / design bias", "excess noise (1e-30 A^2/Hz)",
-                        "excess current noise at the amplifiers", (dir / "noise_vs_bias.png").string(),
-                        figures::Format::kPng);
-      pictures.push_back({dir / "current_vs_bias.png", "Currents at the amplifier contacts against the source bias"});
-      pictures.push_back({dir / "noise_vs_bias.png", "Excess noise at the amplifier contacts against the source bias"});
-    }
-    for (const ColliderPrediction& c : noise.colliders) {
-      if (!(c.exchange_pi > 0 && c.exchange_pi < 0.5 && c.scaling > 0 && c.scaling < 0.5)) continue;
-      figures::Series s{"P(I-/I+)", {}, {}};
-      for (int k = 0; k <= 38; ++k) {
-        const double x = -0.95 + 0.05 * k;
-        s.x.push_back(x);
-        s.y.push_back(ColliderFano(x, c.exchange_pi * std::numbers::pi, c.scaling));
-      }
-      const std::string name = d.constrictions[static_cast<std::size_t>(c.constriction)].name;
-      const fs::path p = dir / ("collider_" + name + ".png");
-      figures::DrawPlot({s}, "I- / I+", "generalized Fano factor P",
-                        "collider " + name + " (Rosenow, Levkivskyi & Halperin 2016)", p.string(),
-                        figures::Format::kPng);
-      pictures.push_back({p, "Collider " + name + ": P against the imbalance of the two streams"});
-    }
-  } catch (const std::exception& e) {
-    std::cerr << "hallway: output error: " << e.what() << "\n";
-    return kExitOutputError;
+  const Design& d = r.d;
+  const EdgeNetwork& plus = r.plus;
+  const EdgeNetwork& minus = r.minus;
+  const NoiseResult& noise = r.noise;
+  const PathResult& paths = r.paths;
+  const DensityMap& map = r.map;
+  const std::vector<int>& sources = r.sources;
+  const std::vector<int>& amps = r.amps;
+  for (auto f : {figures::Format::kPng, figures::Format::kSvg, figures::Format::kPdf}) {
+    figures::DrawLayout(d, plus, (dir / ("layout_field_plus." + figures::ToString(f))).string(), f,
+                        "edges at the design field");
+    figures::DrawLayout(d, minus, (dir / ("layout_field_minus." + figures::ToString(f))).string(), f,
+                        "edges with the field reversed");
   }
+  pictures.push_back(
+      {dir / "layout_field_plus.png", "Layout and edge channels at the design field (arrows: electron travel)"});
+  pictures.push_back({dir / "layout_field_minus.png", "Layout and edge channels with the field reversed"});
+  if (!r.fast) {
+    figures::DrawDensity(d, map, (dir / "density.png").string(), figures::Format::kPng);
+    figures::DrawDensity(d, map, (dir / "density.svg").string(), figures::Format::kSvg);
+    pictures.push_back({dir / "density.png", "Local filling factor of the self-consistent density"});
+  }
+  for (const ConstrictionModel& c : paths.constrictions) {
+    std::vector<figures::Series> ss;
+    for (std::size_t ch = 0; ch < d.channels.size(); ++ch) {
+      if (!d.channels[ch].conductance.is_integer()) continue;
+      figures::Series s{"channel " + std::to_string(ch + 1), {}, {}};
+      for (const auto& pt : c.curve) {
+        s.x.push_back(pt.voltage_V);
+        s.y.push_back(pt.transmission.empty() ? std::nan("") : pt.transmission[ch]);
+      }
+      ss.push_back(s);
+    }
+    if (ss.empty()) continue;
+    const std::string name = d.constrictions[static_cast<std::size_t>(c.constriction)].name;
+    const fs::path p = dir / ("transmission_" + name + ".png");
+    figures::DrawPlot(ss, "gate voltage of both sides (V)", "transmission",
+                      "constriction " + name + ": saddle-point model", p.string(), figures::Format::kPng);
+    pictures.push_back({p, "Transmission of each channel of " + name + " against its gate voltage"});
+  }
+  if (!amps.empty() && !sources.empty()) {
+    figures::DrawPlot(current_series, "bias / design bias", "current into the device (pA)",
+                      "currents at the amplifier contacts", (dir / "current_vs_bias.png").string(),
+                      figures::Format::kPng);
+    figures::DrawPlot(noise_series, "bias / design bias", "excess noise (1e-30 A^2/Hz)",
+                      "excess current noise at the amplifiers", (dir / "noise_vs_bias.png").string(),
+                      figures::Format::kPng);
+    pictures.push_back({dir / "current_vs_bias.png", "Currents at the amplifier contacts against the source bias"});
+    pictures.push_back({dir / "noise_vs_bias.png", "Excess noise at the amplifier contacts against the source bias"});
+  }
+  for (const ColliderPrediction& c : noise.colliders) {
+    if (!(c.exchange_pi > 0 && c.exchange_pi < 0.5 && c.scaling > 0 && c.scaling < 0.5)) continue;
+    figures::Series s{"P(I-/I+)", {}, {}};
+    for (int k = 0; k <= 38; ++k) {
+      const double x = -0.95 + 0.05 * k;
+      s.x.push_back(x);
+      s.y.push_back(ColliderFano(x, c.exchange_pi * std::numbers::pi, c.scaling));
+    }
+    const std::string name = d.constrictions[static_cast<std::size_t>(c.constriction)].name;
+    const fs::path p = dir / ("collider_" + name + ".png");
+    figures::DrawPlot({s}, "I- / I+", "generalized Fano factor P",
+                      "collider " + name + " (Rosenow, Levkivskyi & Halperin 2016)", p.string(), figures::Format::kPng);
+    pictures.push_back({p, "Collider " + name + ": P against the imbalance of the two streams"});
+  }
+  return pictures;
+}
 
-  progress.Step(6, "tables and page");
+struct Tables {
+  Table gt, ct, nt, at, ft, kt, pt, rt;
+};
+
+Tables make_tables(const ReportData& r) {
+  const Design& d = r.d;
+  const EdgeNetwork& plus = r.plus;
+  const TransportResult& tp = r.tp;
+  const TransportResult& tm = r.tm;
+  const NoiseResult& noise = r.noise;
+  const PathResult& paths = r.paths;
+  const CheckResult& check = r.check;
   // Tables.
   Table gt{{"G (e^2/h)"}, {}};
   for (const Contact& c : d.contacts) gt.head.push_back(c.name);
@@ -391,15 +403,43 @@ int RunReport(const ReportArgs& args) {
     }
     rt.rows.push_back({d.contacts[static_cast<std::size_t>(r.source)].name, std::to_string(r.channel + 1), reach});
   }
+  return {gt, ct, nt, at, ft, kt, pt, rt};
+}
+
+std::vector<std::string> report_warnings(const ReportData& r) {
+  const Design& d = r.d;
+  const EdgeNetwork& plus = r.plus;
+  const TransportResult& tp = r.tp;
+  const TransportResult& tm = r.tm;
+  const NoiseResult& noise = r.noise;
+  const PathResult& paths = r.paths;
+  const CheckResult& check = r.check;
+  const ChannelGeometry& geometry = r.geometry;
+  const double b = r.d.conditions.field_T;
+  const WiringVerdict& verdict = r.verdict;
   std::vector<std::string> warnings;
   for (const auto* list : std::initializer_list<const std::vector<Finding>*>{
            &check.findings, &geometry.findings, &plus.findings, &tp.findings, &noise.findings, &paths.findings})
     for (const Finding& x : *list) warnings.push_back("[+B] " + x.message);
-  for (const Finding& x : tm.findings) warnings.push_back("[-B] " + x.message);
+  for (const Finding& x : tm.findings)
+    warnings.push_back("[-B, " + ReversedFieldLabel(d, verdict, -b) + "] " + x.message);
   for (const ConstrictionModel& c : paths.constrictions)
     for (const auto& w : c.warnings)
       warnings.push_back(d.constrictions[static_cast<std::size_t>(c.constriction)].name + ": " + w);
 
+  return warnings;
+}
+
+std::string page_html(const ReportData& r, const Tables& t,
+                      const std::vector<std::pair<fs::path, std::string>>& pictures,
+                      const std::vector<std::string>& warnings) {
+  const Design& d = r.d;
+  const NoiseResult& noise = r.noise;
+  const CheckResult& check = r.check;
+  const ChannelGeometry& geometry = r.geometry;
+  const double b = r.d.conditions.field_T;
+  const WiringVerdict& verdict = r.verdict;
+  const Table &gt = t.gt, &ct = t.ct, &nt = t.nt, &at = t.at, &ft = t.ft, &kt = t.kt, &pt = t.pt, &rt = t.rt;
   std::string h =
       "<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n<title>hallway report: " +
       html_escape(d.name) +
@@ -420,6 +460,7 @@ int RunReport(const ReportArgs& args) {
   h += "<h2 id=\"conductance\">Conductance matrix at the design field</h2>\n" + gt.html();
   h += "<h2 id=\"currents\">Currents and voltages</h2>\n" + ct.html();
   h += "<h2 id=\"routes\">Routes</h2>\n" + rt.html();
+  h += verdict_html(d, verdict);
   h += "<h2 id=\"noise\">Noise and signal-to-noise</h2>\n" + nt.html() + at.html();
   for (const ColliderPrediction& c : noise.colliders)
     h += "<p>Collider " + html_escape(d.constrictions[static_cast<std::size_t>(c.constriction)].name) +
@@ -442,6 +483,19 @@ int RunReport(const ReportArgs& args) {
        "magnets.</p>\n"
        "</body>\n</html>\n";
 
+  return h;
+}
+
+json result_json(const ReportData& r, const std::vector<std::string>& warnings) {
+  const Design& d = r.d;
+  const EdgeNetwork& plus = r.plus;
+  const EdgeNetwork& minus = r.minus;
+  const TransportResult& tp = r.tp;
+  const TransportResult& tm = r.tm;
+  const NoiseResult& noise = r.noise;
+  const PathResult& paths = r.paths;
+  const CheckResult& check = r.check;
+  const WiringVerdict& verdict = r.verdict;
   json result;
   result["hallway_report"] = 1;
   result["design"] = d.path;
@@ -452,12 +506,109 @@ int RunReport(const ReportArgs& args) {
   const json pj = PathsJson(d, plus, paths);
   for (const char* key : {"paths", "loops", "constriction_models", "source_paths", "floating_contacts"})
     result[key] = pj[key];
+  result["wiring_verdict"] = WiringVerdictJson(d, verdict);
   result["warnings"] = warnings;
+  return result;
+}
+
+}  // namespace
+
+int RunReport(const ReportArgs& args) {
+  std::size_t max_memory = 0;
+  if (int code = 0; !ParseMaxMemory(args.max_memory, &max_memory, &code)) return code;
+  Design d;
+  if (int code = 0; !LoadOrReport(args.design_path, &d, &code)) return code;
+  const CheckResult check = CheckDesign(d);
+  if (ReportErrors(check.findings) > 0) {
+    std::cerr << "hallway: run `hallway check` for the full list; no report was written\n";
+    return kExitDesignError;
+  }
+  // The report is built in a hidden sibling folder and renamed into place when complete, so the
+  // folder named by -o is a whole report or is left as it was.
+  fs::path final_dir = fs::absolute(args.out_dir).lexically_normal();
+  if (final_dir.filename().empty()) final_dir = final_dir.parent_path();
+  if (const std::string why = report_folder_refusal(final_dir); !why.empty()) {
+    std::cerr << "hallway: output error: " << why << "; nothing was written\n";
+    return kExitOutputError;
+  }
+  std::error_code ec;
+  fs::create_directories(final_dir.parent_path(), ec);
+  const fs::path dir =
+      final_dir.parent_path() / ("." + final_dir.filename().string() + ".hallway-tmp-" + std::to_string(::getpid()));
+  fs::remove_all(dir, ec);
+  RegisterTemporary(dir.string(), true);
+  struct Discard {
+    fs::path dir;
+    bool keep = false;
+    ~Discard() {
+      if (keep) return;
+      std::error_code e;
+      fs::remove_all(dir, e);
+      UnregisterTemporary(dir.string());
+    }
+  } discard{dir};
+  if (!fs::create_directory(dir, ec) || ec) {
+    std::cerr << "hallway: output error: cannot create the folder " << dir.string()
+              << (ec ? ": " + ec.message() : std::string()) << "\n";
+    return kExitOutputError;
+  }
+  const Progress progress("report", 7, args.quiet);
+
+  progress.Step(0, "electrostatics");
+  ChannelGeometry geometry;
+  std::string es_note;
+  DensityMap map;
+  if (int code = 0; !BuildGeometry(d, args.fast, &geometry, &es_note, &code, &map, max_memory)) return code;
+  progress.Step(1, "edge network, both field directions");
+  const double b = d.conditions.field_T;
+  const EdgeNetwork plus = TraceEdges(d, geometry, b), minus = TraceEdges(d, geometry, -b);
+  if (ReportErrors(plus.findings) + ReportErrors(minus.findings) > 0) return kExitDesignError;
+  const TransportResult tp = SolveTransport(d, plus), tm = SolveTransport(d, minus);
+  if (ReportErrors(tp.findings) + ReportErrors(tm.findings) > 0) return kExitDesignError;
+  const WiringVerdict verdict = AssessWiring(d, plus, tp, minus, tm);
+  progress.Step(2, "noise");
+  const NoiseResult noise = SolveNoise(d, plus, tp);
+  progress.Step(3, "paths and constriction models");
+  PathOptions po;
+  po.max_memory_bytes = max_memory;
+  PathResult paths = ComputePaths(d, plus, tp, args.fast ? nullptr : &map, po);
+  ComputeConstrictionModels(d, po, &paths);
+
+  progress.Step(4, "bias sweep");
+  ReportData r{d, check, geometry, map, args.fast, plus, minus, tp, tm, noise, paths, verdict, {}, {}};
+  for (std::size_t i = 0; i < d.wiring.size(); ++i) {
+    if (d.wiring[i].role == Role::kSource) r.sources.push_back(static_cast<int>(i));
+    if (d.wiring[i].role == Role::kAmplifier) r.amps.push_back(static_cast<int>(i));
+  }
+  std::vector<figures::Series> current_series, noise_series;
+  bias_sweep(r, &current_series, &noise_series);
+
+  // Nothing is drawn or written from a result that holds NaN or infinity.
+  if (!RequireFiniteJson(TransportJson(d, plus, tp), "the transport results for +B") ||
+      !RequireFiniteJson(TransportJson(d, minus, tm), "the transport results for -B") ||
+      !RequireFiniteJson(NoiseJson(d, noise), "the noise results") ||
+      !RequireFiniteJson(PathsJson(d, plus, paths), "the path metrics and constriction models"))
+    return kExitInternal;
+  progress.Step(5, "figures");
+  std::vector<std::pair<fs::path, std::string>> pictures;
   try {
-    WriteFileAtomically((dir / "conductance.csv").string(), gt.csv(), {args.design_path});
-    WriteFileAtomically((dir / "contacts.csv").string(), ct.csv(), {args.design_path});
-    WriteFileAtomically((dir / "noise_excess.csv").string(), nt.csv(), {args.design_path});
-    WriteFileAtomically((dir / "amplifiers.csv").string(), at.csv(), {args.design_path});
+    pictures = draw_figures(r, dir, current_series, noise_series);
+  } catch (const std::exception& e) {
+    std::cerr << "hallway: output error: " << e.what() << "\n";
+    return kExitOutputError;
+  }
+
+  progress.Step(6, "tables and page");
+  const Tables t = make_tables(r);
+  const std::vector<std::string> warnings = report_warnings(r);
+  const std::string h = page_html(r, t, pictures, warnings);
+  const json result = result_json(r, warnings);
+  try {
+    WriteFileAtomically((dir / "conductance.csv").string(), t.gt.csv(), {args.design_path});
+    WriteFileAtomically((dir / "contacts.csv").string(), t.ct.csv(), {args.design_path});
+    WriteFileAtomically((dir / "noise_excess.csv").string(), t.nt.csv(), {args.design_path});
+    WriteFileAtomically((dir / "amplifiers.csv").string(), t.at.csv(), {args.design_path});
+    WriteFileAtomically((dir / "wiring_card.csv").string(), card_table(d, verdict).csv(), {args.design_path});
     WriteFileAtomically((dir / "result.json").string(), result.dump(2) + "\n", {args.design_path});
     WriteFileAtomically((dir / "report.html").string(), h, {args.design_path});
   } catch (const OutputError& e) {

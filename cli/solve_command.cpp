@@ -14,6 +14,7 @@
 #include "hallway/paths.hpp"
 #include "hallway/transport.hpp"
 #include "hallway/units.hpp"
+#include "hallway/wiring.hpp"
 #include "json_parts.hpp"
 #include "output.hpp"
 
@@ -143,6 +144,68 @@ json field_json(const Design& d, const Solved& s) {
   return j;
 }
 
+void print_channels(std::string& out, const Design& d, const ChannelGeometry& geometry) {
+  out += "\nWhere the channels run\n";
+  for (const ChannelRegion& cr : geometry.channels) {
+    std::string refl, pass;
+    for (const auto& n : cr.reflecting) refl += (refl.empty() ? "" : ", ") + n;
+    for (const auto& n : cr.passing) pass += (pass.empty() ? "" : ", ") + n;
+    out += fmt::format("  channel {} ({} e^2/h): reflected by [{}], passes under [{}], area {:.4g} um^2\n",
+                       cr.channel + 1, d.channels[static_cast<std::size_t>(cr.channel)].conductance.ToString(), refl,
+                       pass, cr.region.Area() * 1e12);
+  }
+  for (std::size_t i = 0; i < d.gates.size(); ++i)
+    out += fmt::format("  gate {}: bare lateral depletion estimate {}, local filling under it {:.3g}\n",
+                       d.gates[i].name, FormatSI(geometry.lateral_depletion_m[i], "m"), geometry.local_filling[i]);
+}
+
+void print_changes(std::string& out, const Design& d, const TransportResult& a, const TransportResult& b) {
+  out += "\nWhat changes under B -> -B\n";
+  bool any = false;
+  for (std::size_t i = 0; i < d.contacts.size(); ++i) {
+    const bool dv =
+        a.voltage_V[i].has_value() != b.voltage_V[i].has_value() ||
+        (a.voltage_V[i] && std::abs(*a.voltage_V[i] - *b.voltage_V[i]) > 1e-12 * (1e-6 + std::abs(*a.voltage_V[i])));
+    const bool di = std::abs(a.current_A[i] - b.current_A[i]) > 1e-6 * (1e-15 + std::abs(a.current_A[i]));
+    if (dv || di) {
+      any = true;
+      out += fmt::format("  {}: voltage {} -> {}, current {} -> {}\n", d.contacts[i].name, volt_text(a.voltage_V[i]),
+                         volt_text(b.voltage_V[i]), FormatSI(a.current_A[i], "A"), FormatSI(b.current_A[i], "A"));
+    }
+  }
+  if (!any) out += "  no contact voltage or current changes\n";
+}
+
+void print_four(std::string& out, const std::string& spec, const std::vector<int>& four,
+                const std::vector<Solved>& solved) {
+  out += "\nFour-terminal resistance\n";
+  for (const Solved& s : solved) {
+    try {
+      const double r4 = FourTerminalResistance(s.transport.conductance_S, four[0], four[1], four[2], four[3]);
+      out += fmt::format("  R({}) at B = {}: {} ({:.6f} h/e^2)\n", spec, field_text(s.transport.field_T),
+                         FormatSI(r4, "Ohm"), r4 / constants::kVonKlitzing_Ohm);
+    } catch (const std::runtime_error& e) {
+      out += fmt::format("  R({}) at B = {}: {}\n", spec, field_text(s.transport.field_T), e.what());
+    }
+  }
+}
+
+// Every warning, the reversed field's labelled by what the verdict says about it.
+std::vector<std::string> solve_warnings(const Design& d, const CheckResult& check, const ChannelGeometry& geometry,
+                                        const std::vector<Solved>& solved, const WiringVerdict& verdict) {
+  std::vector<std::string> warnings;
+  for (const Finding& f : geometry.findings) warnings.push_back(f.message);
+  for (const Solved& s : solved) {
+    const std::string label = ReversedFieldLabel(d, verdict, s.transport.field_T);
+    const std::string tag =
+        fmt::format("[B = {}{}]", field_text(s.transport.field_T), label.empty() ? "" : ", " + label);
+    for (const Finding& f : s.network.findings) warnings.push_back(tag + " " + f.message);
+    for (const Finding& f : s.transport.findings) warnings.push_back(tag + " " + f.message);
+  }
+  for (const Finding& f : check.findings) warnings.insert(warnings.begin(), f.message);
+  return warnings;
+}
+
 std::vector<int> parse_four(const Design& d, const std::string& spec, std::string* why) {
   std::vector<int> out;
   std::stringstream ss(spec);
@@ -227,58 +290,15 @@ int RunSolve(const SolveArgs& args) {
                      args.reversed_only ? "solving the reversed field only" : "also solving the reversed field");
   out += fmt::format("  edge boundaries: {}\n", geometry.model);
   out += es_note;
-  out += "\nWhere the channels run\n";
-  for (const ChannelRegion& cr : geometry.channels) {
-    std::string refl, pass;
-    for (const auto& n : cr.reflecting) refl += (refl.empty() ? "" : ", ") + n;
-    for (const auto& n : cr.passing) pass += (pass.empty() ? "" : ", ") + n;
-    out += fmt::format("  channel {} ({} e^2/h): reflected by [{}], passes under [{}], area {:.4g} um^2\n",
-                       cr.channel + 1, d.channels[static_cast<std::size_t>(cr.channel)].conductance.ToString(), refl,
-                       pass, cr.region.Area() * 1e12);
-  }
-  for (std::size_t i = 0; i < d.gates.size(); ++i)
-    out += fmt::format("  gate {}: bare lateral depletion estimate {}, local filling under it {:.3g}\n",
-                       d.gates[i].name, FormatSI(geometry.lateral_depletion_m[i], "m"), geometry.local_filling[i]);
+  print_channels(out, d, geometry);
   for (const Solved& s : solved) print_field(out, d, s);
-  if (solved.size() == 2) {
-    out += "\nWhat changes under B -> -B\n";
-    const auto& a = solved[0].transport;
-    const auto& b = solved[1].transport;
-    bool any = false;
-    for (std::size_t i = 0; i < d.contacts.size(); ++i) {
-      const bool dv =
-          a.voltage_V[i].has_value() != b.voltage_V[i].has_value() ||
-          (a.voltage_V[i] && std::abs(*a.voltage_V[i] - *b.voltage_V[i]) > 1e-12 * (1e-6 + std::abs(*a.voltage_V[i])));
-      const bool di = std::abs(a.current_A[i] - b.current_A[i]) > 1e-6 * (1e-15 + std::abs(a.current_A[i]));
-      if (dv || di) {
-        any = true;
-        out += fmt::format("  {}: voltage {} -> {}, current {} -> {}\n", d.contacts[i].name, volt_text(a.voltage_V[i]),
-                           volt_text(b.voltage_V[i]), FormatSI(a.current_A[i], "A"), FormatSI(b.current_A[i], "A"));
-      }
-    }
-    if (!any) out += "  no contact voltage or current changes\n";
-  }
-  if (!four.empty()) {
-    out += "\nFour-terminal resistance\n";
-    for (const Solved& s : solved) {
-      try {
-        const double r4 = FourTerminalResistance(s.transport.conductance_S, four[0], four[1], four[2], four[3]);
-        out += fmt::format("  R({}) at B = {}: {} ({:.6f} h/e^2)\n", args.four_terminal,
-                           field_text(s.transport.field_T), FormatSI(r4, "Ohm"), r4 / constants::kVonKlitzing_Ohm);
-      } catch (const std::runtime_error& e) {
-        out += fmt::format("  R({}) at B = {}: {}\n", args.four_terminal, field_text(s.transport.field_T), e.what());
-      }
-    }
-  }
-  std::vector<std::string> warnings;
-  for (const Finding& f : geometry.findings) warnings.push_back(f.message);
-  for (const Solved& s : solved) {
-    for (const Finding& f : s.network.findings)
-      warnings.push_back(fmt::format("[B = {}] {}", field_text(s.transport.field_T), f.message));
-    for (const Finding& f : s.transport.findings)
-      warnings.push_back(fmt::format("[B = {}] {}", field_text(s.transport.field_T), f.message));
-  }
-  for (const Finding& f : check.findings) warnings.insert(warnings.begin(), f.message);
+  if (solved.size() == 2) print_changes(out, d, solved[0].transport, solved[1].transport);
+  const WiringVerdict verdict = solved.size() == 2 ? AssessWiring(d, solved[0].network, solved[0].transport,
+                                                                  solved[1].network, solved[1].transport)
+                                                   : AssessWiring(d, geometry);
+  out += WiringVerdictText(d, verdict, EdgesLabel(geometry));
+  if (!four.empty()) print_four(out, args.four_terminal, four, solved);
+  const std::vector<std::string> warnings = solve_warnings(d, check, geometry, solved, verdict);
   if (!warnings.empty()) {
     out += "\nWarnings\n";
     for (const auto& w : warnings) out += "  - " + w + "\n";
@@ -305,6 +325,7 @@ int RunSolve(const SolveArgs& args) {
     for (auto& w : j["warnings"]) gw.push_back(w);
     j["warnings"] = gw;
     if (solved.size() == 2) j["reversed_field"] = field_json(d, solved[1]);
+    j["wiring_verdict"] = WiringVerdictJson(d, verdict);
     // Path metrics and constriction models of the first field solved (hallway paths gives the same).
     PathOptions po;
     po.max_memory_bytes = max_memory;
