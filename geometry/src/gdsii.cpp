@@ -164,17 +164,13 @@ std::vector<Point> path_outline(const std::vector<Point>& v, double w, double b,
   return out;
 }
 
-}  // namespace
-
-GdsFlat ReadGds(const std::string& bytes, const std::string& top, const GdsLimits& limits) {
-  if (bytes.size() > limits.max_file_bytes)
-    throw GdsError(0, "file larger than the limit of " + std::to_string(limits.max_file_bytes >> 20) + " MiB");
-  const auto* base = reinterpret_cast<const unsigned char*>(bytes.data());
-  // A stream file opens with a 6-byte HEADER record (length 6, type HEADER, two-byte integer data).
-  if (bytes.size() < 6 || base[0] != 0 || base[1] != 6 || base[2] != kHeader || base[3] != 2)
-    throw GdsError(0, "not a GDSII stream file (it does not begin with a HEADER record)");
+// The records of a stream file, one after the other.
+struct RecordStream {
+  const std::string& bytes;
+  const unsigned char* base;
   std::size_t pos = 0;
-  auto next = [&]() -> Record {
+
+  Record next() {
     if (pos + 4 > bytes.size()) throw GdsError(pos, "truncated: a record header is cut off");
     Record r;
     r.offset = pos;
@@ -187,38 +183,124 @@ GdsFlat ReadGds(const std::string& bytes, const std::string& top, const GdsLimit
     r.size = len - 4;
     pos += len;
     return r;
-  };
-  auto need = [](const Record& r, std::size_t n) {
-    if (r.size < n) throw GdsError(r.offset, "record too short for its data");
-  };
-  GdsFlat flat;
-  std::map<std::string, Cell> cells;
+  }
+};
+
+void need(const Record& r, std::size_t n) {
+  if (r.size < n) throw GdsError(r.offset, "record too short for its data");
+}
+
+// A string record's text without its NUL padding.
+std::string text_of(const Record& r) {
+  std::string s(reinterpret_cast<const char*>(r.data), r.size);
+  while (!s.empty() && s.back() == '\0') s.pop_back();
+  return s;
+}
+
+// UNITS: the user unit per database unit (unused) and the database unit in metres.
+void read_units(const Record& r, GdsFlat& flat) {
+  need(r, 16);
+  double user_per_db = real8(r.data);
+  flat.database_unit_m = real8(r.data + 8);
+  if (!(flat.database_unit_m > 0 && flat.database_unit_m < 1))
+    throw GdsError(r.offset, "database unit is not a positive length");
+  // Layout tools use 1 nm or 0.1 nm, rarely 1 pm; a unit coarser than 1 um is a corrupt or
+  // mistyped header (common practice). Bounded here so no coordinate is scaled by nonsense.
+  if (!(flat.database_unit_m >= 1e-12 && flat.database_unit_m <= 1e-6)) {
+    char b[160];
+    std::snprintf(b, sizeof b, "database unit %.6g m lies outside 1e-12 m .. 1e-06 m", flat.database_unit_m);
+    throw GdsError(r.offset, b);
+  }
+  (void)user_per_db;
+}
+
+// The data records of an element: layer, types, width, path ends, reference name, text, placement,
+// array size and points. Other records (properties, flags) carry nothing hallway uses.
+void read_element_data(const Record& r, Element& el) {
+  switch (r.type) {
+    case kLayer:
+      need(r, 2);
+      el.layer = i16(r.data);
+      break;
+    case kDatatype:
+    case kTextType:
+    case kBoxType:
+      need(r, 2);
+      el.datatype = i16(r.data);
+      break;
+    case kWidth:
+      need(r, 4);
+      el.width = i32(r.data);
+      break;
+    case kPathType:
+      need(r, 2);
+      el.path_type = i16(r.data);
+      break;
+    case kBgnExtn:
+      need(r, 4);
+      el.ext_begin = i32(r.data);
+      break;
+    case kEndExtn:
+      need(r, 4);
+      el.ext_end = i32(r.data);
+      break;
+    case kSname: el.sname = text_of(r); break;
+    case kString: el.text = text_of(r); break;
+    case kStrans:
+      need(r, 2);
+      el.reflect = r.data[0] & 0x80;
+      break;
+    case kMag:
+      need(r, 8);
+      el.mag = real8(r.data);
+      // A zero, negative or absurd magnification collapses or blows up the placed structure.
+      if (!(el.mag >= 1e-6 && el.mag <= 1e6)) {
+        char b[128];
+        std::snprintf(b, sizeof b, "magnification %.6g lies outside 1e-06 .. 1e+06", el.mag);
+        throw GdsError(r.offset, b);
+      }
+      break;
+    case kAngle:
+      need(r, 8);
+      el.angle = real8(r.data);
+      break;
+    case kColRow:
+      need(r, 4);
+      el.cols = i16(r.data);
+      el.rows = i16(r.data + 2);
+      if (el.cols < 1 || el.rows < 1 || static_cast<long>(el.cols) * el.rows > 1'000'000)
+        throw GdsError(r.offset,
+                       "array size " + std::to_string(el.cols) + " x " + std::to_string(el.rows) + " is not valid");
+      break;
+    case kXy:
+      if (r.size % 8) throw GdsError(r.offset, "XY data is not a list of points");
+      if (r.size / 8 > 8200) throw GdsError(r.offset, "more than 8200 points in one element");
+      for (std::size_t k = 0; k < r.size; k += 8)
+        el.xy.push_back({static_cast<double>(i32(r.data + k)), static_cast<double>(i32(r.data + k + 4))});
+      break;
+    default: break;  // properties, flags and other records carry nothing hallway uses
+  }
+}
+
+// Reads the records up to ENDLIB: the database unit, the structure names in file order, and the
+// elements of every structure.
+void read_library(const std::string& bytes, GdsFlat& flat, std::map<std::string, Cell>& cells) {
+  const auto* base = reinterpret_cast<const unsigned char*>(bytes.data());
+  // A stream file opens with a 6-byte HEADER record (length 6, type HEADER, two-byte integer data).
+  if (bytes.size() < 6 || base[0] != 0 || base[1] != 6 || base[2] != kHeader || base[3] != 2)
+    throw GdsError(0, "not a GDSII stream file (it does not begin with a HEADER record)");
+  RecordStream in{bytes, base};
   Cell* cell = nullptr;
   Element el;
   bool in_element = false, ended = false;
-  double user_per_db = 0.0;
   while (!ended) {
-    if (pos >= bytes.size()) throw GdsError(pos, "truncated: no ENDLIB record");
-    const Record r = next();
+    if (in.pos >= bytes.size()) throw GdsError(in.pos, "truncated: no ENDLIB record");
+    const Record r = in.next();
     switch (r.type) {
       case kHeader:
       case kBgnLib:
       case kLibName: break;
-      case kUnits:
-        need(r, 16);
-        user_per_db = real8(r.data);
-        flat.database_unit_m = real8(r.data + 8);
-        if (!(flat.database_unit_m > 0 && flat.database_unit_m < 1))
-          throw GdsError(r.offset, "database unit is not a positive length");
-        // Layout tools use 1 nm or 0.1 nm, rarely 1 pm; a unit coarser than 1 um is a corrupt or
-        // mistyped header (common practice). Bounded here so no coordinate is scaled by nonsense.
-        if (!(flat.database_unit_m >= 1e-12 && flat.database_unit_m <= 1e-6)) {
-          char b[160];
-          std::snprintf(b, sizeof b, "database unit %.6g m lies outside 1e-12 m .. 1e-06 m", flat.database_unit_m);
-          throw GdsError(r.offset, b);
-        }
-        (void)user_per_db;
-        break;
+      case kUnits: read_units(r, flat); break;
       case kEndLib: ended = true; break;
       case kBgnStr:
         if (cell) throw GdsError(r.offset, "BGNSTR inside a structure");
@@ -228,8 +310,7 @@ GdsFlat ReadGds(const std::string& bytes, const std::string& top, const GdsLimit
         break;
       case kStrName: {
         if (!cell) throw GdsError(r.offset, "STRNAME outside a structure");
-        std::string name(reinterpret_cast<const char*>(r.data), r.size);
-        while (!name.empty() && name.back() == '\0') name.pop_back();
+        const std::string name = text_of(r);
         if (cells.count(name)) throw GdsError(r.offset, "structure '" + name + "' defined twice");
         Cell c = std::move(*cell);
         cells.erase("\x01pending");
@@ -254,86 +335,18 @@ GdsFlat ReadGds(const std::string& bytes, const std::string& top, const GdsLimit
         el.offset = r.offset;
         in_element = true;
         break;
-      case kLayer:
-        need(r, 2);
-        el.layer = i16(r.data);
-        break;
-      case kDatatype:
-      case kTextType:
-      case kBoxType:
-        need(r, 2);
-        el.datatype = i16(r.data);
-        break;
-      case kWidth:
-        need(r, 4);
-        el.width = i32(r.data);
-        break;
-      case kPathType:
-        need(r, 2);
-        el.path_type = i16(r.data);
-        break;
-      case kBgnExtn:
-        need(r, 4);
-        el.ext_begin = i32(r.data);
-        break;
-      case kEndExtn:
-        need(r, 4);
-        el.ext_end = i32(r.data);
-        break;
-      case kSname: {
-        std::string name(reinterpret_cast<const char*>(r.data), r.size);
-        while (!name.empty() && name.back() == '\0') name.pop_back();
-        el.sname = name;
-        break;
-      }
-      case kString: {
-        std::string s(reinterpret_cast<const char*>(r.data), r.size);
-        while (!s.empty() && s.back() == '\0') s.pop_back();
-        el.text = s;
-        break;
-      }
-      case kStrans:
-        need(r, 2);
-        el.reflect = r.data[0] & 0x80;
-        break;
-      case kMag:
-        need(r, 8);
-        el.mag = real8(r.data);
-        // A zero, negative or absurd magnification collapses or blows up the placed structure.
-        if (!(el.mag >= 1e-6 && el.mag <= 1e6)) {
-          char b[128];
-          std::snprintf(b, sizeof b, "magnification %.6g lies outside 1e-06 .. 1e+06", el.mag);
-          throw GdsError(r.offset, b);
-        }
-        break;
-      case kAngle:
-        need(r, 8);
-        el.angle = real8(r.data);
-        break;
-      case kColRow:
-        need(r, 4);
-        el.cols = i16(r.data);
-        el.rows = i16(r.data + 2);
-        if (el.cols < 1 || el.rows < 1 || static_cast<long>(el.cols) * el.rows > 1'000'000)
-          throw GdsError(r.offset,
-                         "array size " + std::to_string(el.cols) + " x " + std::to_string(el.rows) + " is not valid");
-        break;
-      case kXy:
-        if (r.size % 8) throw GdsError(r.offset, "XY data is not a list of points");
-        if (r.size / 8 > 8200) throw GdsError(r.offset, "more than 8200 points in one element");
-        for (std::size_t k = 0; k < r.size; k += 8)
-          el.xy.push_back({static_cast<double>(i32(r.data + k)), static_cast<double>(i32(r.data + k + 4))});
-        break;
       case kEndEl:
         if (!in_element || !cell) throw GdsError(r.offset, "ENDEL out of place");
         cell->elements.push_back(el);
         in_element = false;
         break;
-      default: break;  // properties, flags and other records carry nothing hallway uses
+      default: read_element_data(r, el); break;
     }
   }
-  if (flat.database_unit_m <= 0) throw GdsError(0, "no UNITS record");
-  // Top cell: the given one, or the single structure no other references.
+}
+
+// Top cell: the given one, or the single structure no other references.
+std::string top_cell(const std::string& top, const GdsFlat& flat, const std::map<std::string, Cell>& cells) {
   std::string root = top;
   if (root.empty()) {
     std::set<std::string> referenced;
@@ -348,12 +361,21 @@ GdsFlat ReadGds(const std::string& bytes, const std::string& top, const GdsLimit
     root = tops.front();
   }
   if (!cells.count(root)) throw GdsError(0, "no structure named '" + root + "'");
-  const double u = flat.database_unit_m;
-  // Nested arrays multiply: a few hundred bytes can place a structure 10^12 times. Every placement
-  // and every emitted vertex or label counts against the limits, so that flattening always ends.
+  return root;
+}
+
+// Flattens a structure into polygons and labels in metres. Nested arrays multiply: a few hundred
+// bytes can place a structure 10^12 times. Every placement and every emitted vertex or label counts
+// against the limits, so that flattening always ends.
+struct Flattener {
+  const std::map<std::string, Cell>& cells;
+  const GdsLimits& limits;
+  GdsFlat& flat;
+  double u = 0.0;  // metres per database unit
   std::size_t vertices = 0, placements = 0, label_count = 0, visits = 0;
-  std::vector<std::string> stack;
-  std::function<void(const Cell&, const Transform&, int)> flatten = [&](const Cell& c, const Transform& t, int depth) {
+  std::vector<std::string> stack;  // the structures being flattened, outermost first
+
+  void flatten(const Cell& c, const Transform& t, int depth) {
     if (depth > limits.max_depth)
       throw GdsError(c.offset, "references nested deeper than " + std::to_string(limits.max_depth));
     if (std::find(stack.begin(), stack.end(), c.name) != stack.end())
@@ -363,79 +385,100 @@ GdsFlat ReadGds(const std::string& bytes, const std::string& top, const GdsLimit
       if (++visits > limits.max_element_visits)
         throw GdsError(e.offset, "flattening the layout visits more than " + std::to_string(limits.max_element_visits) +
                                      " elements (arrays of structures that produce nothing still cost work)");
-      auto emit = [&](std::vector<Point> pts) {
-        vertices += pts.size();
-        if (vertices > limits.max_output_vertices)
-          throw GdsError(e.offset, "the flattened layout has more than " + std::to_string(limits.max_output_vertices) +
-                                       " vertices");
-        Polygon p;
-        for (const Point& q : pts) {
-          const Point w = t(q);
-          p.vertices.push_back({w.x * u, w.y * u});
-        }
-        if (p.vertices.size() >= 3) flat.polygons[{e.layer, e.datatype}].push_back(std::move(p));
-      };
-      switch (e.kind) {
-        case kBoundary: {
-          std::vector<Point> pts = e.xy;
-          if (pts.size() >= 2 && pts.front().x == pts.back().x && pts.front().y == pts.back().y) pts.pop_back();
-          if (pts.size() < 3) throw GdsError(e.offset, "BOUNDARY with fewer than 3 points");
-          emit(pts);
-          break;
-        }
-        case kBox: {
-          if (e.xy.size() < 4) throw GdsError(e.offset, "BOX with fewer than 4 points");
-          emit({e.xy.begin(), e.xy.begin() + 4});
-          break;
-        }
-        case kPath: {
-          const double w = std::abs(static_cast<double>(e.width));
-          double b = 0, x = 0;
-          if (e.path_type == 2) b = x = 0.5 * w;
-          if (e.path_type == 4) {
-            b = e.ext_begin;
-            x = e.ext_end;
-          }
-          auto pts = path_outline(e.xy, w, b, x, e.path_type);
-          if (!pts.empty()) emit(pts);
-          break;
-        }
-        case kText:
-          if (!e.xy.empty()) {
-            if (++label_count > limits.max_labels)
-              throw GdsError(e.offset,
-                             "the flattened layout has more than " + std::to_string(limits.max_labels) + " labels");
-            const Point w = t(e.xy.front());
-            flat.labels[{e.layer, e.datatype}].push_back({e.text, {w.x * u, w.y * u}});
-          }
-          break;
-        case kSref:
-        case kAref: {
-          const auto it = cells.find(e.sname);
-          if (it == cells.end()) throw GdsError(e.offset, "reference to a missing structure '" + e.sname + "'");
-          if (e.xy.empty() || (e.kind == kAref && e.xy.size() < 3))
-            throw GdsError(e.offset, "reference without its XY points");
-          const int cols = e.kind == kAref ? e.cols : 1, rows = e.kind == kAref ? e.rows : 1;
-          for (int cc = 0; cc < cols; ++cc)
-            for (int rr = 0; rr < rows; ++rr) {
-              Point at = e.xy[0];
-              if (e.kind == kAref) {
-                at.x += cc * (e.xy[1].x - e.xy[0].x) / cols + rr * (e.xy[2].x - e.xy[0].x) / rows;
-                at.y += cc * (e.xy[1].y - e.xy[0].y) / cols + rr * (e.xy[2].y - e.xy[0].y) / rows;
-              }
-              if (++placements > limits.max_placements)
-                throw GdsError(e.offset, "the flattened layout places structures more than " +
-                                             std::to_string(limits.max_placements) + " times");
-              flatten(it->second, placement(e.reflect, e.mag, e.angle, at).then(t), depth + 1);
-            }
-          break;
-        }
-        default: break;
-      }
+      element(e, t, depth);
     }
     stack.pop_back();
-  };
-  flatten(cells.at(root), Transform{}, 0);
+  }
+
+  // A polygon of element e, placed by t, in metres.
+  void emit(const Element& e, const Transform& t, std::vector<Point> pts) {
+    vertices += pts.size();
+    if (vertices > limits.max_output_vertices)
+      throw GdsError(e.offset,
+                     "the flattened layout has more than " + std::to_string(limits.max_output_vertices) + " vertices");
+    Polygon p;
+    for (const Point& q : pts) {
+      const Point w = t(q);
+      p.vertices.push_back({w.x * u, w.y * u});
+    }
+    if (p.vertices.size() >= 3) flat.polygons[{e.layer, e.datatype}].push_back(std::move(p));
+  }
+
+  void element(const Element& e, const Transform& t, int depth) {
+    switch (e.kind) {
+      case kBoundary: {
+        std::vector<Point> pts = e.xy;
+        if (pts.size() >= 2 && pts.front().x == pts.back().x && pts.front().y == pts.back().y) pts.pop_back();
+        if (pts.size() < 3) throw GdsError(e.offset, "BOUNDARY with fewer than 3 points");
+        emit(e, t, pts);
+        break;
+      }
+      case kBox: {
+        if (e.xy.size() < 4) throw GdsError(e.offset, "BOX with fewer than 4 points");
+        emit(e, t, {e.xy.begin(), e.xy.begin() + 4});
+        break;
+      }
+      case kPath: {
+        const double w = std::abs(static_cast<double>(e.width));
+        double b = 0, x = 0;
+        if (e.path_type == 2) b = x = 0.5 * w;
+        if (e.path_type == 4) {
+          b = e.ext_begin;
+          x = e.ext_end;
+        }
+        auto pts = path_outline(e.xy, w, b, x, e.path_type);
+        if (!pts.empty()) emit(e, t, pts);
+        break;
+      }
+      case kText:
+        if (!e.xy.empty()) {
+          if (++label_count > limits.max_labels)
+            throw GdsError(e.offset,
+                           "the flattened layout has more than " + std::to_string(limits.max_labels) + " labels");
+          const Point w = t(e.xy.front());
+          flat.labels[{e.layer, e.datatype}].push_back({e.text, {w.x * u, w.y * u}});
+        }
+        break;
+      case kSref:
+      case kAref: place(e, t, depth); break;
+      default: break;
+    }
+  }
+
+  // A structure reference or array: each placement flattened one level deeper.
+  void place(const Element& e, const Transform& t, int depth) {
+    const auto it = cells.find(e.sname);
+    if (it == cells.end()) throw GdsError(e.offset, "reference to a missing structure '" + e.sname + "'");
+    if (e.xy.empty() || (e.kind == kAref && e.xy.size() < 3))
+      throw GdsError(e.offset, "reference without its XY points");
+    const int cols = e.kind == kAref ? e.cols : 1, rows = e.kind == kAref ? e.rows : 1;
+    for (int cc = 0; cc < cols; ++cc)
+      for (int rr = 0; rr < rows; ++rr) {
+        Point at = e.xy[0];
+        if (e.kind == kAref) {
+          at.x += cc * (e.xy[1].x - e.xy[0].x) / cols + rr * (e.xy[2].x - e.xy[0].x) / rows;
+          at.y += cc * (e.xy[1].y - e.xy[0].y) / cols + rr * (e.xy[2].y - e.xy[0].y) / rows;
+        }
+        if (++placements > limits.max_placements)
+          throw GdsError(e.offset, "the flattened layout places structures more than " +
+                                       std::to_string(limits.max_placements) + " times");
+        flatten(it->second, placement(e.reflect, e.mag, e.angle, at).then(t), depth + 1);
+      }
+  }
+};
+
+}  // namespace
+
+GdsFlat ReadGds(const std::string& bytes, const std::string& top, const GdsLimits& limits) {
+  if (bytes.size() > limits.max_file_bytes)
+    throw GdsError(0, "file larger than the limit of " + std::to_string(limits.max_file_bytes >> 20) + " MiB");
+  GdsFlat flat;
+  std::map<std::string, Cell> cells;
+  read_library(bytes, flat, cells);
+  if (flat.database_unit_m <= 0) throw GdsError(0, "no UNITS record");
+  const std::string root = top_cell(top, flat, cells);
+  Flattener f{cells, limits, flat, flat.database_unit_m, 0, 0, 0, 0, {}};
+  f.flatten(cells.at(root), Transform{}, 0);
   return flat;
 }
 

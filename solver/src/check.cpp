@@ -151,160 +151,185 @@ std::optional<geometry::ClosestPair> FindGap(const Design& d, const Constriction
   return cp;
 }
 
-CheckResult CheckDesign(const Design& d, const CheckOptions& opt) {
-  std::string why;
-  if (!opt.IsValid(&why)) throw std::invalid_argument("CheckOptions: " + why);
-  CheckResult r;
-  r.figures = DeriveFigures(d.heterostructure, d.conditions.field_T, d.conditions.temperature_K);
-  auto add = [&](Severity s, std::string code, std::string msg, const SourceLocation& where) {
-    r.findings.push_back({s, std::move(code), std::move(msg), where});
-  };
-  const Polygon& mesa = d.mesa.outline;
+namespace {
 
-  // Ohmic contacts against the mesa and each other.
+// What the checks of one design share: the design, the options and the result being filled.
+struct Checking {
+  const Design& d;
+  const CheckOptions& opt;
+  CheckResult r;
+  void add(Severity s, std::string code, std::string msg, const SourceLocation& where) {
+    r.findings.push_back({s, std::move(code), std::move(msg), where});
+  }
+};
+
+// Ohmic contacts against the mesa and each other.
+void check_contacts(Checking& ctx) {
+  const Design& d = ctx.d;
+  const Polygon& mesa = d.mesa.outline;
   for (std::size_t i = 0; i < d.contacts.size(); ++i) {
     const Contact& c = d.contacts[i];
     const double inside = geometry::intersection_area(c.outline, mesa);
     const double outside = geometry::difference_area(c.outline, mesa);
     if (inside <= 0.0)
-      add(Severity::kError, "contact-off-mesa", "contact " + c.name + " does not overlap the mesa: it reaches no 2DEG",
-          c.where);
+      ctx.add(Severity::kError, "contact-off-mesa",
+              "contact " + c.name + " does not overlap the mesa: it reaches no 2DEG", c.where);
     else if (outside <= 0.0)
-      add(Severity::kError, "contact-inside-mesa",
+      ctx.add(
+          Severity::kError, "contact-inside-mesa",
           "contact " + c.name +
               " lies wholly inside the mesa; an ohmic contact must cross the mesa edge so that edge channels enter and "
               "leave it",
           c.where);
     for (std::size_t j = i + 1; j < d.contacts.size(); ++j)
       if (overlap_or_touch(c.outline, d.contacts[j].outline))
-        add(Severity::kError, "contacts-touch",
-            "contacts " + c.name + " and " + d.contacts[j].name + " overlap or touch: they would be one contact",
-            c.where);
+        ctx.add(Severity::kError, "contacts-touch",
+                "contacts " + c.name + " and " + d.contacts[j].name + " overlap or touch: they would be one contact",
+                c.where);
       else if (const auto gap = too_narrow(c.outline, d.contacts[j].outline))
-        add(Severity::kError, "gap-below-lithography", narrow_message("contacts " + c.name, d.contacts[j].name, *gap),
-            c.where);
+        ctx.add(Severity::kError, "gap-below-lithography",
+                narrow_message("contacts " + c.name, d.contacts[j].name, *gap), c.where);
   }
+}
 
-  // Gates: shorts to each other or to ohmic contacts, position, voltage.
-  const double vdep = r.figures.depletion_voltage_V;
+// Gates: shorts to each other or to ohmic contacts, position, voltage.
+void check_gates(Checking& ctx) {
+  const Design& d = ctx.d;
+  const CheckOptions& opt = ctx.opt;
+  const Polygon& mesa = d.mesa.outline;
   for (std::size_t i = 0; i < d.gates.size(); ++i) {
     const Gate& g = d.gates[i];
     for (std::size_t j = i + 1; j < d.gates.size(); ++j)
       if (overlap_or_touch(g.outline, d.gates[j].outline))
-        add(Severity::kError, "gate-short",
-            "gates " + g.name + " and " + d.gates[j].name + " overlap or touch: that is a short between them", g.where);
+        ctx.add(Severity::kError, "gate-short",
+                "gates " + g.name + " and " + d.gates[j].name + " overlap or touch: that is a short between them",
+                g.where);
       else if (const auto gap = too_narrow(g.outline, d.gates[j].outline))
-        add(Severity::kError, "gap-below-lithography", narrow_message("gates " + g.name, d.gates[j].name, *gap),
-            g.where);
+        ctx.add(Severity::kError, "gap-below-lithography", narrow_message("gates " + g.name, d.gates[j].name, *gap),
+                g.where);
     for (const Contact& c : d.contacts)
       if (overlap_or_touch(g.outline, c.outline))
-        add(Severity::kError, "gate-on-contact",
-            "gate " + g.name + " overlaps or touches ohmic contact " + c.name +
-                ": the gate would be shorted to the 2DEG",
-            g.where);
+        ctx.add(Severity::kError, "gate-on-contact",
+                "gate " + g.name + " overlaps or touches ohmic contact " + c.name +
+                    ": the gate would be shorted to the 2DEG",
+                g.where);
       else if (const auto gap = too_narrow(g.outline, c.outline))
-        add(Severity::kError, "gap-below-lithography", narrow_message("gate " + g.name, "contact " + c.name, *gap),
-            g.where);
+        ctx.add(Severity::kError, "gap-below-lithography", narrow_message("gate " + g.name, "contact " + c.name, *gap),
+                g.where);
     if (geometry::intersection_area(g.outline, mesa) <= 0.0)
-      add(Severity::kWarning, "gate-off-mesa", "gate " + g.name + " does not cover any of the mesa and has no effect",
-          g.where);
+      ctx.add(Severity::kWarning, "gate-off-mesa",
+              "gate " + g.name + " does not cover any of the mesa and has no effect", g.where);
     if (g.voltage_V > opt.forward_bias_warning_V)
-      add(Severity::kWarning, "gate-forward-bias",
+      ctx.add(
+          Severity::kWarning, "gate-forward-bias",
           "gate " + g.name + " at " + units::FormatSI(g.voltage_V, "V") +
               " is forward biased: a Schottky gate starts to conduct into the 2DEG from about +0.5 V (common practice) "
               "and can be damaged",
           g.where);
   }
+}
 
-  // The etch depletion must leave some 2DEG: the network refuses a mesa eroded away
-  // ("mesa-etched-away", network.cpp), so check refuses it first, with the same code.
-  if (d.mesa.etch_depletion_m > 0.0) {
-    const geometry::Region left =
-        geometry::Region(mesa).Offset(-d.mesa.etch_depletion_m, NetworkOptions{}.disc_segments);
-    if (left.empty())
-      add(Severity::kError, "mesa-etched-away",
-          "the etch depletion (" + units::FormatSI(d.mesa.etch_depletion_m, "m") +
-              ") is more than half the mesa's width everywhere: it leaves no 2DEG in the mesa",
-          d.mesa.where);
-    else if (left.Pieces().size() > 1)
-      add(Severity::kWarning, "mesa-etched-apart",
-          "the etch depletion (" + units::FormatSI(d.mesa.etch_depletion_m, "m") +
-              ") is more than half the mesa's width at a narrow place: the 2DEG falls apart into " +
-              std::to_string(left.Pieces().size()) + " pieces",
-          d.mesa.where);
+// The etch depletion must leave some 2DEG: the network refuses a mesa eroded away
+// ("mesa-etched-away", network.cpp), so check refuses it first, with the same code.
+void check_etch_depletion(Checking& ctx) {
+  const Design& d = ctx.d;
+  if (!(d.mesa.etch_depletion_m > 0.0)) return;
+  const Polygon& mesa = d.mesa.outline;
+  const geometry::Region left = geometry::Region(mesa).Offset(-d.mesa.etch_depletion_m, NetworkOptions{}.disc_segments);
+  if (left.empty())
+    ctx.add(Severity::kError, "mesa-etched-away",
+            "the etch depletion (" + units::FormatSI(d.mesa.etch_depletion_m, "m") +
+                ") is more than half the mesa's width everywhere: it leaves no 2DEG in the mesa",
+            d.mesa.where);
+  else if (left.Pieces().size() > 1)
+    ctx.add(Severity::kWarning, "mesa-etched-apart",
+            "the etch depletion (" + units::FormatSI(d.mesa.etch_depletion_m, "m") +
+                ") is more than half the mesa's width at a narrow place: the 2DEG falls apart into " +
+                std::to_string(left.Pieces().size()) + " pieces",
+            d.mesa.where);
+}
+
+// Constriction i: the two sides must face each other across the 2DEG.
+void check_constriction(Checking& ctx, std::size_t i) {
+  const Design& d = ctx.d;
+  const CheckOptions& opt = ctx.opt;
+  CheckResult& r = ctx.r;
+  const Polygon& mesa = d.mesa.outline;
+  const double vdep = ctx.r.figures.depletion_voltage_V;
+  const Constriction& k = d.constrictions[i];
+  // Two constrictions on the same pair of sides: they measure the same gap, so the network would
+  // cut two slits through one beam splitter. An error even when the transmissions agree: the
+  // design must say which one it means.
+  for (std::size_t j = 0; j < i; ++j) {
+    const Constriction& o = d.constrictions[j];
+    if ((o.first == k.first && o.second == k.second) || (o.first == k.second && o.second == k.first))
+      ctx.add(Severity::kError, "constriction-duplicate",
+              "constrictions " + o.name + " and " + k.name + " are both declared on the gap between " + k.first +
+                  " and " + k.second + (o.transmission != k.transmission ? ", with different transmissions" : "") +
+                  ": a gap is one beam splitter; declare it once",
+              k.where);
   }
-
-  // Constrictions: the two sides must face each other across the 2DEG.
-  for (std::size_t i = 0; i < d.constrictions.size(); ++i) {
-    const Constriction& k = d.constrictions[i];
-    // Two constrictions on the same pair of sides: they measure the same gap, so the network would
-    // cut two slits through one beam splitter. An error even when the transmissions agree: the
-    // design must say which one it means.
-    for (std::size_t j = 0; j < i; ++j) {
-      const Constriction& o = d.constrictions[j];
-      if ((o.first == k.first && o.second == k.second) || (o.first == k.second && o.second == k.first))
-        add(Severity::kError, "constriction-duplicate",
-            "constrictions " + o.name + " and " + k.name + " are both declared on the gap between " + k.first +
-                " and " + k.second + (o.transmission != k.transmission ? ", with different transmissions" : "") +
-                ": a gap is one beam splitter; declare it once",
+  ConstrictionGap gap;
+  gap.name = k.name;
+  gap.first = k.first;
+  gap.second = k.second;
+  const bool against_mesa = k.first == kMesaName || k.second == kMesaName;
+  const Gate* g1 = d.FindGate(against_mesa ? (k.first == kMesaName ? k.second : k.first) : k.first);
+  std::string why;
+  const auto found = FindGap(d, k, &why);
+  if (!found) {
+    ctx.add(Severity::kError, "constriction-no-gap", "constriction " + k.name + ": " + why, k.where);
+    return;
+  }
+  const geometry::ClosestPair cp = *found;
+  if (cp.distance_m < kMinFeature_m) {
+    ctx.add(Severity::kError, "gap-below-lithography",
+            narrow_message("constriction " + k.name + ": " + k.first, k.second, cp.distance_m), k.where);
+    return;
+  }
+  gap.gap_m = cp.distance_m;
+  gap.on_first = cp.on_a;
+  gap.on_second = cp.on_b;
+  gap.most_positive_gate_V = g1->voltage_V;
+  if (!against_mesa) gap.most_positive_gate_V = std::max(g1->voltage_V, d.FindGate(k.second)->voltage_V);
+  const geometry::Point mid = cp.midpoint();
+  if (!geometry::contains(mesa, mid) || geometry::distance_to_boundary(mesa, mid) < 0.25 * cp.distance_m) {
+    ctx.add(Severity::kError, "constriction-off-mesa",
+            "constriction " + k.name + ": the narrowest gap (" + units::FormatSI(cp.distance_m, "m") +
+                ") does not lie over the 2DEG, so these sides do not face each other across the mesa",
             k.where);
-    }
-    ConstrictionGap gap;
-    gap.name = k.name;
-    gap.first = k.first;
-    gap.second = k.second;
-    const bool against_mesa = k.first == kMesaName || k.second == kMesaName;
-    const Gate* g1 = d.FindGate(against_mesa ? (k.first == kMesaName ? k.second : k.first) : k.first);
-    std::string why;
-    const auto found = FindGap(d, k, &why);
-    if (!found) {
-      add(Severity::kError, "constriction-no-gap", "constriction " + k.name + ": " + why, k.where);
-      continue;
-    }
-    const geometry::ClosestPair cp = *found;
-    if (cp.distance_m < kMinFeature_m) {
-      add(Severity::kError, "gap-below-lithography",
-          narrow_message("constriction " + k.name + ": " + k.first, k.second, cp.distance_m), k.where);
-      continue;
-    }
-    gap.gap_m = cp.distance_m;
-    gap.on_first = cp.on_a;
-    gap.on_second = cp.on_b;
-    gap.most_positive_gate_V = g1->voltage_V;
-    if (!against_mesa) gap.most_positive_gate_V = std::max(g1->voltage_V, d.FindGate(k.second)->voltage_V);
-    const geometry::Point mid = cp.midpoint();
-    if (!geometry::contains(mesa, mid) || geometry::distance_to_boundary(mesa, mid) < 0.25 * cp.distance_m) {
-      add(Severity::kError, "constriction-off-mesa",
-          "constriction " + k.name + ": the narrowest gap (" + units::FormatSI(cp.distance_m, "m") +
-              ") does not lie over the 2DEG, so these sides do not face each other across the mesa",
-          k.where);
-      continue;
-    }
-    if (const auto bare = FindBarePinchOff(d, k, cp)) {
-      gap.bare_pinch_off_V = bare->voltage_V;
-      gap.bare_saddle = bare->saddle;
-    }
-    if (cp.distance_m > opt.wide_gap_in_depths * d.heterostructure.depth_m)
-      add(Severity::kWarning, "constriction-wide",
-          "constriction " + k.name + " has a gap of " + units::FormatSI(cp.distance_m, "m") + ", more than " +
-              std::to_string(static_cast<int>(opt.wide_gap_in_depths)) +
-              " times the 2DEG depth: it pinches off only at large negative voltage",
-          k.where);
-    if (gap.most_positive_gate_V > vdep)
-      add(Severity::kWarning, "constriction-gates-weak",
-          "constriction " + k.name + ": a gate is at " + units::FormatSI(gap.most_positive_gate_V, "V") +
-              ", above the wide-gate depletion voltage " + units::FormatSI(vdep, "V") +
-              ", so the 2DEG under it is not depleted and some channels pass underneath",
-          k.where);
-    const bool fractional =
-        std::any_of(d.channels.begin(), d.channels.end(), [](const Channel& c) { return !c.conductance.is_integer(); });
-    if (k.regime && !fractional)
-      add(Severity::kWarning, "regime-unused",
-          "constriction " + k.name + " sets `regime`, which only matters for fractional edge channels", k.where);
-    r.constrictions.push_back(gap);
+    return;
   }
+  if (const auto bare = FindBarePinchOff(d, k, cp)) {
+    gap.bare_pinch_off_V = bare->voltage_V;
+    gap.bare_saddle = bare->saddle;
+  }
+  if (cp.distance_m > opt.wide_gap_in_depths * d.heterostructure.depth_m)
+    ctx.add(Severity::kWarning, "constriction-wide",
+            "constriction " + k.name + " has a gap of " + units::FormatSI(cp.distance_m, "m") + ", more than " +
+                std::to_string(static_cast<int>(opt.wide_gap_in_depths)) +
+                " times the 2DEG depth: it pinches off only at large negative voltage",
+            k.where);
+  if (gap.most_positive_gate_V > vdep)
+    ctx.add(Severity::kWarning, "constriction-gates-weak",
+            "constriction " + k.name + ": a gate is at " + units::FormatSI(gap.most_positive_gate_V, "V") +
+                ", above the wide-gate depletion voltage " + units::FormatSI(vdep, "V") +
+                ", so the 2DEG under it is not depleted and some channels pass underneath",
+            k.where);
+  const bool fractional =
+      std::any_of(d.channels.begin(), d.channels.end(), [](const Channel& c) { return !c.conductance.is_integer(); });
+  if (k.regime && !fractional)
+    ctx.add(Severity::kWarning, "regime-unused",
+            "constriction " + k.name + " sets `regime`, which only matters for fractional edge channels", k.where);
+  r.constrictions.push_back(gap);
+}
 
-  // Wiring plan.
+// Wiring plan: biases against the cyclotron gap, a driving source, a return path for current
+// sources, and something connected.
+void check_wiring(Checking& ctx) {
+  const Design& d = ctx.d;
+  const CheckOptions& opt = ctx.opt;
+  CheckResult& r = ctx.r;
   int sources = 0, current_sources = 0, returns = 0, floats = 0;
   const double cyclotron_V = r.figures.cyclotron_energy_J / constants::kElementaryCharge_C;
   for (const Wiring& w : d.wiring) {
@@ -316,11 +341,11 @@ CheckResult CheckDesign(const Design& d, const CheckOptions& opt) {
         else
           ++returns;  // a voltage source holds its contact against the cold ground
         if (!w.bias_is_current && std::abs(w.bias) > opt.bias_fraction_of_cyclotron_gap * cyclotron_V)
-          add(Severity::kWarning, "bias-high",
-              "source " + w.contact + " at " + units::FormatSI(w.bias, "V") + " exceeds " +
-                  units::FormatSI(opt.bias_fraction_of_cyclotron_gap * cyclotron_V, "V") +
-                  " (a tenth of the cyclotron energy over e): the quantum Hall state may break down",
-              w.where);
+          ctx.add(Severity::kWarning, "bias-high",
+                  "source " + w.contact + " at " + units::FormatSI(w.bias, "V") + " exceeds " +
+                      units::FormatSI(opt.bias_fraction_of_cyclotron_gap * cyclotron_V, "V") +
+                      " (a tenth of the cyclotron energy over e): the quantum Hall state may break down",
+                  w.where);
         break;
       case Role::kGround:
       case Role::kAmplifier: ++returns; break;
@@ -329,27 +354,44 @@ CheckResult CheckDesign(const Design& d, const CheckOptions& opt) {
   }
   const SourceLocation wiring_where{d.path, d.wiring.empty() ? 0 : d.wiring.front().where.line, 1, "wiring"};
   if (sources == 0)
-    add(Severity::kWarning, "no-source", "no contact is a source: nothing drives a current through the device",
-        wiring_where);
+    ctx.add(Severity::kWarning, "no-source", "no contact is a source: nothing drives a current through the device",
+            wiring_where);
   if (current_sources > 0 && returns == 0)
-    add(Severity::kError, "no-return",
-        "a current source needs a return path, but no contact is grounded, an amplifier or a voltage source",
-        wiring_where);
-  if (current_sources > 0 && returns > 0) warn_islands(d, vdep, add);
+    ctx.add(Severity::kError, "no-return",
+            "a current source needs a return path, but no contact is grounded, an amplifier or a voltage source",
+            wiring_where);
+  if (current_sources > 0 && returns > 0)
+    warn_islands(d, ctx.r.figures.depletion_voltage_V,
+                 [&ctx](auto&&... a) { ctx.add(std::forward<decltype(a)>(a)...); });
   if (floats == static_cast<int>(d.wiring.size()))
-    add(Severity::kWarning, "all-floating", "every contact floats: the device is not connected to anything",
-        wiring_where);
+    ctx.add(Severity::kWarning, "all-floating", "every contact floats: the device is not connected to anything",
+            wiring_where);
+}
+
+}  // namespace
+
+CheckResult CheckDesign(const Design& d, const CheckOptions& opt) {
+  std::string why;
+  if (!opt.IsValid(&why)) throw std::invalid_argument("CheckOptions: " + why);
+  Checking ctx{d, opt, {}};
+  CheckResult& r = ctx.r;
+  r.figures = DeriveFigures(d.heterostructure, d.conditions.field_T, d.conditions.temperature_K);
+  check_contacts(ctx);
+  check_gates(ctx);
+  check_etch_depletion(ctx);
+  for (std::size_t i = 0; i < d.constrictions.size(); ++i) check_constriction(ctx, i);
+  check_wiring(ctx);
 
   // Conditions.
   if (r.figures.thermal_energy_J > 0.1 * r.figures.cyclotron_energy_J)
-    add(Severity::kWarning, "hot",
-        "k_B T is more than a tenth of the cyclotron energy: integer plateaus will be poorly developed",
-        SourceLocation{d.path, 0, 0, "conditions.temperature"});
+    ctx.add(Severity::kWarning, "hot",
+            "k_B T is more than a tenth of the cyclotron energy: integer plateaus will be poorly developed",
+            SourceLocation{d.path, 0, 0, "conditions.temperature"});
 
   std::stable_sort(r.findings.begin(), r.findings.end(), [](const Finding& a, const Finding& b) {
     return a.severity == Severity::kError && b.severity != Severity::kError;
   });
-  return r;
+  return std::move(ctx.r);
 }
 
 }  // namespace hallway

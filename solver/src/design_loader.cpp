@@ -703,7 +703,10 @@ int SecondDocumentLine(const std::string& text) {
   return 0;
 }
 
-Design LoadDesignFromString(const std::string& original_text, const std::string& path) {
+namespace {
+
+// The text of a design file parsed as one YAML document; a DesignError names the line otherwise.
+YAML::Node parse_document(const std::string& original_text, const std::string& path) {
   // The file name reaches messages and JSON output: it must be text.
   if (!IsCleanText(path))
     throw DesignError({path, 0, 0, ""},
@@ -726,32 +729,57 @@ Design LoadDesignFromString(const std::string& original_text, const std::string&
   } catch (const YAML::Exception& e) {
     throw DesignError({path, e.mark.line + 1, e.mark.column + 1, ""}, "YAML syntax: " + e.msg);
   }
-  const Reader r(path);
-  if (!root.IsDefined() || root.IsNull()) throw DesignError({path, 1, 1, ""}, "the design file is empty");
-  const Value top{root, ""};
-  const auto m = r.map(top, {"hallway", "name", "units", "layout", "heterostructure", "conditions", "mesa", "contacts",
-                             "gates", "constrictions", "wiring", "amplifier", "channels"});
-  Design d;
-  d.path = path;
+  return root;
+}
 
-  // Format version.
-  {
-    const Value v = r.require(m, "hallway");
-    d.format_version = static_cast<int>(r.integer(v));
-    if (d.format_version != 1)
-      r.fail(v, "this hallway reads design format 1, the file says " + std::to_string(d.format_version));
+// What the steps of reading one design share: the reader, the top-level keys, the design being
+// filled, and what earlier steps found that later ones need.
+struct Loading {
+  Loading(const Reader& reader, const Reader::Map& top, Design& design) : r(reader), m(top), d(design) {}
+
+  const Reader& r;
+  const Reader::Map& m;  // the top-level keys
+  Design& d;
+  Imported imported;                         // objects drawn in the layout file, if any
+  bool have_layout = false;                  // `layout:` is given
+  std::optional<Value> units_value;          // `units:`, needed only for inline outlines
+  std::optional<Value> filling_value;        // `filling:` or `field:`, where a filling error points
+  std::map<std::string, std::string> taken;  // name -> what it names
+
+  geometry::Polygon inline_outline(const Value& v) const {
+    if (!units_value) r.fail(v, "an inline outline needs the file's `units` (nm, um or mm)");
+    return r.outline(v, d.unit_m);
   }
-  if (auto v = m.get("name")) d.name = r.scalar(*v, "free text");
+  void claim(const Value& v, const std::string& n, const std::string& what) {
+    auto [it, fresh] = taken.emplace(n, what);
+    if (!fresh) r.fail(v, "the name '" + n + "' is already used by a " + it->second);
+  }
+};
 
-  // Layout file (GDSII), if any: objects drawn there need no inline outline.
-  Imported imported;
-  if (auto lv = m.get("layout")) imported = read_layout(r, *lv, path, &d);
-  const bool have_layout = m.get("layout").has_value();
-  // Outline unit (needed only for inline outlines).
-  std::optional<Value> units_value = m.get("units");
-  if (!units_value && !have_layout) r.require(m, "units");
-  if (units_value) {
-    const Value v = *units_value;
+// Format version and name.
+void read_version_and_name(Loading& ctx) {
+  const Reader& r = ctx.r;
+  const Reader::Map& m = ctx.m;
+  Design& d = ctx.d;
+  const Value version = r.require(m, "hallway");
+  d.format_version = static_cast<int>(r.integer(version));
+  if (d.format_version != 1)
+    r.fail(version, "this hallway reads design format 1, the file says " + std::to_string(d.format_version));
+  if (auto v = m.get("name")) d.name = r.scalar(*v, "free text");
+}
+
+// Layout file (GDSII), if any: objects drawn there need no inline outline. Then the outline unit
+// (needed only for inline outlines).
+void read_layout_and_units(Loading& ctx) {
+  const Reader& r = ctx.r;
+  const Reader::Map& m = ctx.m;
+  Design& d = ctx.d;
+  if (auto lv = m.get("layout")) ctx.imported = read_layout(r, *lv, d.path, &d);
+  ctx.have_layout = m.get("layout").has_value();
+  ctx.units_value = m.get("units");
+  if (!ctx.units_value && !ctx.have_layout) r.require(m, "units");
+  if (ctx.units_value) {
+    const Value v = *ctx.units_value;
     d.unit_name = r.scalar(v, "nm, um or mm");
     if (d.unit_name == "nm")
       d.unit_m = 1e-9;
@@ -762,99 +790,104 @@ Design LoadDesignFromString(const std::string& original_text, const std::string&
     else
       r.fail(v, "units must be nm, um or mm, got '" + d.unit_name + "'");
   }
-  auto inline_outline = [&](const Value& v) {
-    if (!units_value) r.fail(v, "an inline outline needs the file's `units` (nm, um or mm)");
-    return r.outline(v, d.unit_m);
-  };
+}
 
-  // Heterostructure.
-  {
-    const auto h = r.map(r.require(m, "heterostructure"),
-                         {"depth", "density", "mobility", "permittivity", "effective_mass", "surface"});
-    auto& hs = d.heterostructure;
-    const Value depth = r.require(h, "depth");
-    hs.depth_m = r.quantity(depth, Kind::kLength);
-    range(r, depth, hs.depth_m, 1e-9, 10e-6, "depth", {"m"});
-    const Value dens = r.require(h, "density");
-    hs.density_per_m2 = r.quantity(dens, Kind::kSheetDensity);
-    range(r, dens, hs.density_per_m2, 1e13, 1e17, "density", {"cm^-2", 1e-4, false});
-    if (auto v = h.get("mobility")) {
-      hs.mobility_m2_per_Vs = r.quantity(*v, Kind::kMobility);
-      // 1 cm^2/Vs (a disordered film) to 1e9 cm^2/Vs, above the best GaAs wafers (common practice).
-      range(r, *v, *hs.mobility_m2_per_Vs, 1e-4, 1e5, "mobility", {"cm^2/Vs", 1e4, false});
-    }
-    if (auto v = h.get("permittivity")) {
-      hs.permittivity = r.number(*v);
-      // Relative permittivity of a semiconductor host: 1 (vacuum) to 100 (common practice).
-      range(r, *v, hs.permittivity, 1.0, 100.0, "permittivity", {"", 1.0, false});
-    }
-    if (auto v = h.get("effective_mass")) {
-      hs.effective_mass = r.number(*v);
-      // In electron masses: 0.001 to 10 covers every known 2DEG host (common practice).
-      range(r, *v, hs.effective_mass, 1e-3, 10.0, "effective_mass", {"m_e", 1.0, false});
-    }
-    if (auto v = h.get("surface")) {
-      const auto s = SurfaceModelFromString(r.scalar(*v, "pinned or frozen"));
-      if (!s) r.fail(*v, "surface must be 'pinned' or 'frozen'");
-      hs.surface = *s;
-    }
+// Heterostructure: depth, density and the optional material constants.
+void read_heterostructure(Loading& ctx) {
+  const Reader& r = ctx.r;
+  const Reader::Map& m = ctx.m;
+  Design& d = ctx.d;
+  const auto h = r.map(r.require(m, "heterostructure"),
+                       {"depth", "density", "mobility", "permittivity", "effective_mass", "surface"});
+  auto& hs = d.heterostructure;
+  const Value depth = r.require(h, "depth");
+  hs.depth_m = r.quantity(depth, Kind::kLength);
+  range(r, depth, hs.depth_m, 1e-9, 10e-6, "depth", {"m"});
+  const Value dens = r.require(h, "density");
+  hs.density_per_m2 = r.quantity(dens, Kind::kSheetDensity);
+  range(r, dens, hs.density_per_m2, 1e13, 1e17, "density", {"cm^-2", 1e-4, false});
+  if (auto v = h.get("mobility")) {
+    hs.mobility_m2_per_Vs = r.quantity(*v, Kind::kMobility);
+    // 1 cm^2/Vs (a disordered film) to 1e9 cm^2/Vs, above the best GaAs wafers (common practice).
+    range(r, *v, *hs.mobility_m2_per_Vs, 1e-4, 1e5, "mobility", {"cm^2/Vs", 1e4, false});
   }
-
-  // Conditions: temperature and exactly one of filling / field.
-  std::optional<Value> filling_value;
-  {
-    const auto c = r.map(r.require(m, "conditions"), {"temperature", "filling", "field"});
-    auto& cd = d.conditions;
-    const Value t = r.require(c, "temperature");
-    cd.temperature_K = r.quantity(t, Kind::kTemperature);
-    if (!(cd.temperature_K > 0.0)) r.fail(t, "temperature must be above absolute zero");
-    if (cd.temperature_K > 300.0) r.fail(t, "temperature above 300 K: no quantum Hall effect to design for");
-    // Lower bound: kMinTemperature_K (1 nK; design_loader.hpp, common practice).
-    range(r, t, cd.temperature_K, kMinTemperature_K, 300.0, "temperature", {"K"});
-    const auto fill = c.get("filling");
-    const auto field = c.get("field");
-    if (fill && field) r.fail(*field, "give either `filling` or `field`, not both (the other is derived)");
-    if (!fill && !field) r.fail(c.self, "give the bulk `filling` (e.g. 2 or \"1/3\") or the `field` (e.g. 4.75 T)");
-    const double n = d.heterostructure.density_per_m2;
-    if (fill) {
-      filling_value = *fill;
-      cd.filling = r.fraction(*fill);
-      // B = n h / (e nu), positive by convention.
-      cd.field_T = n * constants::kPlanck_Js / (constants::kElementaryCharge_C * cd.filling.value());
-      if (cd.field_T > 100.0) r.fail(*fill, "this filling needs a field above 100 T at this density");
-      if (cd.field_T < kMinField_T)
-        r.fail(*fill, "this filling needs a field below " + units::FormatSI(kMinField_T, "T") + " at this density (" +
-                          units::FormatSI(cd.field_T, "T", 6) + "): no quantum Hall edges to design for");
-    } else {
-      filling_value = *field;
-      cd.field_given = true;
-      cd.field_T = r.quantity(*field, Kind::kField);
-      if (cd.field_T == 0.0)
-        r.fail(*field, "a zero field has no quantum Hall edges; give a signed field such as 4.75 T");
-      if (std::abs(cd.field_T) > 100.0) r.fail(*field, "fields beyond 100 T are not supported");
-      // Below 1 mT no 2DEG of the allowed densities shows a plateau (filling beyond 1000; common practice).
-      if (std::abs(cd.field_T) < kMinField_T)
-        r.fail(*field, "the field must be at least " + units::FormatSI(kMinField_T, "T") + " in magnitude; got " +
-                           units::FormatSI(cd.field_T, "T", 6));
-      cd.filling_from_field = n * constants::kPlanck_Js / (constants::kElementaryCharge_C * std::abs(cd.field_T));
-      const auto match = NearestPlateau(cd.filling_from_field, kPlateauTolerance);
-      if (!match) {
-        char buf[160];
-        std::snprintf(buf, sizeof buf,
-                      "at this field and density the bulk filling is %.3f, not within %.0f%% of a supported "
-                      "plateau; adjust the field or give `filling:`",
-                      cd.filling_from_field, 100 * kPlateauTolerance);
-        r.fail(*field, buf);
-      }
-      cd.filling = match->filling;
-      char buf[200];
-      std::snprintf(buf, sizeof buf, "field %.4g T gives bulk filling %.3f; using the nearest plateau nu = %s",
-                    cd.field_T, cd.filling_from_field, cd.filling.ToString().c_str());
-      d.notes.push_back(buf);
-    }
+  if (auto v = h.get("permittivity")) {
+    hs.permittivity = r.number(*v);
+    // Relative permittivity of a semiconductor host: 1 (vacuum) to 100 (common practice).
+    range(r, *v, hs.permittivity, 1.0, 100.0, "permittivity", {"", 1.0, false});
   }
+  if (auto v = h.get("effective_mass")) {
+    hs.effective_mass = r.number(*v);
+    // In electron masses: 0.001 to 10 covers every known 2DEG host (common practice).
+    range(r, *v, hs.effective_mass, 1e-3, 10.0, "effective_mass", {"m_e", 1.0, false});
+  }
+  if (auto v = h.get("surface")) {
+    const auto s = SurfaceModelFromString(r.scalar(*v, "pinned or frozen"));
+    if (!s) r.fail(*v, "surface must be 'pinned' or 'frozen'");
+    hs.surface = *s;
+  }
+}
 
-  // Channels: the file's list, or the defaults for the filling.
+// Conditions: temperature and exactly one of filling / field.
+void read_conditions(Loading& ctx) {
+  const Reader& r = ctx.r;
+  const Reader::Map& m = ctx.m;
+  Design& d = ctx.d;
+  const auto c = r.map(r.require(m, "conditions"), {"temperature", "filling", "field"});
+  auto& cd = d.conditions;
+  const Value t = r.require(c, "temperature");
+  cd.temperature_K = r.quantity(t, Kind::kTemperature);
+  if (!(cd.temperature_K > 0.0)) r.fail(t, "temperature must be above absolute zero");
+  if (cd.temperature_K > 300.0) r.fail(t, "temperature above 300 K: no quantum Hall effect to design for");
+  // Lower bound: kMinTemperature_K (1 nK; design_loader.hpp, common practice).
+  range(r, t, cd.temperature_K, kMinTemperature_K, 300.0, "temperature", {"K"});
+  const auto fill = c.get("filling");
+  const auto field = c.get("field");
+  if (fill && field) r.fail(*field, "give either `filling` or `field`, not both (the other is derived)");
+  if (!fill && !field) r.fail(c.self, "give the bulk `filling` (e.g. 2 or \"1/3\") or the `field` (e.g. 4.75 T)");
+  const double n = d.heterostructure.density_per_m2;
+  if (fill) {
+    ctx.filling_value = *fill;
+    cd.filling = r.fraction(*fill);
+    // B = n h / (e nu), positive by convention.
+    cd.field_T = n * constants::kPlanck_Js / (constants::kElementaryCharge_C * cd.filling.value());
+    if (cd.field_T > 100.0) r.fail(*fill, "this filling needs a field above 100 T at this density");
+    if (cd.field_T < kMinField_T)
+      r.fail(*fill, "this filling needs a field below " + units::FormatSI(kMinField_T, "T") + " at this density (" +
+                        units::FormatSI(cd.field_T, "T", 6) + "): no quantum Hall edges to design for");
+  } else {
+    ctx.filling_value = *field;
+    cd.field_given = true;
+    cd.field_T = r.quantity(*field, Kind::kField);
+    if (cd.field_T == 0.0) r.fail(*field, "a zero field has no quantum Hall edges; give a signed field such as 4.75 T");
+    if (std::abs(cd.field_T) > 100.0) r.fail(*field, "fields beyond 100 T are not supported");
+    // Below 1 mT no 2DEG of the allowed densities shows a plateau (filling beyond 1000; common practice).
+    if (std::abs(cd.field_T) < kMinField_T)
+      r.fail(*field, "the field must be at least " + units::FormatSI(kMinField_T, "T") + " in magnitude; got " +
+                         units::FormatSI(cd.field_T, "T", 6));
+    cd.filling_from_field = n * constants::kPlanck_Js / (constants::kElementaryCharge_C * std::abs(cd.field_T));
+    const auto match = NearestPlateau(cd.filling_from_field, kPlateauTolerance);
+    if (!match) {
+      char buf[160];
+      std::snprintf(buf, sizeof buf,
+                    "at this field and density the bulk filling is %.3f, not within %.0f%% of a supported "
+                    "plateau; adjust the field or give `filling:`",
+                    cd.filling_from_field, 100 * kPlateauTolerance);
+      r.fail(*field, buf);
+    }
+    cd.filling = match->filling;
+    char buf[200];
+    std::snprintf(buf, sizeof buf, "field %.4g T gives bulk filling %.3f; using the nearest plateau nu = %s",
+                  cd.field_T, cd.filling_from_field, cd.filling.ToString().c_str());
+    d.notes.push_back(buf);
+  }
+}
+
+// Channels: the file's list, or the defaults for the filling.
+void read_channels(Loading& ctx) {
+  const Reader& r = ctx.r;
+  const Reader::Map& m = ctx.m;
+  Design& d = ctx.d;
   if (auto cv = m.get("channels")) {
     d.channels_given = true;
     Fraction sum{0, 1};
@@ -883,99 +916,109 @@ Design LoadDesignFromString(const std::string& original_text, const std::string&
   } else {
     auto def = DefaultChannels(d.conditions.filling);
     if (!def)
-      r.fail(*filling_value, "hallway has no default edge channels for filling " + d.conditions.filling.ToString() +
-                                 "; list them under `channels:` (each with conductance in e^2/h, and charge, "
-                                 "scaling and exchange where known)");
+      r.fail(*ctx.filling_value, "hallway has no default edge channels for filling " + d.conditions.filling.ToString() +
+                                     "; list them under `channels:` (each with conductance in e^2/h, and charge, "
+                                     "scaling and exchange where known)");
     d.channels = *def;
   }
+}
 
-  // Mesa.
-  {
-    const auto given = m.get("mesa");
-    const Value mv = given ? *given : Value{YAML::Node(YAML::NodeType::Map), "mesa"};
-    if (!given && !imported.mesa) r.require(m, "mesa");
-    const auto mm = r.map(mv, {"outline", "etch_depletion"});
-    d.mesa.where = given ? r.where(mv) : imported.where;
-    if (auto ov = mm.get("outline")) {
-      if (imported.mesa) r.fail(*ov, "the mesa is also drawn in the layout file; give it in one place only");
-      d.mesa.outline = inline_outline(*ov);
-    } else if (imported.mesa) {
-      d.mesa.outline = *imported.mesa;
-    } else {
-      r.require(mm, "outline");
-    }
-    if (auto v = mm.get("etch_depletion")) {
-      d.mesa.etch_depletion_m = r.quantity(*v, Kind::kLength);
-      d.mesa.etch_depletion_given = true;
-      range(r, *v, d.mesa.etch_depletion_m, 0.0, 10e-6, "etch_depletion", {"m"});
-    } else {
-      d.notes.push_back("mesa.etch_depletion not given: the etched edge is taken to deplete nothing beyond itself");
-    }
+// Mesa: inline or from the layout, and its etch depletion.
+void read_mesa(Loading& ctx) {
+  const Reader& r = ctx.r;
+  const Reader::Map& m = ctx.m;
+  Design& d = ctx.d;
+  const auto given = m.get("mesa");
+  const Value mv = given ? *given : Value{YAML::Node(YAML::NodeType::Map), "mesa"};
+  if (!given && !ctx.imported.mesa) r.require(m, "mesa");
+  const auto mm = r.map(mv, {"outline", "etch_depletion"});
+  d.mesa.where = given ? r.where(mv) : ctx.imported.where;
+  if (auto ov = mm.get("outline")) {
+    if (ctx.imported.mesa) r.fail(*ov, "the mesa is also drawn in the layout file; give it in one place only");
+    d.mesa.outline = ctx.inline_outline(*ov);
+  } else if (ctx.imported.mesa) {
+    d.mesa.outline = *ctx.imported.mesa;
+  } else {
+    r.require(mm, "outline");
   }
+  if (auto v = mm.get("etch_depletion")) {
+    d.mesa.etch_depletion_m = r.quantity(*v, Kind::kLength);
+    d.mesa.etch_depletion_given = true;
+    range(r, *v, d.mesa.etch_depletion_m, 0.0, 10e-6, "etch_depletion", {"m"});
+  } else {
+    d.notes.push_back("mesa.etch_depletion not given: the etched edge is taken to deplete nothing beyond itself");
+  }
+}
 
-  std::map<std::string, std::string> taken;  // name -> what it names
-  auto claim = [&](const Value& v, const std::string& n, const std::string& what) {
-    auto [it, fresh] = taken.emplace(n, what);
-    if (!fresh) r.fail(v, "the name '" + n + "' is already used by a " + it->second);
-  };
-
-  // Contacts.
+// Contacts: the listed ones, then those only drawn in the layout.
+void read_contacts(Loading& ctx) {
+  const Reader& r = ctx.r;
+  const Reader::Map& m = ctx.m;
+  Design& d = ctx.d;
   // Names listed in YAML, per kind: a layout object is skipped below only when YAML lists it as the
   // same kind (a layout gate labelled like a listed contact must be refused, not dropped).
-  std::set<std::string> listed, listed_gates;
+  std::set<std::string> listed;
   if (auto cv = m.get("contacts"); cv && !cv->node.IsNull()) {
     for (const Value& item : r.list(*cv, "ohmic contacts")) {
       const auto cm = r.map(item, {"name", "outline"});
       Contact c;
       const Value nv = r.require(cm, "name");
       c.name = r.name(nv);
-      claim(nv, c.name, "contact");
+      ctx.claim(nv, c.name, "contact");
       listed.insert(c.name);
       c.where = r.where(item);
       c.where.key_path = item.path + " (" + c.name + ")";
-      const auto drawn = imported.contacts.find(c.name);
+      const auto drawn = ctx.imported.contacts.find(c.name);
       if (auto ov = cm.get("outline")) {
-        if (drawn != imported.contacts.end())
+        if (drawn != ctx.imported.contacts.end())
           r.fail(*ov, "contact " + c.name + " is also drawn in the layout file; give it in one place only");
-        c.outline = inline_outline(*ov);
-      } else if (drawn != imported.contacts.end()) {
+        c.outline = ctx.inline_outline(*ov);
+      } else if (drawn != ctx.imported.contacts.end()) {
         c.outline = drawn->second;
       } else {
         r.fail(item, "contact " + c.name + " has no outline here and is not in the layout file");
       }
       d.contacts.push_back(std::move(c));
     }
-  } else if (!have_layout) {
+  } else if (!ctx.have_layout) {
     r.require(m, "contacts");
   }
-  for (const auto& [name, outline] : imported.contacts) {
+  for (const auto& [name, outline] : ctx.imported.contacts) {
     if (listed.count(name)) continue;
-    if (taken.count(name)) r.fail(m.self, "the layout's contact " + name + " has the name of a " + taken.at(name));
-    taken.emplace(name, "contact");
-    d.contacts.push_back({name, outline, imported.where});
+    if (ctx.taken.count(name))
+      r.fail(m.self, "the layout's contact " + name + " has the name of a " + ctx.taken.at(name));
+    ctx.taken.emplace(name, "contact");
+    d.contacts.push_back({name, outline, ctx.imported.where});
   }
   if (d.contacts.empty()) r.fail(m.self, "a design needs at least one ohmic contact");
+}
 
-  // Gates (optional: an ungated Hall bar has none).
+// Gates (optional: an ungated Hall bar has none): the listed ones, then those only drawn in the
+// layout (at 0 V).
+void read_gates(Loading& ctx) {
+  const Reader& r = ctx.r;
+  const Reader::Map& m = ctx.m;
+  Design& d = ctx.d;
+  std::set<std::string> listed_gates;
   if (auto gv = m.get("gates"); gv && !gv->node.IsNull()) {
     for (const Value& item : r.list(*gv, "gates")) {
       const auto gm = r.map(item, {"name", "voltage", "outline"});
       Gate g;
       const Value nv = r.require(gm, "name");
       g.name = r.name(nv);
-      claim(nv, g.name, "gate");
+      ctx.claim(nv, g.name, "gate");
       listed_gates.insert(g.name);
       g.where = r.where(item);
       g.where.key_path = item.path + " (" + g.name + ")";
       const Value vv = r.require(gm, "voltage");
       g.voltage_V = r.quantity(vv, Kind::kVoltage);
       range(r, vv, g.voltage_V, -20.0, 20.0, "a gate voltage", {"V"});
-      const auto drawn = imported.gates.find(g.name);
+      const auto drawn = ctx.imported.gates.find(g.name);
       if (auto ov = gm.get("outline")) {
-        if (drawn != imported.gates.end())
+        if (drawn != ctx.imported.gates.end())
           r.fail(*ov, "gate " + g.name + " is also drawn in the layout file; give it in one place only");
-        g.outline = inline_outline(*ov);
-      } else if (drawn != imported.gates.end()) {
+        g.outline = ctx.inline_outline(*ov);
+      } else if (drawn != ctx.imported.gates.end()) {
         g.outline = drawn->second;
       } else {
         r.fail(item, "gate " + g.name + " has no outline here and is not in the layout file");
@@ -983,22 +1026,27 @@ Design LoadDesignFromString(const std::string& original_text, const std::string&
       d.gates.push_back(std::move(g));
     }
   }
-  for (const auto& [name, outline] : imported.gates) {
+  for (const auto& [name, outline] : ctx.imported.gates) {
     if (listed_gates.count(name)) continue;
-    if (taken.count(name)) r.fail(m.self, "the layout's gate " + name + " has the name of a " + taken.at(name));
-    taken.emplace(name, "gate");
-    d.gates.push_back({name, 0.0, outline, imported.where});
+    if (ctx.taken.count(name)) r.fail(m.self, "the layout's gate " + name + " has the name of a " + ctx.taken.at(name));
+    ctx.taken.emplace(name, "gate");
+    d.gates.push_back({name, 0.0, outline, ctx.imported.where});
     d.notes.push_back("gate " + name + " from the layout has no voltage in the design: taken as 0 V");
   }
+}
 
-  // Constrictions.
+// Constrictions: two gates (or a gate and the mesa) and one transmission per edge channel.
+void read_constrictions(Loading& ctx) {
+  const Reader& r = ctx.r;
+  const Reader::Map& m = ctx.m;
+  Design& d = ctx.d;
   if (auto kv = m.get("constrictions"); kv && !kv->node.IsNull()) {
     for (const Value& item : r.list(*kv, "constrictions")) {
       const auto km = r.map(item, {"name", "gates", "transmission", "regime"});
       Constriction k;
       const Value nv = r.require(km, "name");
       k.name = r.name(nv);
-      claim(nv, k.name, "constriction");
+      ctx.claim(nv, k.name, "constriction");
       k.where = r.where(item);
       k.where.key_path = item.path + " (" + k.name + ")";
       const Value gv = r.require(km, "gates");
@@ -1041,6 +1089,56 @@ Design LoadDesignFromString(const std::string& original_text, const std::string&
       d.constrictions.push_back(std::move(k));
     }
   }
+}
+
+// Wiring: every contact exactly once.
+void read_wiring_section(Loading& ctx) {
+  const Reader& r = ctx.r;
+  const Reader::Map& m = ctx.m;
+  Design& d = ctx.d;
+  const Value wv = r.require(m, "wiring");
+  const auto wm = [&] {
+    if (!wv.node.IsMap()) r.fail(wv, "expected a mapping of contact names to roles");
+    Reader::Map out{wv, {}};
+    std::set<std::string> seen;
+    for (auto it = wv.node.begin(); it != wv.node.end(); ++it) {
+      const std::string k = it->first.IsScalar() ? it->first.Scalar() : "";
+      const Value key{it->first, "wiring." + k};
+      if (!d.FindContact(k))
+        r.fail(key, "no contact named '" + k + "'" + (d.FindGate(k) ? " ('" + k + "' is a gate)" : ""));
+      if (!seen.insert(k).second) r.fail(key, "contact '" + k + "' is wired twice");
+      out.entries.push_back({k, Value{it->second, "wiring." + k}});
+    }
+    return out;
+  }();
+  for (const Contact& c : d.contacts) {
+    auto v = wm.get(c.name);
+    if (!v) r.fail(wv, "contact '" + c.name + "' has no role; give it one of source <bias>, ground, amplifier, float");
+    d.wiring.push_back(read_wiring(r, c.name, *v, d.amplifier));
+  }
+}
+
+}  // namespace
+
+Design LoadDesignFromString(const std::string& original_text, const std::string& path) {
+  const YAML::Node root = parse_document(original_text, path);
+  const Reader r(path);
+  if (!root.IsDefined() || root.IsNull()) throw DesignError({path, 1, 1, ""}, "the design file is empty");
+  const Value top{root, ""};
+  const auto m = r.map(top, {"hallway", "name", "units", "layout", "heterostructure", "conditions", "mesa", "contacts",
+                             "gates", "constrictions", "wiring", "amplifier", "channels"});
+  Design d;
+  d.path = path;
+  Loading ctx{r, m, d};
+  read_version_and_name(ctx);
+  read_layout_and_units(ctx);
+  read_heterostructure(ctx);
+  read_conditions(ctx);
+  read_channels(ctx);
+  read_mesa(ctx);
+  read_contacts(ctx);
+  read_gates(ctx);
+  read_constrictions(ctx);
 
   // Amplifier block.
   if (auto av = m.get("amplifier"))
@@ -1048,31 +1146,7 @@ Design LoadDesignFromString(const std::string& original_text, const std::string&
                                  r.map(*av, {"load", "voltage_noise", "current_noise", "bandwidth", "integration",
                                              "load_temperature", "reference_subtraction"}),
                                  std::nullopt);
-
-  // Wiring: every contact exactly once.
-  {
-    const Value wv = r.require(m, "wiring");
-    const auto wm = [&] {
-      if (!wv.node.IsMap()) r.fail(wv, "expected a mapping of contact names to roles");
-      Reader::Map out{wv, {}};
-      std::set<std::string> seen;
-      for (auto it = wv.node.begin(); it != wv.node.end(); ++it) {
-        const std::string k = it->first.IsScalar() ? it->first.Scalar() : "";
-        const Value key{it->first, "wiring." + k};
-        if (!d.FindContact(k))
-          r.fail(key, "no contact named '" + k + "'" + (d.FindGate(k) ? " ('" + k + "' is a gate)" : ""));
-        if (!seen.insert(k).second) r.fail(key, "contact '" + k + "' is wired twice");
-        out.entries.push_back({k, Value{it->second, "wiring." + k}});
-      }
-      return out;
-    }();
-    for (const Contact& c : d.contacts) {
-      auto v = wm.get(c.name);
-      if (!v)
-        r.fail(wv, "contact '" + c.name + "' has no role; give it one of source <bias>, ground, amplifier, float");
-      d.wiring.push_back(read_wiring(r, c.name, *v, d.amplifier));
-    }
-  }
+  read_wiring_section(ctx);
   return d;
 }
 

@@ -487,120 +487,130 @@ bool AddFractionalNoise(const Design& d, const EdgeNetwork& net, const Transport
   return any;
 }
 
-}  // namespace
-
-NoiseResult SolveNoise(const Design& d, const EdgeNetwork& net, const TransportResult& tr, const NoiseOptions& opt) {
-  std::string why;
-  if (!opt.IsValid(&why)) throw std::invalid_argument("NoiseOptions: " + why);
+// What the steps of one noise solution share.
+struct NoiseSolving {
+  const Design& d;
+  const EdgeNetwork& net;
+  const TransportResult& tr;
+  const NoiseOptions& opt;
+  int nc = 0;                // contacts
+  double temperature = 0.0;  // design temperature, K
+  double kt = 0.0;           // k_B T, J
+  std::vector<double> v;     // contact voltages (undetermined ones at 0)
+  Mat G;                     // conductance matrix, S
   NoiseResult r;
-  r.field_T = net.field_T;
-  const int nc = static_cast<int>(d.contacts.size());
-  const double temperature = d.conditions.temperature_K;
-  const double kt = kBoltzmann_J_per_K * temperature;
-  auto add = [&](Severity s, std::string code, std::string msg, const SourceLocation& where) {
-    r.findings.push_back({s, std::move(code), std::move(msg), where});
-  };
-  std::vector<double> v(static_cast<std::size_t>(nc), 0.0);
-  for (int i = 0; i < nc; ++i) v[static_cast<std::size_t>(i)] = tr.voltage_V[static_cast<std::size_t>(i)].value_or(0.0);
-  const Mat G = to_eigen(tr.conductance_S);
+  Mat excess_p, eq_p;  // excess and equilibrium noise with floating contacts eliminated, A^2/Hz
+};
 
-  // ---- Integer channels: coherent scattering ----
-  const CoherentNetwork coherent(d, net);
-  Mat s_bias = Mat::Zero(nc, nc), s_eq = Mat::Zero(nc, nc);
-  if (!coherent.channels.empty() && !coherent.in_pieces.empty()) {
-    const auto comps = FindEdgeLoops(d, net, coherent.channels);
-    for (const auto& comp : comps) {
-      CoherentLoop loop;
-      loop.channel = net.pieces[static_cast<std::size_t>(comp.front())].channel;
-      loop.pieces = comp;
-      std::vector<geometry::Point> ring;
-      for (int p : comp) {
-        const EdgePiece& e = net.pieces[static_cast<std::size_t>(p)];
-        loop.length_m += e.length_m;
-        ring.insert(ring.end(), e.path.begin(), e.path.end());
-        for (const EdgeEnd* end : {&e.from, &e.to})
-          if (end->kind == EdgeEnd::Kind::kConstriction &&
-              std::find(loop.constrictions.begin(), loop.constrictions.end(), end->index) == loop.constrictions.end())
-            loop.constrictions.push_back(end->index);
-      }
-      if (ring.size() >= 3) loop.enclosed_area_m2 = geometry::area(geometry::Polygon{ring});
-      r.loops.push_back(loop);
+// The loops of the integer channels' network: their pieces, length, constrictions and enclosed area.
+std::vector<CoherentLoop> coherent_loops(const NoiseSolving& ctx, const CoherentNetwork& coherent) {
+  const EdgeNetwork& net = ctx.net;
+  std::vector<CoherentLoop> loops;
+  const auto comps = FindEdgeLoops(ctx.d, net, coherent.channels);
+  for (const auto& comp : comps) {
+    CoherentLoop loop;
+    loop.channel = net.pieces[static_cast<std::size_t>(comp.front())].channel;
+    loop.pieces = comp;
+    std::vector<geometry::Point> ring;
+    for (int p : comp) {
+      const EdgePiece& e = net.pieces[static_cast<std::size_t>(p)];
+      loop.length_m += e.length_m;
+      ring.insert(ring.end(), e.path.begin(), e.path.end());
+      for (const EdgeEnd* end : {&e.from, &e.to})
+        if (end->kind == EdgeEnd::Kind::kConstriction &&
+            std::find(loop.constrictions.begin(), loop.constrictions.end(), end->index) == loop.constrictions.end())
+          loop.constrictions.push_back(end->index);
     }
-    const int samples = r.loops.empty() ? 1 : (opt.loop_phase_rad ? 1 : opt.phase_samples);
-    r.phase_averaged = !r.loops.empty() && !opt.loop_phase_rad;
-    r.phase_samples = samples;
-    // Phase configurations: every piece gets phase 2 pi frac(k alpha_p), alpha_p = frac(p sqrt 2 +
-    // (p + 1) sqrt 3) (a Weyl sequence, equidistributed); with a fixed loop phase, one piece of each
-    // loop carries the phase and every other piece zero.
-    for (int k = 0; k < samples; ++k) {
-      std::vector<double> phase(net.pieces.size(), 0.0);
-      if (opt.loop_phase_rad) {
-        for (const CoherentLoop& loop : r.loops)
-          phase[static_cast<std::size_t>(loop.pieces.front())] = *opt.loop_phase_rad;
-      } else if (!r.loops.empty()) {
-        for (std::size_t p = 0; p < phase.size(); ++p) {
-          const double alpha = std::fmod(
-              static_cast<double>(p) * std::numbers::sqrt2 + static_cast<double>(p + 1) * std::numbers::sqrt3, 1.0);
-          phase[p] = 2.0 * std::numbers::pi * std::fmod(static_cast<double>(k) * alpha, 1.0);
-        }
-      }
-      const CMat s = coherent.Solve(phase);
-      if (s.rows() == s.cols())
-        r.unitarity_error =
-            std::max(r.unitarity_error, (s.adjoint() * s - CMat::Identity(s.rows(), s.cols())).cwiseAbs().maxCoeff());
-      else
-        r.unitarity_error = std::max(r.unitarity_error, 1.0);
-      const Mat sb = coherent.Noise(s, v, temperature);
-      const Mat se = coherent.Noise(s, std::vector<double>(static_cast<std::size_t>(nc), 0.0), temperature);
-      s_bias += sb / samples;
-      s_eq += se / samples;
-      // The identity S_eq = 2 k_B T (G + G^T) holds for each phase configuration with that
-      // configuration's own conductances G_ab = (e^2/h) (M_a d_ab - sum |s_ab|^2).
-      Mat g_s = Mat::Zero(nc, nc);
-      for (std::size_t j = 0; j < coherent.in_pieces.size(); ++j) {
-        g_s(coherent.in_contact[j], coherent.in_contact[j]) += kConductanceQuantum_S;
-        for (std::size_t o = 0; o < coherent.out_pieces.size(); ++o)
-          g_s(coherent.out_contact[o], coherent.in_contact[j]) -=
-              kConductanceQuantum_S * std::norm(s(static_cast<int>(o), static_cast<int>(j)));
-      }
-      const Mat eq_sample = 2.0 * kt * (g_s + g_s.transpose());
-      const double scale = std::max(1e-300, eq_sample.cwiseAbs().maxCoeff());
-      r.equilibrium_identity_error =
-          std::max(r.equilibrium_identity_error, (se - eq_sample).cwiseAbs().maxCoeff() / scale);
-    }
-    if (r.unitarity_error > 1e-9)
-      add(Severity::kError, "not-unitary",
-          "the composed scattering matrix is not unitary (error " + std::to_string(r.unitarity_error) +
-              "); the noise is not reliable",
-          d.mesa.where);
-    r.models.push_back(
-        std::string(
-            "integer channels: coherent scattering matrix with Büttiker's multi-terminal formula at finite temperature "
-            "(Büttiker, Phys. Rev. B 46, 12485 (1992); docs/models.md \"Coherent noise of integer channels\"); ") +
-        (r.loops.empty()    ? "the network has no loop, so the phases drop out"
-         : r.phase_averaged ? "averaged over " + std::to_string(samples) + " phase configurations of its loop(s)"
-                            : "with the loop phase fixed at " + std::to_string(*opt.loop_phase_rad) + " rad"));
+    if (ring.size() >= 3) loop.enclosed_area_m2 = geometry::area(geometry::Polygon{ring});
+    loops.push_back(loop);
   }
-  Mat excess = s_bias - s_eq;
+  return loops;
+}
 
-  // ---- Fractional channels: colliders first (they decide how their inputs' noise is carried), then
-  // the partition noise of every constriction and each collider's own block ----
-  r.colliders = FindColliders(d, net, tr, opt, &r.findings);
-  if (AddFractionalNoise(d, net, tr, r.colliders, temperature, excess, &r.findings))
-    r.models.push_back(
-        "fractional channels: partition noise at each constriction, 2 e* V g t(1-t)[coth(e*V/2kT) - 2kT/e*V], with "
-        "e* of its regime (weak backscattering unless the design says `regime: strong`; Kane & Fisher, Phys. Rev. "
-        "Lett. 72, 724 (1994)), carried to the contacts by the incoherent network; a collider in the contact matrix "
-        "replaces the splitting of its inputs' noise by its own block (S_34 from P, the rest from current "
-        "conservation; docs/models.md \"Anyon collider\")");
-  const Mat equilibrium = 2.0 * kt * (G + G.transpose());
+// Phase configuration k: every piece gets phase 2 pi frac(k alpha_p), alpha_p = frac(p sqrt 2 +
+// (p + 1) sqrt 3) (a Weyl sequence, equidistributed); with a fixed loop phase, one piece of each
+// loop carries the phase and every other piece zero.
+std::vector<double> piece_phases(const NoiseSolving& ctx, int k) {
+  std::vector<double> phase(ctx.net.pieces.size(), 0.0);
+  if (ctx.opt.loop_phase_rad) {
+    for (const CoherentLoop& loop : ctx.r.loops)
+      phase[static_cast<std::size_t>(loop.pieces.front())] = *ctx.opt.loop_phase_rad;
+  } else if (!ctx.r.loops.empty()) {
+    for (std::size_t p = 0; p < phase.size(); ++p) {
+      const double alpha = std::fmod(
+          static_cast<double>(p) * std::numbers::sqrt2 + static_cast<double>(p + 1) * std::numbers::sqrt3, 1.0);
+      phase[p] = 2.0 * std::numbers::pi * std::fmod(static_cast<double>(k) * alpha, 1.0);
+    }
+  }
+  return phase;
+}
 
-  // ---- Floating contacts and current sources: dI = 0 ----
+// The identity S_eq = 2 k_B T (G + G^T) holds for each phase configuration with that configuration's
+// own conductances G_ab = (e^2/h) (M_a d_ab - sum |s_ab|^2): its relative error for scattering matrix s.
+double equilibrium_identity_error(const NoiseSolving& ctx, const CoherentNetwork& coherent, const CMat& s,
+                                  const Mat& se) {
+  Mat g_s = Mat::Zero(ctx.nc, ctx.nc);
+  for (std::size_t j = 0; j < coherent.in_pieces.size(); ++j) {
+    g_s(coherent.in_contact[j], coherent.in_contact[j]) += kConductanceQuantum_S;
+    for (std::size_t o = 0; o < coherent.out_pieces.size(); ++o)
+      g_s(coherent.out_contact[o], coherent.in_contact[j]) -=
+          kConductanceQuantum_S * std::norm(s(static_cast<int>(o), static_cast<int>(j)));
+  }
+  const Mat eq_sample = 2.0 * ctx.kt * (g_s + g_s.transpose());
+  const double scale = std::max(1e-300, eq_sample.cwiseAbs().maxCoeff());
+  return (se - eq_sample).cwiseAbs().maxCoeff() / scale;
+}
+
+// Integer channels: coherent scattering, averaged over the loops' phases (or at the fixed loop phase).
+// Adds the biased and the equilibrium noise to s_bias and s_eq.
+void coherent_noise(NoiseSolving& ctx, Mat& s_bias, Mat& s_eq) {
+  const NoiseOptions& opt = ctx.opt;
+  NoiseResult& r = ctx.r;
+  const int nc = ctx.nc;
+  const CoherentNetwork coherent(ctx.d, ctx.net);
+  if (coherent.channels.empty() || coherent.in_pieces.empty()) return;
+  r.loops = coherent_loops(ctx, coherent);
+  const int samples = r.loops.empty() ? 1 : (opt.loop_phase_rad ? 1 : opt.phase_samples);
+  r.phase_averaged = !r.loops.empty() && !opt.loop_phase_rad;
+  r.phase_samples = samples;
+  for (int k = 0; k < samples; ++k) {
+    const CMat s = coherent.Solve(piece_phases(ctx, k));
+    if (s.rows() == s.cols())
+      r.unitarity_error =
+          std::max(r.unitarity_error, (s.adjoint() * s - CMat::Identity(s.rows(), s.cols())).cwiseAbs().maxCoeff());
+    else
+      r.unitarity_error = std::max(r.unitarity_error, 1.0);
+    const Mat sb = coherent.Noise(s, ctx.v, ctx.temperature);
+    const Mat se = coherent.Noise(s, std::vector<double>(static_cast<std::size_t>(nc), 0.0), ctx.temperature);
+    s_bias += sb / samples;
+    s_eq += se / samples;
+    r.equilibrium_identity_error =
+        std::max(r.equilibrium_identity_error, equilibrium_identity_error(ctx, coherent, s, se));
+  }
+  if (r.unitarity_error > 1e-9)
+    r.findings.push_back({Severity::kError, "not-unitary",
+                          "the composed scattering matrix is not unitary (error " + std::to_string(r.unitarity_error) +
+                              "); the noise is not reliable",
+                          ctx.d.mesa.where});
+  r.models.push_back(
+      std::string(
+          "integer channels: coherent scattering matrix with Büttiker's multi-terminal formula at finite temperature "
+          "(Büttiker, Phys. Rev. B 46, 12485 (1992); docs/models.md \"Coherent noise of integer channels\"); ") +
+      (r.loops.empty()    ? "the network has no loop, so the phases drop out"
+       : r.phase_averaged ? "averaged over " + std::to_string(samples) + " phase configurations of its loop(s)"
+                          : "with the loop phase fixed at " + std::to_string(*opt.loop_phase_rad) + " rad"));
+}
+
+// Floating contacts and current sources: dI = 0. The map L from the noise of the contacts' currents
+// with every voltage fixed to that with the floating contacts eliminated (identity when there are none).
+Mat floating_contact_map(NoiseSolving& ctx) {
+  const int nc = ctx.nc;
+  const Mat& G = ctx.G;
   std::vector<int> held, fixed;
   for (int i = 0; i < nc; ++i) {
-    const Wiring& w = d.wiring[static_cast<std::size_t>(i)];
+    const Wiring& w = ctx.d.wiring[static_cast<std::size_t>(i)];
     const bool floating = w.role == Role::kFloat || (w.role == Role::kSource && w.bias_is_current);
-    (floating && tr.voltage_V[static_cast<std::size_t>(i)] ? held : fixed).push_back(i);
+    (floating && ctx.tr.voltage_V[static_cast<std::size_t>(i)] ? held : fixed).push_back(i);
   }
   Mat L = Mat::Identity(nc, nc);
   if (!held.empty()) {
@@ -618,62 +628,70 @@ NoiseResult SolveNoise(const Design& d, const EdgeNetwork& net, const TransportR
         L(a, held[f]) = -x;
       }
     }
-    r.models.push_back(
+    ctx.r.models.push_back(
         "floating contacts and current sources conserve current at low frequency (docs/models.md \"Floating "
         "contacts\"); their heating "
         "by the bias is not included");
   }
-  const Mat excess_p = L * excess * L.transpose();
-  const Mat eq_p = L * equilibrium * L.transpose();
-  r.excess_A2_per_Hz = from_eigen(excess_p);
-  r.equilibrium_A2_per_Hz = from_eigen(eq_p);
-  r.total_A2_per_Hz = from_eigen(excess_p + eq_p);
+  return L;
+}
 
-  // ---- Amplifiers ----
-  // The sample seen from an amplifier contact: the other fixed-voltage contacts held at AC ground,
-  // floating ones eliminated: G' = G_AA - G_AF G_FF^-1 G_FA (the Schur complement).
-  const Mat Gp = L * G * L.transpose();
+const AmplifierNoise* amplifier_at(const NoiseResult& r, int contact) {
+  for (const auto& a : r.amplifiers)
+    if (a.contact == contact) return &a;
+  return nullptr;
+}
+
+// The cross-correlation of amplifiers x and y for a current cross-spectrum s_xy_current: returns the
+// signal in V^2/Hz, sets the signal-to-noise and the time to reach target_signal_V2. Cross-spectrum
+// error: sqrt((S_xx S_yy + S_xy^2) / (2 df t)) (docs/models.md "Amplifier chain").
+double cross_correlation(const NoiseSolving& ctx, int x, int y, double s_xy_current, double* snr,
+                         std::optional<double>* time, double target_signal_V2) {
+  const AmplifierNoise* ax = amplifier_at(ctx.r, x);
+  const AmplifierNoise* ay = amplifier_at(ctx.r, y);
+  const Amplifier& a = *ctx.d.wiring[static_cast<std::size_t>(x)].amplifier;
+  const Amplifier& b = *ctx.d.wiring[static_cast<std::size_t>(y)].amplifier;
+  const double df = std::min(a.bandwidth_Hz, b.bandwidth_Hz), t = std::min(a.integration_s, b.integration_s);
+  const double rr = ax->effective_resistance_Ohm * ay->effective_resistance_Ohm;
+  const double sxx = ax->signal_V2_per_Hz + ax->floor_V2_per_Hz, syy = ay->signal_V2_per_Hz + ay->floor_V2_per_Hz;
+  const double sxy = rr * (s_xy_current + ctx.eq_p(x, y));
+  // On/off measurement at either amplifier: the difference of two averages doubles the variance.
+  const double var = (a.reference_subtraction || b.reference_subtraction ? 2.0 : 1.0) * (sxx * syy + sxy * sxy);
+  const double signal = rr * s_xy_current;
+  *snr = std::abs(signal) / std::sqrt(var / (2.0 * df * t));
+  if (std::abs(target_signal_V2) > 0.0) *time = var / (2.0 * df * target_signal_V2 * target_signal_V2);
+  return signal;
+}
+
+// Amplifiers: each one's chain, and the cross-correlation of every pair. The sample seen from an
+// amplifier contact: the other fixed-voltage contacts held at AC ground, floating ones eliminated:
+// G' = G_AA - G_AF G_FF^-1 G_FA (the Schur complement).
+void amplifier_noise(NoiseSolving& ctx, const Mat& L) {
+  const Design& d = ctx.d;
+  const NoiseOptions& opt = ctx.opt;
+  NoiseResult& r = ctx.r;
+  const Mat& excess_p = ctx.excess_p;
+  const Mat Gp = L * ctx.G * L.transpose();
   std::vector<int> amps;
-  for (int i = 0; i < nc; ++i)
+  for (int i = 0; i < ctx.nc; ++i)
     if (d.wiring[static_cast<std::size_t>(i)].role == Role::kAmplifier) amps.push_back(i);
   for (int i : amps) {
-    AmplifierNoise an = AmplifierChain(Gp(i, i), *d.wiring[static_cast<std::size_t>(i)].amplifier, temperature,
+    AmplifierNoise an = AmplifierChain(Gp(i, i), *d.wiring[static_cast<std::size_t>(i)].amplifier, ctx.temperature,
                                        excess_p(i, i), opt.target_sigmas);
     an.contact = i;
     r.amplifiers.push_back(an);
   }
-  auto amp_of = [&](int contact) -> const AmplifierNoise* {
-    for (const auto& a : r.amplifiers)
-      if (a.contact == contact) return &a;
-    return nullptr;
-  };
-  // Cross-spectrum error: sqrt((S_xx S_yy + S_xy^2) / (2 df t)) (physics.md 8).
-  auto cross_of = [&](int x, int y, double s_xy_current, double* snr, std::optional<double>* time,
-                      double target_signal_V2) {
-    const AmplifierNoise* ax = amp_of(x);
-    const AmplifierNoise* ay = amp_of(y);
-    const Amplifier& a = *d.wiring[static_cast<std::size_t>(x)].amplifier;
-    const Amplifier& b = *d.wiring[static_cast<std::size_t>(y)].amplifier;
-    const double df = std::min(a.bandwidth_Hz, b.bandwidth_Hz), t = std::min(a.integration_s, b.integration_s);
-    const double rr = ax->effective_resistance_Ohm * ay->effective_resistance_Ohm;
-    const double sxx = ax->signal_V2_per_Hz + ax->floor_V2_per_Hz, syy = ay->signal_V2_per_Hz + ay->floor_V2_per_Hz;
-    const double sxy = rr * (s_xy_current + eq_p(x, y));
-    // On/off measurement at either amplifier: the difference of two averages doubles the variance.
-    const double var = (a.reference_subtraction || b.reference_subtraction ? 2.0 : 1.0) * (sxx * syy + sxy * sxy);
-    const double signal = rr * s_xy_current;
-    *snr = std::abs(signal) / std::sqrt(var / (2.0 * df * t));
-    if (std::abs(target_signal_V2) > 0.0) *time = var / (2.0 * df * target_signal_V2 * target_signal_V2);
-    return signal;
-  };
   for (std::size_t a = 0; a < amps.size(); ++a)
     for (std::size_t b = a + 1; b < amps.size(); ++b) {
       CrossNoise cn;
       cn.first = amps[a];
       cn.second = amps[b];
       cn.excess_current_A2_per_Hz = excess_p(amps[a], amps[b]);
-      const double rr = amp_of(amps[a])->effective_resistance_Ohm * amp_of(amps[b])->effective_resistance_Ohm;
-      cn.signal_V2_per_Hz = cross_of(amps[a], amps[b], cn.excess_current_A2_per_Hz, &cn.snr, &cn.time_for_target_s,
-                                     rr * cn.excess_current_A2_per_Hz / opt.target_sigmas);
+      const double rr =
+          amplifier_at(r, amps[a])->effective_resistance_Ohm * amplifier_at(r, amps[b])->effective_resistance_Ohm;
+      cn.signal_V2_per_Hz =
+          cross_correlation(ctx, amps[a], amps[b], cn.excess_current_A2_per_Hz, &cn.snr, &cn.time_for_target_s,
+                            rr * cn.excess_current_A2_per_Hz / opt.target_sigmas);
       r.cross.push_back(cn);
     }
   if (!amps.empty())
@@ -682,28 +700,75 @@ NoiseResult SolveNoise(const Design& d, const EdgeNetwork& net, const TransportR
         "T_L/R_L) with the load at its own temperature; averaging "
         "error S/sqrt(df t) for autocorrelations and sqrt((SxxSyy + Sxy^2)/(2 df t)) for cross-correlations "
         "(Dicke radiometer formula; docs/models.md \"Amplifier chain\")");
+}
 
-  // ---- Colliders: their time to know P from the drains' cross-correlation ----
+// Colliders: their time to know P from the drains' cross-correlation.
+void collider_measurement_times(NoiseSolving& ctx) {
+  NoiseResult& r = ctx.r;
   for (ColliderPrediction& cp : r.colliders) {
     if (!cp.s34_A2_per_Hz || cp.output_first < 0 || cp.output_second < 0 || cp.output_first == cp.output_second ||
-        !amp_of(cp.output_first) || !amp_of(cp.output_second))
+        !amplifier_at(r, cp.output_first) || !amplifier_at(r, cp.output_second))
       continue;
-    const double rr =
-        amp_of(cp.output_first)->effective_resistance_Ohm * amp_of(cp.output_second)->effective_resistance_Ohm;
+    const double rr = amplifier_at(r, cp.output_first)->effective_resistance_Ohm *
+                      amplifier_at(r, cp.output_second)->effective_resistance_Ohm;
     const double p_used =
         cp.model_in_matrix == ColliderModel::kFiniteTemperature ? *cp.fano_finite_temperature : *cp.fano;
     double snr = 0.0;
     if (p_used != 0.0)
-      cross_of(cp.output_first, cp.output_second, excess_p(cp.output_first, cp.output_second), &snr,
-               &cp.time_for_fano_s, rr * opt.collider_fano_uncertainty * *cp.s34_A2_per_Hz / p_used);
+      cross_correlation(ctx, cp.output_first, cp.output_second, ctx.excess_p(cp.output_first, cp.output_second), &snr,
+                        &cp.time_for_fano_s, rr * ctx.opt.collider_fano_uncertainty * *cp.s34_A2_per_Hz / p_used);
   }
   if (!r.colliders.empty())
     r.models.push_back(
         "colliders: generalized Fano factor P of Rosenow, Levkivskyi & Halperin, Phys. Rev. Lett. 116, 156802 (2016), "
         "lowest order in the collider tunnelling, at T = 0 and with thermal edge correlators at the design "
         "temperature; the contact matrix uses the " +
-        ToString(opt.collider_model) + " form; S_34 = 2 P e* |I+| T(1 - T) (docs/models.md \"Anyon collider\")");
-  return r;
+        ToString(ctx.opt.collider_model) + " form; S_34 = 2 P e* |I+| T(1 - T) (docs/models.md \"Anyon collider\")");
+}
+
+}  // namespace
+
+NoiseResult SolveNoise(const Design& d, const EdgeNetwork& net, const TransportResult& tr, const NoiseOptions& opt) {
+  std::string why;
+  if (!opt.IsValid(&why)) throw std::invalid_argument("NoiseOptions: " + why);
+  const int nc = static_cast<int>(d.contacts.size());
+  NoiseSolving ctx{d, net, tr, opt, nc, d.conditions.temperature_K, 0.0, {}, to_eigen(tr.conductance_S), {}, {}, {}};
+  ctx.kt = kBoltzmann_J_per_K * ctx.temperature;
+  NoiseResult& r = ctx.r;
+  r.field_T = net.field_T;
+  ctx.v.assign(static_cast<std::size_t>(nc), 0.0);
+  for (int i = 0; i < nc; ++i)
+    ctx.v[static_cast<std::size_t>(i)] = tr.voltage_V[static_cast<std::size_t>(i)].value_or(0.0);
+
+  // ---- Integer channels: coherent scattering ----
+  Mat s_bias = Mat::Zero(nc, nc), s_eq = Mat::Zero(nc, nc);
+  coherent_noise(ctx, s_bias, s_eq);
+  Mat excess = s_bias - s_eq;
+
+  // ---- Fractional channels: colliders first (they decide how their inputs' noise is carried), then
+  // the partition noise of every constriction and each collider's own block ----
+  r.colliders = FindColliders(d, net, tr, opt, &r.findings);
+  if (AddFractionalNoise(d, net, tr, r.colliders, ctx.temperature, excess, &r.findings))
+    r.models.push_back(
+        "fractional channels: partition noise at each constriction, 2 e* V g t(1-t)[coth(e*V/2kT) - 2kT/e*V], with "
+        "e* of its regime (weak backscattering unless the design says `regime: strong`; Kane & Fisher, Phys. Rev. "
+        "Lett. 72, 724 (1994)), carried to the contacts by the incoherent network; a collider in the contact matrix "
+        "replaces the splitting of its inputs' noise by its own block (S_34 from P, the rest from current "
+        "conservation; docs/models.md \"Anyon collider\")");
+  const Mat equilibrium = 2.0 * ctx.kt * (ctx.G + ctx.G.transpose());
+
+  // ---- Floating contacts and current sources: dI = 0 ----
+  const Mat L = floating_contact_map(ctx);
+  ctx.excess_p = L * excess * L.transpose();
+  ctx.eq_p = L * equilibrium * L.transpose();
+  r.excess_A2_per_Hz = from_eigen(ctx.excess_p);
+  r.equilibrium_A2_per_Hz = from_eigen(ctx.eq_p);
+  r.total_A2_per_Hz = from_eigen(ctx.excess_p + ctx.eq_p);
+
+  // ---- Amplifiers, then the colliders' measurement times ----
+  amplifier_noise(ctx, L);
+  collider_measurement_times(ctx);
+  return std::move(ctx.r);
 }
 
 }  // namespace hallway

@@ -126,21 +126,24 @@ Polygon ring_of(const EdgeNetwork& net, const std::vector<int>& pieces) {
   return ring;
 }
 
-}  // namespace
+// What the path metrics of one network share: the design, the network, the options, the wafer's
+// figures and the result being filled.
+struct PathsContext {
+  const Design& d;
+  const EdgeNetwork& net;
+  const PathOptions& opt;
+  HeterostructureFigures fig;
+  PathResult& r;
+};
 
-PathResult ComputePaths(const Design& d, const EdgeNetwork& net, const TransportResult& tr, const DensityMap* map,
-                        const PathOptions& opt) {
-  std::string why;
-  if (!opt.IsValid(&why)) throw std::invalid_argument("PathOptions: " + why);
-  PathResult r;
-  const HeterostructureFigures fig = DeriveFigures(d.heterostructure, d.conditions.field_T, d.conditions.temperature_K);
+// Length, drift velocity (from the map where it gives one, else the default), time of flight and
+// thermal length of each edge piece.
+void measure_pieces(PathsContext& ctx, const DensityMap* map) {
+  const Design& d = ctx.d;
+  const PathOptions& opt = ctx.opt;
   const double kt = kBoltzmann_J_per_K * d.conditions.temperature_K;
-  r.velocity_model =
-      map ? "E x B drift v = |grad U| / (e |B|) of the self-consistent potential along the edge (docs/models.md \"Edge velocity and lengths\")"
-          : "a fixed drift velocity of " + std::to_string(static_cast<int>(opt.default_velocity_m_per_s)) +
-                " m/s (docs/models.md \"Edge velocity and lengths\"; no electrostatic map)";
-  for (std::size_t p = 0; p < net.pieces.size(); ++p) {
-    const EdgePiece& e = net.pieces[p];
+  for (std::size_t p = 0; p < ctx.net.pieces.size(); ++p) {
+    const EdgePiece& e = ctx.net.pieces[p];
     PieceMetrics pm;
     pm.piece = static_cast<int>(p);
     pm.length_m = e.length_m;
@@ -152,8 +155,8 @@ PathResult ComputePaths(const Design& d, const EdgeNetwork& net, const Transport
         const int steps = std::max(1, static_cast<int>(std::ceil(len / map->cell_m)));
         for (int s = 0; s < steps; ++s) {
           const double f = (s + 0.5) / steps;
-          const double v =
-              drift_at(*map, fig.fermi_energy_J, d.conditions.field_T, {a.x + f * (b.x - a.x), a.y + f * (b.y - a.y)});
+          const double v = drift_at(*map, ctx.fig.fermi_energy_J, d.conditions.field_T,
+                                    {a.x + f * (b.x - a.x), a.y + f * (b.y - a.y)});
           if (v > 0.0) {
             tof += len / steps / v;
             covered += len / steps;
@@ -170,25 +173,33 @@ PathResult ComputePaths(const Design& d, const EdgeNetwork& net, const Transport
     pm.time_of_flight_s = pm.length_m / pm.velocity_m_per_s;
     pm.thermal_length_m = kHbar_Js * pm.velocity_m_per_s / kt;
     pm.thermal_length_2pi_m = pm.thermal_length_m / (2.0 * std::numbers::pi);
-    r.pieces.push_back(pm);
+    ctx.r.pieces.push_back(pm);
   }
+}
 
-  // Loops of every channel, and closed edges around islands.
-  auto finish_loop = [&](LoopMetrics& l, const Polygon& ring, double velocity) {
-    l.area_m2 = ring.vertices.size() >= 3 ? geometry::area(ring) : 0.0;
-    const double charge = d.channels[static_cast<std::size_t>(l.channel)].charge_e;
-    if (l.area_m2 > 0.0) {
-      l.ab_period_T = kPlanck_Js / (kElementaryCharge_C * l.area_m2);
-      l.ab_period_quasiparticle_T = l.ab_period_T / charge;
-    }
-    if (geometry::find_defect(ring) == geometry::PolygonDefect::kNone)
-      for (const Gate& g : d.gates)
-        if (geometry::intersection_area(ring, g.outline) > 0.5 * l.area_m2) l.gated_island = true;
-    const double c =
-        IslandCapacitance_F(l.area_m2, l.gated_island, d.heterostructure.permittivity, d.heterostructure.depth_m);
-    if (c > 0.0) l.charging_energy_J = kElementaryCharge_C * kElementaryCharge_C / (2.0 * c);
-    l.visibility = ThermalVisibility(l.length_m, velocity, d.conditions.temperature_K);
-  };
+// The area-dependent figures of a loop: Aharonov-Bohm periods, whether a gate covers it, charging
+// energy, and its thermal visibility at the given velocity.
+void finish_loop(const Design& d, LoopMetrics& l, const Polygon& ring, double velocity) {
+  l.area_m2 = ring.vertices.size() >= 3 ? geometry::area(ring) : 0.0;
+  const double charge = d.channels[static_cast<std::size_t>(l.channel)].charge_e;
+  if (l.area_m2 > 0.0) {
+    l.ab_period_T = kPlanck_Js / (kElementaryCharge_C * l.area_m2);
+    l.ab_period_quasiparticle_T = l.ab_period_T / charge;
+  }
+  if (geometry::find_defect(ring) == geometry::PolygonDefect::kNone)
+    for (const Gate& g : d.gates)
+      if (geometry::intersection_area(ring, g.outline) > 0.5 * l.area_m2) l.gated_island = true;
+  const double c =
+      IslandCapacitance_F(l.area_m2, l.gated_island, d.heterostructure.permittivity, d.heterostructure.depth_m);
+  if (c > 0.0) l.charging_energy_J = kElementaryCharge_C * kElementaryCharge_C / (2.0 * c);
+  l.visibility = ThermalVisibility(l.length_m, velocity, d.conditions.temperature_K);
+}
+
+// Loops of every channel, and closed edges around islands.
+void measure_loops(PathsContext& ctx) {
+  const Design& d = ctx.d;
+  const EdgeNetwork& net = ctx.net;
+  PathResult& r = ctx.r;
   for (std::size_t k = 0; k < d.channels.size(); ++k) {
     for (const auto& comp : FindEdgeLoops(d, net, {static_cast<int>(k)})) {
       LoopMetrics l;
@@ -204,7 +215,7 @@ PathResult ComputePaths(const Design& d, const EdgeNetwork& net, const Transport
               std::find(l.constrictions.begin(), l.constrictions.end(), end->index) == l.constrictions.end())
             l.constrictions.push_back(end->index);
       }
-      finish_loop(l, ring_of(net, comp), tof > 0.0 ? l.length_m / tof : opt.default_velocity_m_per_s);
+      finish_loop(d, l, ring_of(net, comp), tof > 0.0 ? l.length_m / tof : ctx.opt.default_velocity_m_per_s);
       r.loops.push_back(l);
     }
   }
@@ -214,7 +225,7 @@ PathResult ComputePaths(const Design& d, const EdgeNetwork& net, const Transport
     l.closed_edge = true;
     l.length_m = c.length_m;
     l.area_m2 = c.enclosed_area_m2;
-    finish_loop(l, Polygon{}, opt.default_velocity_m_per_s);
+    finish_loop(d, l, Polygon{}, ctx.opt.default_velocity_m_per_s);
     l.area_m2 = c.enclosed_area_m2;
     if (l.area_m2 > 0.0) {
       l.ab_period_T = kPlanck_Js / (kElementaryCharge_C * l.area_m2);
@@ -222,10 +233,14 @@ PathResult ComputePaths(const Design& d, const EdgeNetwork& net, const Transport
     }
     r.loops.push_back(l);
   }
+}
 
-  // Source constriction -> splitter or collider paths.
+// Source constriction -> splitter or collider paths, with a warning beyond the relaxation length.
+void find_source_paths(PathsContext& ctx) {
+  const Design& d = ctx.d;
+  const PathOptions& opt = ctx.opt;
   const double relax = opt.relaxation_length_m > 0.0 ? opt.relaxation_length_m : default_relaxation(d);
-  for (const EdgePiece& e : net.pieces) {
+  for (const EdgePiece& e : ctx.net.pieces) {
     if (e.from.kind != EdgeEnd::Kind::kConstriction || e.to.kind != EdgeEnd::Kind::kConstriction ||
         e.from.index == e.to.index)
       continue;
@@ -234,17 +249,21 @@ PathResult ComputePaths(const Design& d, const EdgeNetwork& net, const Transport
     if (!(t > 0.0 && t < 1.0)) continue;
     SourcePath sp{e.channel, e.from.index, e.to.index, e.length_m, e.length_m > relax};
     if (sp.beyond_relaxation)
-      r.findings.push_back(
+      ctx.r.findings.push_back(
           {Severity::kWarning, "path-long",
            "the edge from constriction " + d.constrictions[static_cast<std::size_t>(sp.source)].name + " to " +
                d.constrictions[static_cast<std::size_t>(sp.target)].name + " (channel " +
                std::to_string(e.channel + 1) + ") is " + std::to_string(e.length_m * 1e6).substr(0, 5) +
                " um long, beyond the relaxation length of " + std::to_string(relax * 1e6).substr(0, 4) + " um",
            d.constrictions[static_cast<std::size_t>(sp.target)].where});
-    r.source_paths.push_back(sp);
+    ctx.r.source_paths.push_back(sp);
   }
+}
 
-  // Floating contacts: heating by the bias.
+// Floating contacts: heating by the bias.
+void float_heating(PathsContext& ctx, const TransportResult& tr) {
+  const Design& d = ctx.d;
+  const EdgeNetwork& net = ctx.net;
   for (std::size_t i = 0; i < d.wiring.size(); ++i) {
     if (d.wiring[i].role != Role::kFloat || !tr.voltage_V[i]) continue;
     FloatHeating fh;
@@ -264,8 +283,204 @@ PathResult ComputePaths(const Design& d, const EdgeNetwork& net, const Transport
         std::numbers::pi * std::numbers::pi * kBoltzmann_J_per_K * kBoltzmann_J_per_K / (6.0 * kPlanck_Js);
     const double t0 = d.conditions.temperature_K;
     fh.temperature_K = outgoing > 0 ? std::sqrt(t0 * t0 + fh.power_W / (outgoing * quantum)) : t0;
-    r.floats.push_back(fh);
+    ctx.r.floats.push_back(fh);
   }
+}
+
+// What the constriction models share: the design, the options and the wafer's figures.
+struct ModelSetting {
+  const Design& d;
+  const PathOptions& opt;
+  double depth = 0.0;                // 2DEG depth, m
+  double mass = 0.0;                 // effective mass, kg
+  double ef0 = 0.0;                  // bulk Fermi energy, J
+  double cyclotron_J = 0.0;          // cyclotron energy, J
+  std::vector<double> design_volts;  // the design's gate voltages, V
+};
+
+// One constriction as its model sees it: the gap, the directions across and along it, the window
+// solver around it and the strip its saddle is searched in (saddle.hpp).
+struct GapModel {
+  const ModelSetting& s;
+  const Constriction& k;
+  const geometry::ClosestPair& gap;
+  Point u;    // across the gap, from the first side to the second
+  Point nrm;  // along the gap
+  const ElectrostaticProblem& problem;
+  const SaddleStrip& strip;
+  int ga = -1, gb = -1;  // the two sides' gates in the design (-1: the mesa)
+};
+
+// Saddle model at one set of voltages: barrier, curvatures and per-channel transmissions.
+struct Saddle {
+  bool ok = false;
+  Point at;
+  double barrier = 0, hx = 0, hy = 0;
+  std::vector<double> t;
+};
+
+Saddle saddle_of(const GapModel& g, const DensityMap& m) {
+  const Design& d = g.s.d;
+  const double ef0 = g.s.ef0, mass = g.s.mass;
+  const Point u = g.u, nrm = g.nrm;
+  Saddle s;
+  auto U = [&](Point p) { return m.EnergyAt(p) * ef0; };
+  // The same saddle as `hallway map` (saddle.hpp).
+  s.at = DensitySaddle(m, g.strip).point;
+  const double h = std::max(m.cell_m, g.gap.distance_m / 20.0);
+  auto along = [&](Point dir, double t) { return U({s.at.x + t * dir.x, s.at.y + t * dir.y}); };
+  const double uu = (along(u, h) - 2 * along(u, 0) + along(u, -h)) / (h * h);
+  const double nn = (along(nrm, h) - 2 * along(nrm, 0) + along(nrm, -h)) / (h * h);
+  s.barrier = along(u, 0) - ef0;
+  if (!(uu > 0.0 && nn < 0.0)) return s;
+  s.ok = true;
+  s.hy = kHbar_Js * std::sqrt(uu / mass);
+  s.hx = kHbar_Js * std::sqrt(-nn / mass);
+  for (std::size_t c = 0; c < d.channels.size(); ++c) {
+    if (!d.channels[c].conductance.is_integer()) {
+      s.t.push_back(std::nan(""));
+      continue;
+    }
+    s.t.push_back(SpinResolvedSaddleTransmission(-s.barrier, s.hx, s.hy, g.s.cyclotron_J, static_cast<int>(c)));
+  }
+  return s;
+}
+
+// Transverse subbands across the saddle, and how far their spacing is from the harmonic estimate.
+void transverse_subbands(const GapModel& g, const DensityMap& m, const Saddle& s0, double grid_m,
+                         ConstrictionModel& cm) {
+  const double dx = 0.25 * grid_m;
+  const double reach = 0.5 * g.gap.distance_m + 4.0 * g.s.depth;
+  std::vector<double> pot;
+  for (double t = -reach; t <= reach; t += dx)
+    pot.push_back(m.EnergyAt({s0.at.x + t * g.u.x, s0.at.y + t * g.u.y}) * g.s.ef0);
+  try {
+    cm.subbands_J = TransverseLevels_J(pot, dx, g.s.mass, 3);
+    cm.harmonic_ratio = (cm.subbands_J[1] - cm.subbands_J[0]) / s0.hy;
+    if (std::abs(*cm.harmonic_ratio - 1.0) > 0.3)
+      cm.warnings.push_back(
+          "the transverse subband spacing differs from the harmonic estimate by more than 30 %: the "
+          "parabolic saddle is a poor description");
+  } catch (const std::exception& e) {
+    cm.warnings.push_back(std::string("transverse subbands: ") + e.what());
+  }
+}
+
+// Transmission against the constriction's gate voltage (both sides together), from v_hi to v_lo,
+// each solve started from the last.
+void transmission_curve(const GapModel& g, double v_hi, double v_lo, DensityMap& last, ConstrictionModel& cm) {
+  const int points = g.s.opt.curve_points;
+  for (int i = 0; i < points; ++i) {
+    const double v = v_hi + (v_lo - v_hi) * i / (points - 1);
+    std::vector<double> volts = g.s.design_volts;
+    if (g.ga >= 0) volts[static_cast<std::size_t>(g.ga)] = v;
+    if (g.gb >= 0) volts[static_cast<std::size_t>(g.gb)] = v;
+    last = g.problem.Solve(volts, &last);
+    ConstrictionModel::Sample sample{v, {}};
+    if (last.stats.converged) {
+      const Saddle s = saddle_of(g, last);
+      if (s.ok) sample.transmission = s.t;
+    }
+    cm.curve.push_back(sample);
+  }
+}
+
+// The gate voltage at which each channel reaches the design (or target) transmission, with warnings
+// where it is not reached or lies past the gate-voltage limit.
+void voltages_for_target(const GapModel& g, double v_hi, double v_lo, ConstrictionModel& cm) {
+  const Design& d = g.s.d;
+  const PathOptions& opt = g.s.opt;
+  for (std::size_t c = 0; c < d.channels.size(); ++c) {
+    std::optional<double> at;
+    // A design value of exactly 1 or 0 is searched as 0.99 or 0.01 (where the channel starts to close).
+    const double target = std::clamp(opt.target_transmission.value_or(g.k.transmission[c]), 0.01, 0.99);
+    for (std::size_t i = 0; i + 1 < cm.curve.size() && !at; ++i) {
+      const auto& a = cm.curve[i];
+      const auto& b = cm.curve[i + 1];
+      if (a.transmission.empty() || b.transmission.empty() || std::isnan(a.transmission[c])) continue;
+      const double ta = a.transmission[c], tb = b.transmission[c];
+      if ((ta - target) * (tb - target) <= 0.0 && ta != tb)
+        at = a.voltage_V + (target - ta) / (tb - ta) * (b.voltage_V - a.voltage_V);
+    }
+    cm.voltage_for_target_V.push_back(at);
+    const std::string ch = "channel " + std::to_string(c + 1);
+    if (!d.channels[c].conductance.is_integer()) continue;
+    if (!at)
+      cm.warnings.push_back(ch + ": the design transmission is not reached between " +
+                            std::to_string(v_hi).substr(0, 5) + " and " + std::to_string(v_lo).substr(0, 5) +
+                            " V (beyond pinch-off or the sweep)");
+    else if (*at < opt.gate_voltage_limit_V)
+      cm.warnings.push_back(
+          ch + ": reaching the design transmission needs " + std::to_string(*at).substr(0, 6) +
+          " V, beyond the gate-voltage limit " + std::to_string(opt.gate_voltage_limit_V).substr(0, 5) +
+          " V (a conservative leakage onset, common practice): a gate driven past leakage can destroy the sample");
+  }
+}
+
+// The model of constriction ki: a window solve at the design voltages, its saddle and subbands, the
+// transmission curve and the voltages for the target. Nothing when the constriction has no gap.
+std::optional<ConstrictionModel> model_constriction(const ModelSetting& s, std::size_t ki) {
+  const Design& d = s.d;
+  const Constriction& k = d.constrictions[ki];
+  ConstrictionModel cm;
+  cm.constriction = static_cast<int>(ki);
+  const auto gap = FindGap(d, k, nullptr);
+  if (!gap) return std::nullopt;
+  const Point mid = gap->midpoint();
+  const Point u{(gap->on_b.x - gap->on_a.x) / gap->distance_m, (gap->on_b.y - gap->on_a.y) / gap->distance_m};
+  const Point nrm{-u.y, u.x};
+  const double half = 0.5 * gap->distance_m + 12.0 * s.depth;
+  ElectrostaticsOptions lo;
+  lo.max_memory_bytes = s.opt.max_memory_bytes;
+  lo.grid_m = ConstrictionWindowCell_m(s.depth, gap->distance_m, half);
+  const ElectrostaticProblem problem(d, lo, ElectrostaticWindow{mid, half, half});
+  const SaddleStrip strip = SaddleStrip::For(d, k, *gap, 0.5 * problem.cell_m());
+  GapModel g{s, k, *gap, u, nrm, problem, strip, -1, -1};
+  for (std::size_t i = 0; i < d.gates.size(); ++i) {
+    if (d.gates[i].name == k.first) g.ga = static_cast<int>(i);
+    if (d.gates[i].name == k.second) g.gb = static_cast<int>(i);
+  }
+  DensityMap last = problem.Solve(s.design_volts);
+  if (!last.stats.converged) {
+    cm.warnings.push_back("the electrostatic solve did not converge; no constriction model");
+    return cm;
+  }
+  const Saddle s0 = saddle_of(g, last);
+  cm.saddle_found = s0.ok;
+  cm.saddle = s0.at;
+  cm.barrier_J = s0.barrier;
+  cm.hbar_omega_x_J = s0.hx;
+  cm.hbar_omega_y_J = s0.hy;
+  cm.transmission = s0.t;
+  if (!s0.ok)
+    cm.warnings.push_back(
+        "no saddle in the self-consistent potential at the design voltages: the saddle-point model does not apply");
+  if (s0.ok) transverse_subbands(g, last, s0, lo.grid_m, cm);
+  const double v0 =
+      g.ga >= 0 ? d.gates[static_cast<std::size_t>(g.ga)].voltage_V : d.gates[static_cast<std::size_t>(g.gb)].voltage_V;
+  const double v_hi = std::min(0.0, v0 + 0.5), v_lo = v0 - 1.0;
+  transmission_curve(g, v_hi, v_lo, last, cm);
+  voltages_for_target(g, v_hi, v_lo, cm);
+  return cm;
+}
+
+}  // namespace
+
+PathResult ComputePaths(const Design& d, const EdgeNetwork& net, const TransportResult& tr, const DensityMap* map,
+                        const PathOptions& opt) {
+  std::string why;
+  if (!opt.IsValid(&why)) throw std::invalid_argument("PathOptions: " + why);
+  PathResult r;
+  PathsContext ctx{d, net, opt, DeriveFigures(d.heterostructure, d.conditions.field_T, d.conditions.temperature_K), r};
+  r.velocity_model = map ? "E x B drift v = |grad U| / (e |B|) of the self-consistent potential along the edge "
+                           "(docs/models.md \"Edge velocity and lengths\")"
+                         : "a fixed drift velocity of " +
+                               std::to_string(static_cast<int>(opt.default_velocity_m_per_s)) +
+                               " m/s (docs/models.md \"Edge velocity and lengths\"; no electrostatic map)";
+  measure_pieces(ctx, map);
+  measure_loops(ctx);
+  find_source_paths(ctx);
+  float_heating(ctx, tr);
   return r;
 }
 
@@ -273,140 +488,16 @@ void ComputeConstrictionModels(const Design& d, const PathOptions& opt, PathResu
   std::string why;
   if (!opt.IsValid(&why)) throw std::invalid_argument("PathOptions: " + why);
   const HeterostructureFigures fig = DeriveFigures(d.heterostructure, d.conditions.field_T, d.conditions.temperature_K);
-  const double depth = d.heterostructure.depth_m;
-  const double mass = d.heterostructure.effective_mass * constants::kElectronMass_kg;
-  const double ef0 = fig.fermi_energy_J;
-  std::vector<double> design_volts;
-  for (const Gate& g : d.gates) design_volts.push_back(g.voltage_V);
-  for (std::size_t ki = 0; ki < d.constrictions.size(); ++ki) {
-    const Constriction& k = d.constrictions[ki];
-    ConstrictionModel cm;
-    cm.constriction = static_cast<int>(ki);
-    const auto gap = FindGap(d, k, nullptr);
-    if (!gap) continue;
-    const Point mid = gap->midpoint();
-    const Point u{(gap->on_b.x - gap->on_a.x) / gap->distance_m, (gap->on_b.y - gap->on_a.y) / gap->distance_m};
-    const Point nrm{-u.y, u.x};
-    const double half = 0.5 * gap->distance_m + 12.0 * depth;
-    ElectrostaticsOptions lo;
-    lo.max_memory_bytes = opt.max_memory_bytes;
-    lo.grid_m = ConstrictionWindowCell_m(depth, gap->distance_m, half);
-    const ElectrostaticProblem problem(d, lo, ElectrostaticWindow{mid, half, half});
-    const SaddleStrip strip = SaddleStrip::For(d, k, *gap, 0.5 * problem.cell_m());
-    int ga = -1, gb = -1;
-    for (std::size_t i = 0; i < d.gates.size(); ++i) {
-      if (d.gates[i].name == k.first) ga = static_cast<int>(i);
-      if (d.gates[i].name == k.second) gb = static_cast<int>(i);
-    }
-    // Saddle model at one set of voltages: fills barrier, curvatures and per-channel transmissions.
-    struct Saddle {
-      bool ok = false;
-      Point at;
-      double barrier = 0, hx = 0, hy = 0;
-      std::vector<double> t;
-    };
-    auto saddle_of = [&](const DensityMap& m) {
-      Saddle s;
-      auto U = [&](Point p) { return m.EnergyAt(p) * ef0; };
-      // The same saddle as `hallway map` (saddle.hpp).
-      s.at = DensitySaddle(m, strip).point;
-      const double h = std::max(m.cell_m, gap->distance_m / 20.0);
-      auto along = [&](Point dir, double t) { return U({s.at.x + t * dir.x, s.at.y + t * dir.y}); };
-      const double uu = (along(u, h) - 2 * along(u, 0) + along(u, -h)) / (h * h);
-      const double nn = (along(nrm, h) - 2 * along(nrm, 0) + along(nrm, -h)) / (h * h);
-      s.barrier = along(u, 0) - ef0;
-      if (!(uu > 0.0 && nn < 0.0)) return s;
-      s.ok = true;
-      s.hy = kHbar_Js * std::sqrt(uu / mass);
-      s.hx = kHbar_Js * std::sqrt(-nn / mass);
-      for (std::size_t c = 0; c < d.channels.size(); ++c) {
-        if (!d.channels[c].conductance.is_integer()) {
-          s.t.push_back(std::nan(""));
-          continue;
-        }
-        s.t.push_back(
-            SpinResolvedSaddleTransmission(-s.barrier, s.hx, s.hy, fig.cyclotron_energy_J, static_cast<int>(c)));
-      }
-      return s;
-    };
-    DensityMap last = problem.Solve(design_volts);
-    if (!last.stats.converged) {
-      cm.warnings.push_back("the electrostatic solve did not converge; no constriction model");
-      result->constrictions.push_back(cm);
-      continue;
-    }
-    const Saddle s0 = saddle_of(last);
-    cm.saddle_found = s0.ok;
-    cm.saddle = s0.at;
-    cm.barrier_J = s0.barrier;
-    cm.hbar_omega_x_J = s0.hx;
-    cm.hbar_omega_y_J = s0.hy;
-    cm.transmission = s0.t;
-    if (!s0.ok)
-      cm.warnings.push_back(
-          "no saddle in the self-consistent potential at the design voltages: the saddle-point model does not apply");
-    // Transverse subbands across the saddle.
-    if (s0.ok) {
-      const double dx = 0.25 * lo.grid_m;
-      const double reach = 0.5 * gap->distance_m + 4.0 * depth;
-      std::vector<double> pot;
-      for (double t = -reach; t <= reach; t += dx)
-        pot.push_back(last.EnergyAt({s0.at.x + t * u.x, s0.at.y + t * u.y}) * ef0);
-      try {
-        cm.subbands_J = TransverseLevels_J(pot, dx, mass, 3);
-        cm.harmonic_ratio = (cm.subbands_J[1] - cm.subbands_J[0]) / s0.hy;
-        if (std::abs(*cm.harmonic_ratio - 1.0) > 0.3)
-          cm.warnings.push_back(
-              "the transverse subband spacing differs from the harmonic estimate by more than 30 %: the "
-              "parabolic saddle is a poor description");
-      } catch (const std::exception& e) {
-        cm.warnings.push_back(std::string("transverse subbands: ") + e.what());
-      }
-    }
-    // Transmission against the constriction's gate voltage (both sides together).
-    const double v0 =
-        ga >= 0 ? d.gates[static_cast<std::size_t>(ga)].voltage_V : d.gates[static_cast<std::size_t>(gb)].voltage_V;
-    const double v_hi = std::min(0.0, v0 + 0.5), v_lo = v0 - 1.0;
-    for (int i = 0; i < opt.curve_points; ++i) {
-      const double v = v_hi + (v_lo - v_hi) * i / (opt.curve_points - 1);
-      std::vector<double> volts = design_volts;
-      if (ga >= 0) volts[static_cast<std::size_t>(ga)] = v;
-      if (gb >= 0) volts[static_cast<std::size_t>(gb)] = v;
-      last = problem.Solve(volts, &last);
-      ConstrictionModel::Sample sample{v, {}};
-      if (last.stats.converged) {
-        const Saddle s = saddle_of(last);
-        if (s.ok) sample.transmission = s.t;
-      }
-      cm.curve.push_back(sample);
-    }
-    for (std::size_t c = 0; c < d.channels.size(); ++c) {
-      std::optional<double> at;
-      // A design value of exactly 1 or 0 is searched as 0.99 or 0.01 (where the channel starts to close).
-      const double target = std::clamp(opt.target_transmission.value_or(k.transmission[c]), 0.01, 0.99);
-      for (std::size_t i = 0; i + 1 < cm.curve.size() && !at; ++i) {
-        const auto& a = cm.curve[i];
-        const auto& b = cm.curve[i + 1];
-        if (a.transmission.empty() || b.transmission.empty() || std::isnan(a.transmission[c])) continue;
-        const double ta = a.transmission[c], tb = b.transmission[c];
-        if ((ta - target) * (tb - target) <= 0.0 && ta != tb)
-          at = a.voltage_V + (target - ta) / (tb - ta) * (b.voltage_V - a.voltage_V);
-      }
-      cm.voltage_for_target_V.push_back(at);
-      const std::string ch = "channel " + std::to_string(c + 1);
-      if (!d.channels[c].conductance.is_integer()) continue;
-      if (!at)
-        cm.warnings.push_back(ch + ": the design transmission is not reached between " +
-                              std::to_string(v_hi).substr(0, 5) + " and " + std::to_string(v_lo).substr(0, 5) +
-                              " V (beyond pinch-off or the sweep)");
-      else if (*at < opt.gate_voltage_limit_V)
-        cm.warnings.push_back(
-            ch + ": reaching the design transmission needs " + std::to_string(*at).substr(0, 6) +
-            " V, beyond the gate-voltage limit " + std::to_string(opt.gate_voltage_limit_V).substr(0, 5) +
-            " V (a conservative leakage onset, common practice): a gate driven past leakage can destroy the sample");
-    }
-    result->constrictions.push_back(cm);
-  }
+  ModelSetting s{d,
+                 opt,
+                 d.heterostructure.depth_m,
+                 d.heterostructure.effective_mass * constants::kElectronMass_kg,
+                 fig.fermi_energy_J,
+                 fig.cyclotron_energy_J,
+                 {}};
+  for (const Gate& g : d.gates) s.design_volts.push_back(g.voltage_V);
+  for (std::size_t ki = 0; ki < d.constrictions.size(); ++ki)
+    if (auto cm = model_constriction(s, ki)) result->constrictions.push_back(std::move(*cm));
 }
 
 }  // namespace hallway
