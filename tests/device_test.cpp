@@ -104,3 +104,53 @@ TEST(Device, WarmStartsExtrapolateEquallySpacedPoints) {
 
 }  // namespace
 }  // namespace hallway
+
+namespace hallway {
+namespace {
+
+// The one scattering rule (network.hpp): every piece that ends at a port steps onto the piece leaving
+// the same face (reflected) and the one leaving the other face (transmitted) with the design's t; a
+// carrier from source SA can reach drain D1 (through QA's reflection and the collider) but, with the
+// edges' chirality, never reaches SA again through a cold ground.
+TEST(ScatteringRule, StepsAndReachOnTheColliderDemo) {
+  DeviceOptions options;
+  options.bare_estimate = true;
+  const Device device(LoadDesign(test::SourcePath("designs/02_two_source_collider.yaml")), options);
+  ASSERT_TRUE(device.usable());
+  const Design& d = device.design();
+  const EdgeNetwork& net = device.edges();
+  int ports = 0;
+  std::vector<int> from_sa;
+  for (std::size_t p = 0; p < net.pieces.size(); ++p) {
+    const EdgePiece& e = net.pieces[p];
+    if (e.from.kind == EdgeEnd::Kind::kContact && d.contacts[static_cast<std::size_t>(e.from.index)].name == "SA")
+      from_sa.push_back(static_cast<int>(p));
+    const auto step = StepAtPort(d, net, static_cast<int>(p));
+    if (e.to.kind == EdgeEnd::Kind::kContact) {
+      EXPECT_FALSE(step);
+      continue;
+    }
+    ASSERT_TRUE(step);
+    ++ports;
+    EXPECT_EQ(step->transmission, d.constrictions[static_cast<std::size_t>(e.to.index)].transmission[0]);
+    ASSERT_GE(step->reflected, 0);
+    ASSERT_GE(step->transmitted, 0);
+    EXPECT_EQ(net.pieces[static_cast<std::size_t>(step->reflected)].from.face, e.to.face);
+    EXPECT_EQ(net.pieces[static_cast<std::size_t>(step->transmitted)].from.face, 1 - e.to.face);
+  }
+  EXPECT_GE(ports, 6);  // three constrictions, two faces each
+  ASSERT_FALSE(from_sa.empty());
+  const std::vector<char> reach = ReachablePieces(d, net, from_sa);
+  bool d1 = false, back_to_sa = false;
+  for (std::size_t p = 0; p < net.pieces.size(); ++p) {
+    if (!reach[p] || net.pieces[p].to.kind != EdgeEnd::Kind::kContact) continue;
+    const std::string& to = d.contacts[static_cast<std::size_t>(net.pieces[p].to.index)].name;
+    d1 = d1 || to == "D1";
+    back_to_sa = back_to_sa || to == "SA";
+  }
+  EXPECT_TRUE(d1);
+  EXPECT_FALSE(back_to_sa);
+}
+
+}  // namespace
+}  // namespace hallway

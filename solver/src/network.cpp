@@ -539,20 +539,53 @@ int PortPiece(const EdgeNetwork& net, int channel, int constriction, int face, b
   return -1;
 }
 
+std::optional<PortStep> StepAtPort(const Design& d, const EdgeNetwork& net, int piece) {
+  const EdgePiece& e = net.pieces[static_cast<std::size_t>(piece)];
+  if (e.to.kind != EdgeEnd::Kind::kConstriction) return std::nullopt;
+  PortStep s;
+  s.transmission =
+      d.constrictions[static_cast<std::size_t>(e.to.index)].transmission[static_cast<std::size_t>(e.channel)];
+  s.reflected = PortPiece(net, e.channel, e.to.index, e.to.face, true);
+  s.transmitted = PortPiece(net, e.channel, e.to.index, 1 - e.to.face, true);
+  return s;
+}
+
+std::vector<char> ReachablePieces(const Design& d, const EdgeNetwork& net, const std::vector<int>& starts,
+                                  const std::vector<int>& channels) {
+  std::vector<char> reach(net.pieces.size(), 0);
+  auto counts = [&](int p) {
+    return channels.empty() || std::find(channels.begin(), channels.end(), net.pieces[static_cast<std::size_t>(p)].channel) !=
+                                   channels.end();
+  };
+  std::vector<int> stack;
+  for (int s : starts)
+    if (counts(s)) stack.push_back(s);
+  while (!stack.empty()) {
+    const int p = stack.back();
+    stack.pop_back();
+    if (reach[static_cast<std::size_t>(p)]) continue;
+    reach[static_cast<std::size_t>(p)] = 1;
+    const auto step = StepAtPort(d, net, p);
+    if (!step) continue;
+    if (step->transmission < 1.0 && step->reflected >= 0 && counts(step->reflected)) stack.push_back(step->reflected);
+    if (step->transmission > 0.0 && step->transmitted >= 0 && counts(step->transmitted))
+      stack.push_back(step->transmitted);
+  }
+  return reach;
+}
+
 // Strongly connected components of the coherent piece graph with a cycle: the loops.
 std::vector<std::vector<int>> FindEdgeLoops(const Design& d, const EdgeNetwork& net, const std::vector<int>& channels) {
   const int n = static_cast<int>(net.pieces.size());
   std::vector<std::vector<int>> next(static_cast<std::size_t>(n));
   for (int p = 0; p < n; ++p) {
     const EdgePiece& e = net.pieces[static_cast<std::size_t>(p)];
-    if (e.to.kind != EdgeEnd::Kind::kConstriction) continue;
     if (std::find(channels.begin(), channels.end(), e.channel) == channels.end()) continue;
-    const double t =
-        d.constrictions[static_cast<std::size_t>(e.to.index)].transmission[static_cast<std::size_t>(e.channel)];
-    const int back = PortPiece(net, e.channel, e.to.index, e.to.face, true);
-    const int across = PortPiece(net, e.channel, e.to.index, 1 - e.to.face, true);
-    if (t < 1.0 && back >= 0) next[static_cast<std::size_t>(p)].push_back(back);
-    if (t > 0.0 && across >= 0) next[static_cast<std::size_t>(p)].push_back(across);
+    const auto step = StepAtPort(d, net, p);
+    if (!step) continue;
+    if (step->transmission < 1.0 && step->reflected >= 0) next[static_cast<std::size_t>(p)].push_back(step->reflected);
+    if (step->transmission > 0.0 && step->transmitted >= 0)
+      next[static_cast<std::size_t>(p)].push_back(step->transmitted);
   }
   // Tarjan's algorithm.
   std::vector<int> index(static_cast<std::size_t>(n), -1), low(static_cast<std::size_t>(n), 0), stack;

@@ -20,6 +20,7 @@
 // the two faces of the slit are the constriction's ports.
 #pragma once
 
+#include <optional>
 #include <string>
 #include <vector>
 
@@ -120,6 +121,25 @@ std::string DescribeEnd(const Design& design, const EdgeEnd& end);  // "W", "Q/f
 // The edge piece of `channel` that leaves (outgoing) or arrives at (incoming) face `face` of a
 // constriction, or -1.
 int PortPiece(const EdgeNetwork& network, int channel, int constriction, int face, bool outgoing);
+
+// The one scattering rule at a constriction port (docs/models.md "Edge network and Landauer-Büttiker
+// transport"): a carrier on a piece that ends at face f of a constriction goes on along the piece that
+// leaves face f (reflected, with probability 1 - t) or along the piece that leaves the other face
+// (transmitted, t), where t is the constriction's transmission for the piece's channel. Transport
+// weights the two by 1 - t and t, the coherent noise by the amplitudes sqrt(1 - t) and i sqrt(t).
+struct PortStep {
+  int reflected = -1;    // the piece that leaves the same face
+  int transmitted = -1;  // the piece that leaves the other face
+  double transmission = 0.0;
+};
+// The step at the end of piece `piece`, or nullopt when the piece ends at a contact.
+std::optional<PortStep> StepAtPort(const Design& design, const EdgeNetwork& network, int piece);
+
+// The pieces a carrier can reach from `starts` (steps of nonzero probability: reflected when t < 1,
+// transmitted when t > 0; a piece that ends at a contact ends the walk), among pieces of `channels`
+// (all channels when empty). reach[p] is 1 for each reachable piece.
+std::vector<char> ReachablePieces(const Design& design, const EdgeNetwork& network, const std::vector<int>& starts,
+                                  const std::vector<int>& channels = {});
 
 // Loops of the edge network: strongly connected sets of pieces (Tarjan) among the given channels,
 // joined through constrictions that let the edge go that way (t > 0 across, t < 1 back). Each loop
