@@ -310,7 +310,8 @@ void field_views(std::string& out, const Design& d, const FieldAssessment& a) {
   for (const SourceView& v : a.sources) {
     std::string s;
     for (const auto& r : v.returns)
-      s += fmt::format("{}{} {:.3g} %", s.empty() ? "" : ", ", name(r.first), 100.0 * r.second);
+      s += fmt::format("{}{}{} {:.3g} %", s.empty() ? "" : ", ", name(r.first),
+                       r.first == v.contact ? " (itself, reflected back)" : "", 100.0 * r.second);
     row(out, "  source " + name(v.contact), "current returns at " + (s.empty() ? std::string("no contact") : s));
   }
 }

@@ -156,8 +156,8 @@ TEST(WiringVerdict, HallBarWorksAndTheCardListsTheVoltagePairs) {
 // `solve --fast` is the same, and the card's currents are exactly the currents `solve --fast` prints.
 std::vector<std::string> AllDesigns() {
   std::vector<std::string> out;
-  for (const char* dir :
-       {"designs", "tests/data/network", "tests/data/noise", "tests/data/electrostatics", "tests/data/wiring"})
+  for (const char* dir : {"designs", "tests/data/network", "tests/data/noise", "tests/data/electrostatics",
+                          "tests/data/wiring", "tests/data/gds"})
     for (const auto& e : fs::directory_iterator(test::SourcePath(dir)))
       if (e.path().extension() == ".yaml") out.push_back(e.path().string());
   std::sort(out.begin(), out.end());
