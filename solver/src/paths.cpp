@@ -10,6 +10,7 @@
 #include <stdexcept>
 
 #include "hallway/constants.hpp"
+#include "hallway/gap.hpp"
 #include "hallway/geometry/exact.hpp"
 #include "hallway/heterostructure.hpp"
 #include "hallway/map.hpp"

@@ -10,19 +10,11 @@
 #include <vector>
 
 #include "hallway/design.hpp"
+#include "hallway/finding.hpp"  // Severity, Finding
+#include "hallway/gap.hpp"      // FindGap
 #include "hallway/heterostructure.hpp"
 
 namespace hallway {
-
-enum class Severity { kError, kWarning };
-std::string ToString(Severity s);
-
-struct Finding {
-  Severity severity = Severity::kWarning;
-  std::string code;  // stable short identifier, e.g. "gate-overlap"
-  std::string message;
-  SourceLocation where;  // the first object involved
-};
 
 struct ConstrictionGap {
   std::string name;
@@ -58,11 +50,5 @@ struct CheckResult {
 };
 
 CheckResult CheckDesign(const Design& design, const CheckOptions& options = {});
-
-// The shortest segment between the two sides of a constriction: `on_a` on its gate (the first gate,
-// or the only one when the other side is `mesa`), `on_b` on the other side. For a gate against the
-// mesa, the mesa edges that the gate itself meets are left out. nullopt (with the reason) when the
-// sides touch or no gap is left.
-std::optional<geometry::ClosestPair> FindGap(const Design& design, const Constriction& k, std::string* why);
 
 }  // namespace hallway

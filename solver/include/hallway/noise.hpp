@@ -27,8 +27,8 @@
 #include <string>
 #include <vector>
 
-#include "hallway/check.hpp"
 #include "hallway/design.hpp"
+#include "hallway/finding.hpp"
 #include "hallway/network.hpp"
 #include "hallway/transport.hpp"
 

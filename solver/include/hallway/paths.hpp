@@ -23,9 +23,9 @@
 #include <string>
 #include <vector>
 
-#include "hallway/check.hpp"
 #include "hallway/design.hpp"
 #include "hallway/electrostatics.hpp"
+#include "hallway/finding.hpp"
 #include "hallway/network.hpp"
 #include "hallway/transport.hpp"
 
