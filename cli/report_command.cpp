@@ -282,17 +282,21 @@ std::vector<std::pair<fs::path, std::string>> draw_figures(const ReportData& r, 
     if (ss.empty()) continue;
     const std::string name = d.constrictions[static_cast<std::size_t>(c.constriction)].name;
     const fs::path p = dir / ("transmission_" + name + ".png");
-    figures::DrawPlot(ss, "gate voltage of both sides (V)", "transmission",
-                      "constriction " + name + ": saddle-point model", p.string(), figures::Format::kPng);
+    for (auto f : {figures::Format::kPng, figures::Format::kSvg})
+      figures::DrawPlot(ss, "gate voltage of both sides (V)", "transmission",
+                        "constriction " + name + ": saddle-point model",
+                        fs::path(p).replace_extension(figures::ToString(f)).string(), f);
     pictures.push_back({p, "Transmission of each channel of " + name + " against its gate voltage"});
   }
   if (!amps.empty() && !sources.empty()) {
-    figures::DrawPlot(current_series, "bias / design bias", "current into the device (pA)",
-                      "currents at the amplifier contacts", (dir / "current_vs_bias.png").string(),
-                      figures::Format::kPng);
-    figures::DrawPlot(noise_series, "bias / design bias", "excess noise (1e-30 A^2/Hz)",
-                      "excess current noise at the amplifiers", (dir / "noise_vs_bias.png").string(),
-                      figures::Format::kPng);
+    for (auto f : {figures::Format::kPng, figures::Format::kSvg}) {
+      figures::DrawPlot(current_series, "bias / design bias", "current into the device (pA)",
+                        "currents at the amplifier contacts",
+                        (dir / ("current_vs_bias." + figures::ToString(f))).string(), f);
+      figures::DrawPlot(noise_series, "bias / design bias", "excess noise (1e-30 A^2/Hz)",
+                        "excess current noise at the amplifiers",
+                        (dir / ("noise_vs_bias." + figures::ToString(f))).string(), f);
+    }
     pictures.push_back({dir / "current_vs_bias.png", "Currents at the amplifier contacts against the source bias"});
     pictures.push_back({dir / "noise_vs_bias.png", "Excess noise at the amplifier contacts against the source bias"});
   }
@@ -306,8 +310,10 @@ std::vector<std::pair<fs::path, std::string>> draw_figures(const ReportData& r, 
     }
     const std::string name = d.constrictions[static_cast<std::size_t>(c.constriction)].name;
     const fs::path p = dir / ("collider_" + name + ".png");
-    figures::DrawPlot({s}, "I- / I+", "generalized Fano factor P",
-                      "collider " + name + " (Rosenow, Levkivskyi & Halperin 2016)", p.string(), figures::Format::kPng);
+    for (auto f : {figures::Format::kPng, figures::Format::kSvg})
+      figures::DrawPlot({s}, "I- / I+", "generalized Fano factor P",
+                        "collider " + name + " (Rosenow, Levkivskyi & Halperin 2016)",
+                        fs::path(p).replace_extension(figures::ToString(f)).string(), f);
     pictures.push_back({p, "Collider " + name + ": P against the imbalance of the two streams"});
   }
   return pictures;

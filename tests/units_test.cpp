@@ -91,6 +91,59 @@ TEST(Units, MalformedUnitsAreRejected) {
   EXPECT_THROW(Parse("3 cV", Kind::kVoltage), UnitError);  // centi- only for the metre
 }
 
+// The message for `text` read as `kind`, or "" when it parses.
+std::string message(std::string_view text, Kind kind) {
+  try {
+    Parse(text, kind);
+  } catch (const UnitError& e) {
+    return e.what();
+  }
+  return "";
+}
+
+// The expected symbols are the SI spellings (BIPM, The International System of Units, 9th edition,
+// 2019, tables 2 and 7): mK, mV, nm, mT, ms; rtHz and cm are this project's own accepted units.
+TEST(Units, ATypoOfTheCaseGetsTheUnitOfTheExpectedKind) {
+  EXPECT_NE(message("15 mk", Kind::kTemperature).find("did you mean 'mK'?"), std::string::npos)
+      << message("15 mk", Kind::kTemperature);
+  EXPECT_NE(message("-0.3 mv", Kind::kVoltage).find("did you mean 'mV'?"), std::string::npos)
+      << message("-0.3 mv", Kind::kVoltage);
+  EXPECT_NE(message("110 NM", Kind::kLength).find("did you mean 'nm'?"), std::string::npos)
+      << message("110 NM", Kind::kLength);
+  // The message still quotes the unit and lists the known units.
+  EXPECT_NE(message("15 mk", Kind::kTemperature).find("unknown unit 'mk'"), std::string::npos);
+  EXPECT_NE(message("15 mk", Kind::kTemperature).find("known:"), std::string::npos);
+}
+
+TEST(Units, ATypoOneEditAwayGetsTheUnitThatFitsTheKind) {
+  EXPECT_NE(message("95 nn", Kind::kLength).find("did you mean 'nm'?"), std::string::npos)
+      << message("95 nn", Kind::kLength);
+  // "mt" is one case change from mT (a field) and one letter from ms (a time): the key decides.
+  EXPECT_NE(message("3 mt", Kind::kField).find("did you mean 'mT'?"), std::string::npos)
+      << message("3 mt", Kind::kField);
+  EXPECT_NE(message("3 mt", Kind::kTime).find("did you mean 'ms'?"), std::string::npos) << message("3 mt", Kind::kTime);
+  EXPECT_EQ(message("3 mt", Kind::kTime).find("mT"), std::string::npos) << message("3 mt", Kind::kTime);
+}
+
+TEST(Units, ATypoInsideACompoundUnitIsFoundInPlace) {
+  EXPECT_NE(message("2.3e11 CM^-2", Kind::kSheetDensity).find("did you mean 'cm'?"), std::string::npos)
+      << message("2.3e11 CM^-2", Kind::kSheetDensity);
+  EXPECT_NE(message("0.25 nV/rthz", Kind::kVoltageNoise).find("did you mean 'rtHz'?"), std::string::npos)
+      << message("0.25 nV/rthz", Kind::kVoltageNoise);
+}
+
+TEST(Units, NoSuggestionWhenNothingIsNear) {
+  const std::string m = message("95 parsec", Kind::kLength);
+  EXPECT_NE(m.find("unknown unit 'parsec'"), std::string::npos) << m;
+  EXPECT_EQ(m.find("did you mean"), std::string::npos) << m;
+  // Several unknown factors: one pass over the candidates, and still an error.
+  EXPECT_NE(message("1 qq rr ss tt uu vv ww", Kind::kTime).find("unknown unit 'qq'"), std::string::npos);
+  // Micro written u, µ (micro sign) or μ (Greek mu) is a unit, not a typo.
+  EXPECT_EQ(message("1.5 um", Kind::kLength), "");
+  EXPECT_EQ(message("1.5 \xC2\xB5m", Kind::kLength), "");
+  EXPECT_EQ(message("1.5 \xCE\xBCm", Kind::kLength), "");
+}
+
 TEST(Units, PlainNumbersForDimensionlessKeys) {
   EXPECT_DOUBLE_EQ(Parse("12.9", Kind::kDimensionless), 12.9);
   EXPECT_THROW(Parse("12.9 V", Kind::kDimensionless), UnitError);

@@ -3,6 +3,7 @@
 
 #include <algorithm>
 #include <array>
+#include <cctype>
 #include <charconv>
 #include <cmath>
 #include <cstdio>
@@ -86,20 +87,108 @@ const Symbol* find_symbol(std::string_view s) {
   throw UnitError("'" + std::string(text) + "': " + why);
 }
 
-// One factor such as "cm", "kOhm", "Hz", "rtHz" (no power); returns scale and dimension.
-Quantity factor(std::string_view whole, std::string_view tok) {
-  if (tok == "sqrt(Hz)") return {1.0, kRootHertz};
-  if (const Symbol* s = find_symbol(tok)) return {s->scale, s->dim};
+// One factor such as "cm", "kOhm", "Hz", "rtHz" (no power); returns scale and dimension, or nothing for a
+// token that is not a unit.
+std::optional<Quantity> try_factor(std::string_view tok) {
+  if (tok == "sqrt(Hz)") return Quantity{1.0, kRootHertz};
+  if (const Symbol* s = find_symbol(tok)) return Quantity{s->scale, s->dim};
   for (const Prefix& p : kPrefixes) {
     if (tok.size() > p.name.size() && tok.substr(0, p.name.size()) == p.name) {
       const Symbol* s = find_symbol(tok.substr(p.name.size()));
       if (!s || !s->prefixable) continue;
       if (p.name == "c" && s->name != "m") continue;  // only the centimetre
-      return {p.scale * s->scale, s->dim};
+      return Quantity{p.scale * s->scale, s->dim};
     }
   }
-  fail(whole, "unknown unit '" + std::string(tok) +
-                  "' (known: m, s, min, h, Hz, rtHz, V, Vs, A, Ohm, S, T, K, eV, J, W, C, F, g with prefixes "
+  return std::nullopt;
+}
+
+// Every factor a unit may be made of: the symbols, each prefixable one with every prefix, sqrt(Hz).
+const std::vector<std::string>& all_factors() {
+  static const std::vector<std::string> list = [] {
+    std::vector<std::string> out{"sqrt(Hz)"};
+    for (const Symbol& s : symbols()) {
+      out.emplace_back(s.name);
+      if (!s.prefixable) continue;
+      for (const Prefix& p : kPrefixes)
+        if (p.name != "c" || s.name == "m") out.push_back(std::string(p.name) + std::string(s.name));
+    }
+    return out;
+  }();
+  return list;
+}
+
+char lower(char c) {
+  return static_cast<char>(std::tolower(static_cast<unsigned char>(c)));
+}
+
+// How far `typed` is from the known factor `known`: 1 + the number of letters whose case differs when
+// the two are equal ignoring case, 10 for one insertion, deletion, substitution or swap of neighbours
+// (edit distance 1), nothing when further apart.
+std::optional<int> typo_distance(std::string_view typed, std::string_view known) {
+  if (typed.size() == known.size()) {
+    int case_changes = 0, other = 0;
+    std::vector<std::size_t> differ;
+    for (std::size_t k = 0; k < typed.size(); ++k) {
+      if (typed[k] == known[k]) continue;
+      differ.push_back(k);
+      lower(typed[k]) == lower(known[k]) ? ++case_changes : ++other;
+    }
+    if (other == 0) return 1 + case_changes;
+    if (differ.size() == 1) return 10;
+    if (differ.size() == 2 && differ[1] == differ[0] + 1 && typed[differ[0]] == known[differ[1]] &&
+        typed[differ[1]] == known[differ[0]])
+      return 10;
+    return std::nullopt;
+  }
+  const std::string_view longer = typed.size() > known.size() ? typed : known;
+  const std::string_view shorter = typed.size() > known.size() ? known : typed;
+  if (longer.size() != shorter.size() + 1) return std::nullopt;
+  for (std::size_t k = 0; k < longer.size(); ++k)
+    if (std::string(longer.substr(0, k)) + std::string(longer.substr(k + 1)) == shorter) return 10;
+  return std::nullopt;
+}
+
+Quantity parse_unit(std::string_view unit, const Dimension* want, bool suggest);
+
+// The known factors closest to the unknown token `tok` at `at` in `whole` (equal ignoring case first, then
+// one edit away) that make the whole unit parse, with the dimension `want` when given.
+std::vector<std::string> suggestions(std::string_view whole, std::size_t at, std::string_view tok,
+                                     const Dimension* want) {
+  std::vector<std::string> best;
+  int best_distance = 1000;
+  for (const std::string& cand : all_factors()) {
+    const auto dist = typo_distance(tok, cand);
+    if (!dist || *dist > best_distance) continue;
+    const std::string fixed = std::string(whole.substr(0, at)) + cand + std::string(whole.substr(at + tok.size()));
+    try {
+      const Quantity q = parse_unit(fixed, nullptr, false);
+      if (want && !(q.dimension == *want)) continue;
+    } catch (const UnitError&) {
+      continue;
+    }
+    if (*dist < best_distance) best.clear();
+    best_distance = *dist;
+    if (std::find(best.begin(), best.end(), cand) == best.end()) best.push_back(cand);
+  }
+  return best;
+}
+
+// One factor of `whole` (the token `tok` at offset `at`); an unknown one fails, with suggestions when asked
+// (never while testing a suggestion, so a unit with several typos costs one pass over the candidates).
+Quantity factor(std::string_view whole, std::size_t at, std::string_view tok, const Dimension* want, bool suggest) {
+  if (const auto q = try_factor(tok)) return *q;
+  if (!suggest) fail(whole, "unknown unit '" + std::string(tok) + "'");
+  std::string hint;
+  const std::vector<std::string> near = suggestions(whole, at, tok, want);
+  for (std::size_t k = 0; k < near.size() && k < 3; ++k)
+    hint += (k == 0                                           ? "; did you mean '"
+             : k + 1 == std::min<std::size_t>(near.size(), 3) ? "' or '"
+                                                              : "', '") +
+            near[k];
+  if (!hint.empty()) hint += "'?";
+  fail(whole, "unknown unit '" + std::string(tok) + "'" + hint +
+                  " (known: m, s, min, h, Hz, rtHz, V, Vs, A, Ohm, S, T, K, eV, J, W, C, F, g with prefixes "
                   "f p n u/µ m c k M G)");
 }
 
@@ -108,9 +197,8 @@ bool is_unit_char(char c) {
   return std::isalpha(u) || u >= 0x80 || c == '(' || c == ')';
 }
 
-}  // namespace
-
-Quantity ParseUnit(std::string_view unit) {
+// Parses a unit; `want`, when given, is the dimension the caller expects (used only for suggestions).
+Quantity parse_unit(std::string_view unit, const Dimension* want, bool suggest) {
   Quantity q{1.0, kNone};
   bool denominator = false;
   std::size_t i = 0;
@@ -132,7 +220,7 @@ Quantity ParseUnit(std::string_view unit) {
     while (j < unit.size() && is_unit_char(unit[j])) ++j;
     if (j == i) fail(unit, std::string("unexpected character '") + c + "' in the unit");
     const std::string_view tok = unit.substr(i, j - i);
-    Quantity f = factor(unit, tok);
+    Quantity f = factor(unit, i, tok, want, suggest);
     int power = 1;
     if (j < unit.size() && unit[j] == '^') {
       ++j;
@@ -155,7 +243,7 @@ Quantity ParseUnit(std::string_view unit) {
   return q;
 }
 
-Quantity ParseQuantity(std::string_view text) {
+Quantity parse_quantity(std::string_view text, const Dimension* want) {
   std::size_t b = 0, e = text.size();
   while (b < e && std::isspace(static_cast<unsigned char>(text[b]))) ++b;
   while (e > b && std::isspace(static_cast<unsigned char>(text[e - 1]))) --e;
@@ -171,10 +259,20 @@ Quantity ParseQuantity(std::string_view text) {
   std::string_view rest = t.substr(static_cast<std::size_t>(ptr - t.data()));
   while (!rest.empty() && rest.front() == ' ') rest.remove_prefix(1);
   if (rest.empty()) return {value, kNone};
-  Quantity u = ParseUnit(rest);
+  Quantity u = parse_unit(rest, want, true);
   const double v = value * u.value_si;
   if (!std::isfinite(v)) fail(text, "the value overflows in SI units");
   return {v, u.dimension};
+}
+
+}  // namespace
+
+Quantity ParseUnit(std::string_view unit) {
+  return parse_unit(unit, nullptr, true);
+}
+
+Quantity ParseQuantity(std::string_view text) {
+  return parse_quantity(text, nullptr);
 }
 
 std::string ToString(Kind k) {
@@ -262,8 +360,8 @@ std::string ToString(const Dimension& d) {
 }
 
 double Parse(std::string_view text, Kind kind) {
-  const Quantity q = ParseQuantity(text);
   const Dimension want = DimensionOf(kind);
+  const Quantity q = parse_quantity(text, &want);
   if (q.dimension == want) return q.value_si;
   if (q.dimension == kNone) fail(text, "a " + ToString(kind) + " needs a unit, e.g. '" + ExampleFor(kind) + "'");
   if (want == kNone) fail(text, "expected a plain number without a unit, e.g. '" + ExampleFor(kind) + "'");
