@@ -312,11 +312,11 @@ std::string sweep_csv(const Design& d, const EdgeNetwork& net, const NoiseOption
 int RunNoise(const NoiseArgs& args) {
   std::size_t max_memory = 0;
   if (int code = 0; !ParseMaxMemory(args.max_memory, &max_memory, &code)) return code;
-  Design d;
-  if (int code = 0; !LoadOrReport(args.design_path, &d, &code)) return code;
+  Design design;
+  if (int code = 0; !LoadOrReport(args.design_path, &design, &code)) return code;
   Sweep sweep;
   if (!args.sweep.empty()) {
-    const std::string why = parse_sweep(d, args.sweep, args.ratio, &sweep);
+    const std::string why = parse_sweep(design, args.sweep, args.ratio, &sweep);
     if (!why.empty()) {
       std::cerr << "hallway: usage error: " << why << "\n";
       return kExitUsage;
@@ -334,32 +334,21 @@ int RunNoise(const NoiseArgs& args) {
     std::cerr << "hallway: usage error: --target must be positive\n";
     return kExitUsage;
   }
-  const CheckResult check = CheckDesign(d);
-  if (ReportErrors(check.findings) > 0) {
-    std::cerr << "hallway: run `hallway check` for the full list; nothing was solved\n";
-    return kExitDesignError;
-  }
   NoiseOptions opt;
   opt.target_sigmas = args.target_sigmas;
   if (args.phase_given) opt.loop_phase_rad = args.phase_rad;
   opt.collider_model = ColliderModelFromString(args.collider_model).value_or(ColliderModel::kZeroTemperature);
-  ChannelGeometry geometry;
+  std::optional<Device> device;
   std::string es_note;
-  if (int code = 0; !BuildGeometry(d, args.fast, &geometry, &es_note, &code, nullptr, max_memory)) return code;
-  const double field = args.reversed_only ? -d.conditions.field_T : d.conditions.field_T;
-  const EdgeNetwork net = TraceEdges(d, geometry, field);
-  std::vector<Finding> errors;
-  for (const std::vector<Finding>* list :
-       std::initializer_list<const std::vector<Finding>*>{&geometry.findings, &net.findings})
-    for (const Finding& f : *list)
-      if (f.severity == Severity::kError) errors.push_back(f);
-  if (!errors.empty()) {
-    for (const Finding& f : errors)
-      std::cerr << "hallway: design error: " << f.where.ToString() << ": " << f.message << "\n";
-    return kExitDesignError;
-  }
-  const TransportResult tr = SolveTransport(d, net);
-  const NoiseResult n = SolveNoise(d, net, tr, opt);
+  if (int code = 0; !BuildDevice(std::move(design), args.fast, max_memory, &device, &es_note, &code)) return code;
+  const Design& d = device->design();
+  const CheckResult& check = device->check();
+  const ChannelGeometry& geometry = device->geometry();
+  const FieldSign sign = args.reversed_only ? FieldSign::kReversed : FieldSign::kDesign;
+  const EdgeNetwork& net = device->edges(sign);
+  if (ReportErrors(net.findings) > 0) return kExitDesignError;
+  const TransportResult& tr = device->transport(sign);
+  const NoiseResult n = device->noise(opt, sign);
   if (!RequireFinite(tr.conductance_S, "the conductance matrix") ||
       !RequireFinite(n.total_A2_per_Hz, "the noise matrix"))
     return kExitInternal;
@@ -372,7 +361,7 @@ int RunNoise(const NoiseArgs& args) {
   std::string out = fmt::format("hallway noise  {}\n", d.path);
   if (!d.name.empty()) out += fmt::format("  design: {}\n", d.name);
   out += fmt::format("  bulk filling nu = {}, field {:+.4g} T{}, temperature {}\n", d.conditions.filling.ToString(),
-                     field, args.reversed_only ? " (reversed)" : "", FormatSI(d.conditions.temperature_K, "K"));
+                     device->field_T(sign), args.reversed_only ? " (reversed)" : "", FormatSI(d.conditions.temperature_K, "K"));
   out += fmt::format("  edge boundaries: {}\n", geometry.model);
   out += es_note;
   out += "  models:\n";
@@ -385,7 +374,7 @@ int RunNoise(const NoiseArgs& args) {
   std::vector<std::string> warnings;
   for (const Finding& f : check.findings) warnings.push_back(f.message);
   for (const Finding& f : geometry.findings) warnings.push_back(f.message);
-  const std::string label = ReversedFieldLabel(d, verdict, field);
+  const std::string label = ReversedFieldLabel(d, verdict, device->field_T(sign));
   for (const std::vector<Finding>* list :
        std::initializer_list<const std::vector<Finding>*>{&net.findings, &tr.findings, &n.findings})
     for (const Finding& f : *list) warnings.push_back((label.empty() ? "" : "[" + label + "] ") + f.message);

@@ -236,46 +236,40 @@ std::vector<int> parse_four(const Design& d, const std::string& spec, std::strin
 int RunSolve(const SolveArgs& args) {
   std::size_t max_memory = 0;
   if (int code = 0; !ParseMaxMemory(args.max_memory, &max_memory, &code)) return code;
-  Design d;
-  if (int code = 0; !LoadOrReport(args.design_path, &d, &code)) return code;
+  Design design;
+  if (int code = 0; !LoadOrReport(args.design_path, &design, &code)) return code;
   std::vector<int> four;
   if (!args.four_terminal.empty()) {
     std::string why;
-    four = parse_four(d, args.four_terminal, &why);
+    four = parse_four(design, args.four_terminal, &why);
     if (four.empty()) {
       std::cerr << "hallway: usage error: " << why << "\n";
       return kExitUsage;
     }
   }
-  const CheckResult check = CheckDesign(d);
-  if (ReportErrors(check.findings) > 0) {
-    std::cerr << "hallway: run `hallway check` for the full list; nothing was solved\n";
-    return kExitDesignError;
-  }
-  ChannelGeometry geometry;
+  std::optional<Device> device;
   std::string es_note;
-  DensityMap map;
-  if (int code = 0; !BuildGeometry(d, args.fast, &geometry, &es_note, &code, &map, max_memory)) return code;
-  std::vector<double> fields;
-  if (!args.reversed_only) fields.push_back(d.conditions.field_T);
-  fields.push_back(-d.conditions.field_T);
+  if (int code = 0; !BuildDevice(std::move(design), args.fast, max_memory, &device, &es_note, &code)) return code;
+  const Design& d = device->design();
+  const CheckResult& check = device->check();
+  const ChannelGeometry& geometry = device->geometry();
+  std::vector<FieldSign> signs;
+  if (!args.reversed_only) signs.push_back(FieldSign::kDesign);
+  signs.push_back(FieldSign::kReversed);
   std::vector<Solved> solved;
   std::vector<Finding> errors;
-  for (const Finding& f : geometry.findings)
-    if (f.severity == Severity::kError) errors.push_back(f);
-  for (double b : fields) {
-    if (!errors.empty()) break;
-    EdgeNetwork net = TraceEdges(d, geometry, b);
+  for (FieldSign sign : signs) {
+    const EdgeNetwork& net = device->edges(sign);
     for (const Finding& f : net.findings)
       if (f.severity == Severity::kError) errors.push_back(f);
     if (!errors.empty()) break;
-    TransportResult t = SolveTransport(d, net);
+    const TransportResult& t = device->transport(sign);
     if (!RequireFinite(t.conductance_S, "the conductance matrix") ||
         !RequireFinite({t.current_A}, "the contact currents"))
       return kExitInternal;
     for (const Finding& f : t.findings)
       if (f.severity == Severity::kError) errors.push_back(f);
-    solved.push_back({std::move(net), std::move(t)});
+    solved.push_back({net, t});
   }
   if (!errors.empty()) {
     for (const Finding& f : errors)
@@ -330,7 +324,7 @@ int RunSolve(const SolveArgs& args) {
     PathOptions po;
     po.max_memory_bytes = max_memory;
     PathResult paths =
-        ComputePaths(d, solved.front().network, solved.front().transport, args.fast ? nullptr : &map, po);
+        ComputePaths(d, solved.front().network, solved.front().transport, device->density(), po);
     ComputeConstrictionModels(d, po, &paths);
     const json pj = PathsJson(d, solved.front().network, paths);
     for (const char* key : {"paths", "loops", "constriction_models"}) j[key] = pj[key];
