@@ -9,6 +9,8 @@
 #include <mutex>
 #include <numbers>
 #include <stdexcept>
+#include <thread>
+#include <utility>
 
 #include "hallway/check.hpp"
 #include "hallway/constants.hpp"
@@ -20,17 +22,37 @@ using geometry::Point;
 using geometry::Polygon;
 
 double GatePotentialPerVolt(const Polygon& p, Point q, double d) {
+  // Each edge's term atan2(y_k, x_k) has x_k >= d (R_a + R_b) + d^2 > 0, since R_a R_b >= |a||b| >= -a.b.
+  // Their sum is the argument of the product of the x_k + i y_k: one atan2 per gate instead of one per
+  // edge. The sum lies in (-pi, pi) (half the solid angle, below 2 pi at d > 0), where the argument is
+  // single-valued, and its sign is the ring's orientation (a simple polygon's solid angle has one
+  // sign), so |sum| / pi needs no orientation test. Factors are taken as 1 + i y_k / x_k (same
+  // argument) and the product is rescaled before it can overflow.
   const auto& v = p.vertices;
-  const double s = geometry::signed_area(p) >= 0.0 ? 1.0 : -1.0;
+  const std::size_t n = v.size();
+  if (n == 0) return 0.0;
   const double d2 = d * d;
-  double sum = 0.0;
-  for (std::size_t k = 0; k < v.size(); ++k) {
-    const Point a{v[k].x - q.x, v[k].y - q.y};
-    const Point b{v[(k + 1) % v.size()].x - q.x, v[(k + 1) % v.size()].y - q.y};
-    const double ra = std::sqrt(a.x * a.x + a.y * a.y + d2), rb = std::sqrt(b.x * b.x + b.y * b.y + d2);
-    sum += std::atan2(a.x * b.y - a.y * b.x, ra * rb + d * (ra + rb) + a.x * b.x + a.y * b.y + d2);
+  double re = 1.0, im = 0.0;
+  Point a{v[0].x - q.x, v[0].y - q.y};
+  double ra = std::sqrt(a.x * a.x + a.y * a.y + d2);
+  const double r0 = ra;
+  for (std::size_t k = 0; k < n; ++k) {
+    const bool last = k + 1 == n;
+    const Point b = last ? Point{v[0].x - q.x, v[0].y - q.y} : Point{v[k + 1].x - q.x, v[k + 1].y - q.y};
+    const double rb = last ? r0 : std::sqrt(b.x * b.x + b.y * b.y + d2);
+    const double t = (a.x * b.y - a.y * b.x) / (ra * rb + d * (ra + rb) + a.x * b.x + a.y * b.y + d2);
+    const double re_next = re - im * t;
+    im += re * t;
+    re = re_next;
+    if (std::abs(re) + std::abs(im) > 1e100) {
+      const double scale = 1.0 / (std::abs(re) + std::abs(im));
+      re *= scale;
+      im *= scale;
+    }
+    a = b;
+    ra = rb;
   }
-  return s * sum / std::numbers::pi;
+  return std::abs(std::atan2(im, re)) / std::numbers::pi;
 }
 
 bool ElectrostaticsOptions::IsValid(std::string* why) const {
@@ -52,7 +74,7 @@ std::size_t ElectrostaticMemoryEstimate(int nx, int ny, int gates) {
   const std::size_t px = 2 * static_cast<std::size_t>(nx) + 16, py = 2 * static_cast<std::size_t>(ny) + 16;
   const std::size_t half = py * (px / 2 + 1);
   return px * py * sizeof(double) + half * sizeof(fftw_complex) + 2 * half * sizeof(double) +
-         (12 + static_cast<std::size_t>(gates)) * n * sizeof(double);
+         (13 + static_cast<std::size_t>(gates)) * n * sizeof(double);
 }
 
 namespace {
@@ -180,6 +202,99 @@ struct KernelGrid {
   }
 };
 
+// The bare gate potential sum_g V_g phi_g / V at the sample points of a grid (cell (i, j) at
+// (x0 + i h, y0 + j h); only where `use` is set, 0 elsewhere), for any voltages. One array per gate
+// would cost gates x cells doubles (4 GB for 500 gates on a million cells); kept instead are the total
+// at the design voltages, computed when first needed, and the arrays of the gates whose voltage
+// differs from the design's (a pinch-off search moves two gates), as many as set_budget() allows;
+// beyond that a gate's potential is evaluated afresh at each call. A call sums whichever is shorter:
+// the gates whose voltage differs from the design's (added to the stored total), or the gates at a
+// non-zero voltage. From zero, or at the design voltages, the sum is the same sequence of floating-point
+// operations per cell as a sum over all gates, so the result does not depend on what is stored.
+class GatePotentials {
+ public:
+  GatePotentials(const Design& d, int nx, int ny, double x0, double y0, double h, std::vector<char> use,
+                 int threads)
+      : nx_(nx), ny_(ny), x0_(x0), y0_(y0), h_(h), depth_(d.heterostructure.depth_m), threads_(threads),
+        use_(std::move(use)), unit_(d.gates.size()) {
+    for (const Gate& g : d.gates) {
+      outlines_.push_back(g.outline);
+      design_V_.push_back(g.voltage_V);
+    }
+  }
+  std::size_t cells() const { return static_cast<std::size_t>(nx_) * static_cast<std::size_t>(ny_); }
+  std::size_t gates() const { return outlines_.size(); }
+  void set_budget(std::size_t bytes) { max_stored_ = bytes / std::max<std::size_t>(1, cells() * sizeof(double)); }
+
+  std::vector<double> Total(const std::vector<double>& volts) const {
+    std::lock_guard<std::mutex> lock(mutex_);
+    std::vector<std::pair<std::size_t, double>> from_zero, from_design;
+    for (std::size_t g = 0; g < gates(); ++g) {
+      if (volts[g] != 0.0) from_zero.emplace_back(g, volts[g]);
+      if (volts[g] != design_V_[g]) from_design.emplace_back(g, volts[g] - design_V_[g]);
+    }
+    std::vector<double> phi(cells(), 0.0);
+    if (from_design.size() < from_zero.size()) {
+      if (design_total_.empty()) {
+        design_total_.assign(cells(), 0.0);
+        for (std::size_t g = 0; g < gates(); ++g)
+          if (design_V_[g] != 0.0) Add(g, design_V_[g], design_total_, false);
+      }
+      phi = design_total_;
+      for (const auto& [g, v] : from_design) Add(g, v, phi, true);
+    } else {
+      for (const auto& [g, v] : from_zero) Add(g, v, phi, true);
+    }
+    return phi;
+  }
+
+ private:
+  // phi += v phi_g / V, from the stored array of gate g, or evaluated (and stored when `keep` and the
+  // budget allow).
+  void Add(std::size_t g, double v, std::vector<double>& phi, bool keep) const {
+    if (unit_[g].empty() && keep && stored_ < max_stored_) {
+      unit_[g].assign(cells(), 0.0);
+      std::vector<double>& u = unit_[g];
+      ForCells([&](std::size_t c, Point q) { u[c] = GatePotentialPerVolt(outlines_[g], q, depth_); });
+      ++stored_;
+    }
+    if (!unit_[g].empty()) {
+      const std::vector<double>& u = unit_[g];
+      for (std::size_t c = 0; c < cells(); ++c) phi[c] += v * u[c];
+      return;
+    }
+    ForCells([&](std::size_t c, Point q) { phi[c] += v * GatePotentialPerVolt(outlines_[g], q, depth_); });
+  }
+  // f(cell, point) on every used cell; rows shared among the threads (each cell is written by one).
+  template <class F>
+  void ForCells(const F& f) const {
+    auto rows = [&](int j0, int j1) {
+      for (int j = j0; j < j1; ++j)
+        for (int i = 0; i < nx_; ++i) {
+          const std::size_t c = static_cast<std::size_t>(j) * nx_ + i;
+          if (use_.empty() || use_[c]) f(c, Point{x0_ + i * h_, y0_ + j * h_});
+        }
+    };
+    const int workers = std::clamp(threads_, 1, std::max(1, ny_ / 16));
+    std::vector<std::thread> pool;
+    for (int t = 1; t < workers; ++t) pool.emplace_back(rows, ny_ * t / workers, ny_ * (t + 1) / workers);
+    rows(0, ny_ / workers);
+    for (std::thread& t : pool) t.join();
+  }
+
+  int nx_, ny_;
+  double x0_, y0_, h_, depth_;
+  int threads_;
+  std::vector<char> use_;
+  std::vector<Polygon> outlines_;
+  std::vector<double> design_V_;
+  std::size_t max_stored_ = 0;
+  mutable std::mutex mutex_;
+  mutable std::vector<double> design_total_;
+  mutable std::vector<std::vector<double>> unit_;
+  mutable std::size_t stored_ = 0;
+};
+
 // The 2DEG outside a window, held at its local-capacitance density u = [1 - phi_g / V_dep]_+ (the
 // Thomas-Fermi density of a uniform gate, physics of the plate capacitor with quantum capacitance;
 // exact far from edges) on a coarse grid of the whole mesa, whose cells tile the window exactly.
@@ -190,7 +305,7 @@ struct Exterior {
   std::vector<char> outside;                  // coarse cell outside the window
   std::vector<char> free;                     // may hold electrons
   std::vector<double> chi;                    // background on the mesa
-  std::vector<std::vector<double>> unit_phi;  // per gate
+  std::unique_ptr<GatePotentials> phi;        // bare gate potential at the cells outside the window
   double vdep = 0.0;
 };
 
@@ -203,7 +318,7 @@ struct ElectrostaticProblem::Impl {
   double ef0 = 0.0, ns = 0.0;                 // E_F0, n_s
   std::vector<char> free;                     // cell may hold electrons
   std::vector<double> chi;                    // background on the mesa
-  std::vector<std::vector<double>> unit_phi;  // per gate, phi / V
+  std::unique_ptr<GatePotentials> phi;        // bare gate potential
   std::vector<double> k_direct;               // kernel by offset, (2ny-1) x (2nx-1), for the direct sum
   std::vector<double> phat;                   // 1 / (1 + beta khat)
   KernelGrid grid;
@@ -232,11 +347,10 @@ std::vector<double> ElectrostaticProblem::Impl::ExteriorTerm(const std::vector<d
   const Exterior& e = *exterior;
   const std::size_t nc = e.grid.n();
   std::vector<double> sigma(nc, 0.0), pot;
+  const std::vector<double> phi = e.phi->Total(volts);
   for (std::size_t c = 0; c < nc; ++c) {
     if (!e.outside[c]) continue;
-    double phi = 0.0;
-    for (std::size_t g = 0; g < volts.size(); ++g) phi += volts[g] * e.unit_phi[g][c];
-    const double u = e.free[c] ? std::max(0.0, 1.0 - phi / e.vdep) : 0.0;
+    const double u = e.free[c] ? std::max(0.0, 1.0 - phi[c] / e.vdep) : 0.0;
     sigma[c] = e.chi[c] - u;
   }
   e.grid.Convolve(sigma, e.grid.khat, pot);
@@ -341,8 +455,7 @@ ElectrostaticProblem::ElectrostaticProblem(const Design& d, const Electrostatics
   const double w = box.xmax - box.xmin + 2 * margin, hgt = box.ymax - box.ymin + 2 * margin;
   const GridChoice grid = ChooseGrid(d, opt, w, hgt);
   m.h = grid.h;
-  const int gates = static_cast<int>(d.gates.size());
-  CheckMemory(grid.cells_x, grid.cells_y, m.h, gates, 0, opt.max_memory_bytes);
+  CheckMemory(grid.cells_x, grid.cells_y, m.h, 0, 0, opt.max_memory_bytes);
   m.nx = std::max(4, static_cast<int>(grid.cells_x));
   m.ny = std::max(4, static_cast<int>(grid.cells_y));
   // A window's cells tile it exactly (square cells, the finer of the two fits), so that no charge is
@@ -355,7 +468,6 @@ ElectrostaticProblem::ElectrostaticProblem(const Design& d, const Electrostatics
   const std::size_t n = static_cast<std::size_t>(m.nx) * static_cast<std::size_t>(m.ny);
   m.free.assign(n, 0);
   m.chi.assign(n, 0.0);
-  m.unit_phi.assign(d.gates.size(), std::vector<double>(n, 0.0));
   for (int j = 0; j < m.ny; ++j)
     for (int i = 0; i < m.nx; ++i) {
       const Point q{m.x0 + i * m.h, m.y0 + j * m.h};
@@ -364,13 +476,17 @@ ElectrostaticProblem::ElectrostaticProblem(const Design& d, const Electrostatics
         m.chi[c] = 1.0;
         m.free[c] = geometry::distance_to_boundary(d.mesa.outline, q) >= d.mesa.etch_depletion_m;
       }
-      for (std::size_t g = 0; g < d.gates.size(); ++g)
-        m.unit_phi[g][c] = GatePotentialPerVolt(d.gates[g].outline, q, depth);
     }
+  m.phi = std::make_unique<GatePotentials>(d, m.nx, m.ny, m.x0, m.y0, m.h, std::vector<char>{}, opt.threads);
   m.grid.Build(m.nx, m.ny, m.h, depth, eps, opt.threads, &m.k_direct);
   m.phat.resize(m.grid.half());
   for (std::size_t k = 0; k < m.grid.half(); ++k) m.phat[k] = 1.0 / (1.0 + m.beta * std::max(0.0, m.grid.khat[k]));
   if (window) BuildExterior(d, *window);
+  // Single-gate arrays may use what the limit leaves, shared evenly with the window's exterior.
+  const std::size_t fixed = memory_bytes();
+  const std::size_t spare = opt.max_memory_bytes > fixed ? opt.max_memory_bytes - fixed : 0;
+  m.phi->set_budget(m.exterior ? spare / 2 : spare);
+  if (m.exterior) m.exterior->phi->set_budget(spare / 2);
 }
 
 void ElectrostaticProblem::BuildExterior(const Design& d, const ElectrostaticWindow& win) {
@@ -404,15 +520,14 @@ void ElectrostaticProblem::BuildExterior(const Design& d, const ElectrostaticWin
   const int right = static_cast<int>(std::ceil(std::max(0.0, bb.xmax - (win.centre.x + win.half_x_m)) / h)) + 1;
   const int above = static_cast<int>(std::ceil(std::max(0.0, bb.ymax - (win.centre.y + win.half_y_m)) / h)) + 1;
   const int nx = left + mx + right, ny = below + my + above;
-  CheckMemory(nx, ny, h, static_cast<int>(d.gates.size()), ElectrostaticMemoryEstimate(m.nx, m.ny, 0),
-              m.opt.max_memory_bytes);
+  CheckMemory(nx, ny, h, 0, ElectrostaticMemoryEstimate(m.nx, m.ny, 0), m.opt.max_memory_bytes);
   e->x0 = wx0 - (left - 0.5) * h;
   e->y0 = wy0 - (below - 0.5) * h;
   const std::size_t n = static_cast<std::size_t>(nx) * static_cast<std::size_t>(ny);
   e->outside.assign(n, 1);
   e->free.assign(n, 0);
   e->chi.assign(n, 0.0);
-  e->unit_phi.assign(d.gates.size(), std::vector<double>(n, 0.0));
+  std::vector<char> sampled(n, 0);
   for (int j = 0; j < ny; ++j)
     for (int i = 0; i < nx; ++i) {
       const std::size_t c = static_cast<std::size_t>(j) * nx + i;
@@ -424,9 +539,9 @@ void ElectrostaticProblem::BuildExterior(const Design& d, const ElectrostaticWin
       if (!geometry::contains(d.mesa.outline, q)) continue;
       e->chi[c] = 1.0;
       e->free[c] = geometry::distance_to_boundary(d.mesa.outline, q) >= d.mesa.etch_depletion_m;
-      for (std::size_t g = 0; g < d.gates.size(); ++g)
-        e->unit_phi[g][c] = GatePotentialPerVolt(d.gates[g].outline, q, depth);
+      sampled[c] = 1;
     }
+  e->phi = std::make_unique<GatePotentials>(d, nx, ny, e->x0, e->y0, h, std::move(sampled), m.opt.threads);
   e->grid.Build(nx, ny, h, depth, eps, m.opt.threads, nullptr);
   m.exterior = std::move(e);
 }
@@ -442,10 +557,8 @@ double ElectrostaticProblem::cell_m() const {
   return impl_->h;
 }
 std::size_t ElectrostaticProblem::memory_bytes() const {
-  std::size_t bytes = ElectrostaticMemoryEstimate(impl_->nx, impl_->ny, static_cast<int>(impl_->unit_phi.size()));
-  if (impl_->exterior)
-    bytes += ElectrostaticMemoryEstimate(impl_->exterior->grid.nx, impl_->exterior->grid.ny,
-                                         static_cast<int>(impl_->unit_phi.size()));
+  std::size_t bytes = ElectrostaticMemoryEstimate(impl_->nx, impl_->ny, 0);
+  if (impl_->exterior) bytes += ElectrostaticMemoryEstimate(impl_->exterior->grid.nx, impl_->exterior->grid.ny, 0);
   return bytes;
 }
 
@@ -473,7 +586,7 @@ std::vector<double> ElectrostaticProblem::ApplyOperatorDirect(const std::vector<
 
 DensityMap ElectrostaticProblem::Solve(const std::vector<double>& volts, const DensityMap* start) const {
   const Impl& m = *impl_;
-  if (volts.size() != m.unit_phi.size()) throw std::invalid_argument("Solve: one voltage per gate is needed");
+  if (volts.size() != m.phi->gates()) throw std::invalid_argument("Solve: one voltage per gate is needed");
   const auto t0 = std::chrono::steady_clock::now();
   const std::size_t n = m.n();
   m.applications = 0;
@@ -482,10 +595,9 @@ DensityMap ElectrostaticProblem::Solve(const std::vector<double>& volts, const D
   std::vector<double> b;
   m.convolve(m.chi, m.grid.khat, b);
   const std::vector<double> outside = m.ExteriorTerm(volts);
+  const std::vector<double> phi = m.phi->Total(volts);
   for (std::size_t c = 0; c < n; ++c) {
-    double phi = 0.0;
-    for (std::size_t g = 0; g < volts.size(); ++g) phi += volts[g] * m.unit_phi[g][c];
-    b[c] = 1.0 + constants::kElementaryCharge_C * phi / m.ef0 + m.beta * b[c] + (outside.empty() ? 0.0 : outside[c]);
+    b[c] = 1.0 + constants::kElementaryCharge_C * phi[c] / m.ef0 + m.beta * b[c] + (outside.empty() ? 0.0 : outside[c]);
   }
   std::vector<double> u(n, 0.0);
   if (start && start->density_per_m2.size() == n) {

@@ -92,8 +92,11 @@ struct ElectrostaticWindow {
   double half_x_m = 0.0, half_y_m = 0.0;
 };
 
-// The geometry-dependent set-up (grid, kernel transform, unit gate potentials, FFT plans) is built
-// once; Solve() then takes any gate voltages and an optional starting density.
+// The geometry-dependent set-up (grid, kernel transform, FFT plans) is built once; Solve() then takes
+// any gate voltages and an optional starting density. The bare gate potential is not kept per gate:
+// the total at the design's voltages is computed at the first Solve() that needs it, and single-gate
+// arrays only for gates whose voltage differs from the design's, as many as the memory limit leaves
+// room for (others are evaluated afresh at each Solve()). Solve() may be called from several threads.
 class ElectrostaticProblem {
  public:
   ElectrostaticProblem(const Design& design, const ElectrostaticsOptions& options = {});
@@ -106,7 +109,7 @@ class ElectrostaticProblem {
   int nx() const;
   int ny() const;
   double cell_m() const;
-  std::size_t memory_bytes() const;  // estimate made before allocating
+  std::size_t memory_bytes() const;  // estimate made before allocating, single-gate arrays left out
   // voltages: one per design gate, in design order.
   DensityMap Solve(const std::vector<double>& gate_voltages_V, const DensityMap* start = nullptr) const;
   // H applied to a density (u = n / n_s) by FFT, and by a direct sum (for tests; O(N^2)).
@@ -126,7 +129,8 @@ class ElectrostaticProblem {
 // step fewer. Both maps must be on the same grid (std::invalid_argument otherwise).
 DensityMap ExtrapolatedStart(const DensityMap& older, const DensityMap& newer);
 
-// Estimated bytes for a grid of nx x ny cells with `gates` gates (checked against the limit first).
+// Estimated bytes for a grid of nx x ny cells keeping `gates` single-gate potential arrays besides the
+// total (checked against the limit first, with none).
 std::size_t ElectrostaticMemoryEstimate(int nx, int ny, int gates);
 
 }  // namespace hallway
