@@ -9,6 +9,7 @@
 
 #include "hallway/constants.hpp"
 #include "hallway/design_loader.hpp"
+#include "hallway/device.hpp"
 #include "hallway/geometry/exact.hpp"
 #include "hallway/paths.hpp"
 #include "test_support.hpp"
@@ -183,6 +184,38 @@ TEST(Paths, SourceToColliderDistancesAreMeasuredAlongTheEdge) {
 TEST(Paths, DefaultOptionsAreValid) {
   std::string why;
   EXPECT_TRUE(PathOptions{}.IsValid(&why)) << why;
+}
+
+}  // namespace
+}  // namespace hallway
+
+namespace hallway {
+namespace {
+
+// A closed edge around a gated island gets the charging energy of its own outline: e^2 / 2C with the
+// parallel-plate capacitance C = eps_r eps_0 A / d of the gate over the island (Jackson, Classical
+// Electrodynamics, from memory). Until the island's outline reached finish_loop, every closed edge
+// was given E_C = 0.
+TEST(Paths, ClosedEdgeAroundAGatedIslandHasItsChargingEnergy) {
+  DeviceOptions options;
+  options.bare_estimate = true;
+  const Device device(LoadDesign(test::SourcePath("tests/data/electrostatics/wide_gate.yaml")), options);
+  ASSERT_TRUE(device.usable());
+  const PathResult r = device.paths();
+  const Design& d = device.design();
+  int closed = 0;
+  for (const LoopMetrics& l : r.loops) {
+    if (!l.closed_edge) continue;
+    ++closed;
+    ASSERT_GT(l.area_m2, 0.0);
+    EXPECT_TRUE(l.gated_island);
+    const double c = d.heterostructure.permittivity * constants::kVacuumPermittivity_F_per_m * l.area_m2 /
+                     d.heterostructure.depth_m;
+    EXPECT_NEAR(l.charging_energy_J / (constants::kElementaryCharge_C * constants::kElementaryCharge_C / (2.0 * c)),
+                1.0, 1e-12);
+    EXPECT_NEAR(l.ab_period_T * l.area_m2, constants::kPlanck_Js / constants::kElementaryCharge_C, 1e-25);
+  }
+  EXPECT_GE(closed, 1);
 }
 
 }  // namespace

@@ -16,6 +16,7 @@
 #include <stdexcept>
 
 #include "hallway/constants.hpp"
+#include "hallway/gap.hpp"
 #include "hallway/units.hpp"
 
 namespace hallway::figures {

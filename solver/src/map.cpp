@@ -8,6 +8,7 @@
 #include <stdexcept>
 
 #include "hallway/constants.hpp"
+#include "hallway/gap.hpp"
 #include "hallway/geometry/region.hpp"
 #include "hallway/heterostructure.hpp"
 #include "hallway/saddle.hpp"

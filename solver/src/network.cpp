@@ -10,6 +10,7 @@
 
 #include "hallway/constants.hpp"
 #include "hallway/electrostatics.hpp"
+#include "hallway/gap.hpp"
 #include "hallway/geometry/contour.hpp"
 #include "hallway/geometry/exact.hpp"
 #include "hallway/geometry/point_index.hpp"
@@ -438,7 +439,7 @@ class Tracer {
     if (first == runs.end()) {
       double length = 0.0;
       for (const Run& r : runs) length += r.length;
-      out.closed.push_back({channel, length, geometry::area(Polygon{v})});
+      out.closed.push_back({channel, length, geometry::area(Polygon{v}), Polygon{v}});
       return;
     }
     std::rotate(runs.begin(), first, runs.end());

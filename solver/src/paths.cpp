@@ -225,13 +225,9 @@ void measure_loops(PathsContext& ctx) {
     l.channel = c.channel;
     l.closed_edge = true;
     l.length_m = c.length_m;
-    l.area_m2 = c.enclosed_area_m2;
-    finish_loop(d, l, Polygon{}, ctx.opt.default_velocity_m_per_s);
-    l.area_m2 = c.enclosed_area_m2;
-    if (l.area_m2 > 0.0) {
-      l.ab_period_T = kPlanck_Js / (kElementaryCharge_C * l.area_m2);
-      l.ab_period_quasiparticle_T = l.ab_period_T / d.channels[static_cast<std::size_t>(c.channel)].charge_e;
-    }
+    // The island's own outline: its area gives the AB periods and, with the gates over it, the
+    // charging energy (an empty outline here once gave every island E_C = 0).
+    finish_loop(d, l, c.ring, ctx.opt.default_velocity_m_per_s);
     r.loops.push_back(l);
   }
 }

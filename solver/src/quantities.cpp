@@ -3,7 +3,7 @@
 
 #include <algorithm>
 
-#include "hallway/check.hpp"
+#include "hallway/gap.hpp"
 #include "hallway/saddle.hpp"
 
 namespace hallway {

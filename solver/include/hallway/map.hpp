@@ -18,7 +18,7 @@
 #include <string>
 #include <vector>
 
-#include "hallway/check.hpp"
+#include "hallway/finding.hpp"
 #include "hallway/design.hpp"
 #include "hallway/electrostatics.hpp"
 

@@ -24,7 +24,7 @@
 #include <string>
 #include <vector>
 
-#include "hallway/check.hpp"
+#include "hallway/finding.hpp"
 #include "hallway/design.hpp"
 #include "hallway/geometry/region.hpp"
 
@@ -74,6 +74,7 @@ struct ClosedEdge {
   int channel = 0;
   double length_m = 0.0;
   double enclosed_area_m2 = 0.0;
+  geometry::Polygon ring;  // the edge itself, in the direction of travel
 };
 
 // What the region of one channel looks like (direction independent).
