@@ -52,7 +52,7 @@ bool BuildGeometry(const Design& design, bool fast, ChannelGeometry* geometry, s
                    DensityMap* map_out, std::size_t max_memory_bytes) {
   if (fast) {
     *geometry = BuildChannelGeometry(design);
-    *note += "  (--fast: bare-potential boundaries, no electrostatic solve)\n";
+    *note += "  (--fast: bare-potential channel boundaries, no whole-mesa electrostatic solve)\n";
     return true;
   }
   try {
@@ -120,7 +120,7 @@ bool BuildDevice(Design design, bool fast, std::size_t max_memory_bytes, std::op
       return false;
     }
   } else {
-    *note += "  (--fast: bare-potential boundaries, no electrostatic solve)\n";
+    *note += "  (--fast: bare-potential channel boundaries, no whole-mesa electrostatic solve)\n";
   }
   if (!dev.usable()) {  // an error of the channel geometry (the checks passed)
     ReportErrors(dev.summary().findings);

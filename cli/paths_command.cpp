@@ -171,7 +171,8 @@ std::string PathsText(const Design& d, const ChannelGeometry& geometry, const st
   }
   if (!r.constrictions.empty()) {
     out +=
-        "\nConstriction models (saddle point of the self-consistent potential; Büttiker, Phys. Rev. B 41, 7906 "
+        "\nConstriction models (saddle point of the self-consistent potential in a window around each gap, solved "
+        "also under --fast; Büttiker, Phys. Rev. B 41, 7906 "
         "(1990))\n";
     for (const ConstrictionModel& c : r.constrictions) {
       const Constriction& k = d.constrictions[static_cast<std::size_t>(c.constriction)];
@@ -187,7 +188,7 @@ std::string PathsText(const Design& d, const ChannelGeometry& geometry, const st
         out += fmt::format("    channel {}: model transmission at the design voltages {}; {} {:.3g}{} reached at {}\n",
                            ch + 1, has_t ? fmt::format("{:.3f}", c.transmission[ch]) : std::string("n/a (fractional)"),
                            po.target_transmission ? "target" : "design value", target,
-                           (target > 0.99 || target < 0.01) ? " (searched as 0.99 / 0.01)" : "",
+                           target > 0.99 ? " (searched as 0.99)" : target < 0.01 ? " (searched as 0.01)" : "",
                            c.voltage_for_target_V[ch] ? FormatSI(*c.voltage_for_target_V[ch], "V") : std::string("-"));
       }
       for (const auto& w : c.warnings) out += "    warning: " + w + "\n";
