@@ -4,6 +4,7 @@
 #include <fftw3.h>
 
 #include <algorithm>
+#include <functional>
 #include <chrono>
 #include <cmath>
 #include <mutex>
@@ -584,6 +585,69 @@ std::vector<double> ElectrostaticProblem::ApplyOperatorDirect(const std::vector<
   return out;
 }
 
+namespace {
+
+// The operators a face solve needs: H applied on the whole grid, the circulant preconditioner, and
+// whether the operator budget allows another application.
+struct FaceOperators {
+  std::function<void(const std::vector<double>&, std::vector<double>&)> apply, precondition;
+  std::function<bool()> budget_left;
+};
+
+// Conjugate gradients on the cells of `face` (those that hold electrons), preconditioned by the
+// circulant inverse of H, from x with gradient grad = Hx - b. H x is carried along on the whole grid
+// (H p is computed there anyway), so neither the start nor the end of a face solve costs an extra
+// operator application. Returns the iterate, with H times it in *hx; the caller decides whether to
+// keep them.
+std::vector<double> FaceSolve(const FaceOperators& ops, std::vector<double> x, const std::vector<double>& grad,
+                              const std::vector<double>& b, const std::vector<char>& face, double goal,
+                              std::vector<double>* hx_out) {
+  const std::size_t n = x.size();
+  std::vector<double>& hx = *hx_out;
+  std::vector<double> r(n), z, p, q;
+  hx.resize(n);
+  for (std::size_t c = 0; c < n; ++c) {
+    hx[c] = grad[c] + b[c];
+    r[c] = face[c] ? -grad[c] : 0.0;
+  }
+  ops.precondition(r, z);
+  for (std::size_t c = 0; c < n; ++c)
+    if (!face[c]) z[c] = 0.0;
+  p = z;
+  double rz = 0.0;
+  for (std::size_t c = 0; c < n; ++c) rz += r[c] * z[c];
+  for (int it = 0; it < 200 && ops.budget_left(); ++it) {
+    double rmax = 0.0;
+    for (std::size_t c = 0; c < n; ++c) rmax = std::max(rmax, std::abs(r[c]));
+    if (rmax < goal) break;
+    ops.apply(p, q);
+    double pq = 0.0;
+    for (std::size_t c = 0; c < n; ++c)
+      if (face[c]) pq += p[c] * q[c];
+    if (!(pq > 0.0)) break;
+    const double alpha = rz / pq;
+    for (std::size_t c = 0; c < n; ++c) {
+      hx[c] += alpha * q[c];
+      if (face[c]) {
+        x[c] += alpha * p[c];
+        r[c] -= alpha * q[c];
+      }
+    }
+    ops.precondition(r, z);
+    double rz_new = 0.0;
+    for (std::size_t c = 0; c < n; ++c) {
+      if (!face[c]) z[c] = 0.0;
+      rz_new += r[c] * z[c];
+    }
+    const double beta_cg = rz_new / rz;
+    rz = rz_new;
+    for (std::size_t c = 0; c < n; ++c) p[c] = face[c] ? z[c] + beta_cg * p[c] : 0.0;
+  }
+  return x;
+}
+
+}  // namespace
+
 DensityMap ElectrostaticProblem::Solve(const std::vector<double>& volts, const DensityMap* start) const {
   const Impl& m = *impl_;
   if (volts.size() != m.phi->gates()) throw std::invalid_argument("Solve: one voltage per gate is needed");
@@ -609,7 +673,7 @@ DensityMap ElectrostaticProblem::Solve(const std::vector<double>& volts, const D
   }
   const ElectrostaticsOptions& opt = m.opt;
   DensityMap out;
-  std::vector<double> g, r, z, p, q, y(n), gy, u_prev = u;
+  std::vector<double> g, y(n), gy, u_prev = u;
   double residual = HUGE_VAL;
   int steps = 0;
   // Spectrum of H on the padded grid: 1 + beta min(khat) <= lambda <= 1 + beta max(khat).
@@ -626,54 +690,12 @@ DensityMap ElectrostaticProblem::Solve(const std::vector<double>& volts, const D
       if (m.free[c]) res = std::max(res, std::abs(x[c] - std::max(0.0, x[c] - grad[c])));
     return res;
   };
-  // Conjugate gradients on the cells that hold electrons, preconditioned by the circulant inverse of H,
-  // from x with gradient grad = Hx - b. H x is carried along on the whole grid (H p is computed there
-  // anyway), so neither the start nor the end of a face solve costs an extra operator application.
-  // Returns the iterate and H times it; the caller decides whether to keep them.
   std::vector<double> hx;
+  const FaceOperators ops{[&](const std::vector<double>& x, std::vector<double>& y) { m.apply(x, y); },
+                          [&](const std::vector<double>& x, std::vector<double>& y) { m.convolve(x, m.phat, y); },
+                          [&] { return m.applications < opt.max_operator_applications; }};
   auto face_solve = [&](std::vector<double> x, const std::vector<double>& grad, const std::vector<char>& face,
-                        double goal) {
-    hx.resize(n);
-    r.resize(n);
-    for (std::size_t c = 0; c < n; ++c) {
-      hx[c] = grad[c] + b[c];
-      r[c] = face[c] ? -grad[c] : 0.0;
-    }
-    m.convolve(r, m.phat, z);
-    for (std::size_t c = 0; c < n; ++c)
-      if (!face[c]) z[c] = 0.0;
-    p = z;
-    double rz = 0.0;
-    for (std::size_t c = 0; c < n; ++c) rz += r[c] * z[c];
-    for (int it = 0; it < 200 && m.applications < opt.max_operator_applications; ++it) {
-      double rmax = 0.0;
-      for (std::size_t c = 0; c < n; ++c) rmax = std::max(rmax, std::abs(r[c]));
-      if (rmax < goal) break;
-      m.apply(p, q);
-      double pq = 0.0;
-      for (std::size_t c = 0; c < n; ++c)
-        if (face[c]) pq += p[c] * q[c];
-      if (!(pq > 0.0)) break;
-      const double alpha = rz / pq;
-      for (std::size_t c = 0; c < n; ++c) {
-        hx[c] += alpha * q[c];
-        if (face[c]) {
-          x[c] += alpha * p[c];
-          r[c] -= alpha * q[c];
-        }
-      }
-      m.convolve(r, m.phat, z);
-      double rz_new = 0.0;
-      for (std::size_t c = 0; c < n; ++c) {
-        if (!face[c]) z[c] = 0.0;
-        rz_new += r[c] * z[c];
-      }
-      const double beta_cg = rz_new / rz;
-      rz = rz_new;
-      for (std::size_t c = 0; c < n; ++c) p[c] = face[c] ? z[c] + beta_cg * p[c] : 0.0;
-    }
-    return x;
-  };
+                        double goal) { return FaceSolve(ops, std::move(x), grad, b, face, goal, &hx); };
   std::vector<char> face(n, 0);
   m.apply(u, g);
   for (std::size_t c = 0; c < n; ++c) g[c] -= b[c];

@@ -126,6 +126,101 @@ std::optional<ConstrictionMap> MapConstriction(const Design& d, const Constricti
   return cm;
 }
 
+// The depletion voltage of gate gi at its actual size (alone, the others at 0 V): the density at its
+// deepest point (where its own potential per volt is largest, over the mesa) reaches the empty level,
+// on a local window; none when the search does not get there or a solve does not converge.
+std::optional<double> GateDepletion(const Design& d, std::size_t gi, const MapOptions& opt,
+                                    const HeterostructureFigures& fig, double empty,
+                                    const std::function<void(const DensityMap&)>& note) {
+  const Gate& g = d.gates[gi];
+  const double depth = d.heterostructure.depth_m;
+  std::optional<double> result;
+  // The deepest point: where the gate's own potential per volt is largest, over the mesa.
+  const auto bb = geometry::bounding_box(g.outline);
+  Point deepest{};
+  double best = -1.0;
+  for (int a = 0; a <= 60; ++a)
+    for (int b = 0; b <= 60; ++b) {
+      const Point q{bb.xmin + bb.width() * a / 60.0, bb.ymin + bb.height() * b / 60.0};
+      if (!geometry::contains(g.outline, q) || !geometry::contains(d.mesa.outline, q) ||
+          geometry::distance_to_boundary(d.mesa.outline, q) < 6.0 * depth + d.mesa.etch_depletion_m)
+        continue;
+      const double phi = GatePotentialPerVolt(g.outline, q, depth);
+      if (phi > best) {
+        best = phi;
+        deepest = q;
+      }
+    }
+  if (best > 0.0) {
+    const double half = opt.window_m > 0.0 ? opt.window_m : 15.0 * depth;
+    ElectrostaticsOptions lo = opt.electrostatics;
+    lo.grid_m = opt.local_grid_m > 0.0 ? opt.local_grid_m : std::max(depth / 3.0, 2.0 * half / 400.0);
+    const ElectrostaticProblem local(d, lo, ElectrostaticWindow{deepest, half, half});
+    DensityMap last;
+    bool have = false, ok = true;
+    auto density = [&](double v) {
+      std::vector<double> volts(d.gates.size(), 0.0);
+      volts[gi] = v;
+      last = local.Solve(volts, have ? &last : nullptr);
+      have = true;
+      note(last);
+      ok = ok && last.stats.converged;
+      return last.At(deepest);
+    };
+    result = find_empty(density, empty, fig.depletion_voltage_V, opt.search_limit_V, opt.pinch_resolution_V);
+    if (!ok) result.reset();
+  }
+  return result;
+}
+
+// Lateral depletion and edge drift velocity of gate gi from the whole-mesa map: march out along the
+// normals of the gate's long edges to where the density returns; the medians over the edges.
+void LateralDepletion(const Design& d, std::size_t gi, const DensityMap& map, const HeterostructureFigures& fig,
+                      double empty, GateMap* out) {
+  const Gate& g = d.gates[gi];
+  const double depth = d.heterostructure.depth_m;
+  GateMap& gm = *out;
+  // Lateral depletion from the whole-mesa map: march out along the normals of the gate's edges.
+  std::vector<double> widths, speeds;
+  const auto& v = g.outline.vertices;  // counter-clockwise after loading: outward normal is (dy, -dx)
+  const double step = 0.25 * map.cell_m;
+  for (std::size_t e = 0; e < v.size(); ++e) {
+    const Point a = v[e], b = v[(e + 1) % v.size()];
+    const double len = geometry::distance(a, b);
+    if (len < 4.0 * depth) continue;
+    const Point n{(b.y - a.y) / len, -(b.x - a.x) / len};
+    for (double f : {0.25, 0.5, 0.75}) {
+      const Point p{a.x + f * (b.x - a.x), a.y + f * (b.y - a.y)};
+      if (!geometry::contains(d.mesa.outline, p) || geometry::distance_to_boundary(d.mesa.outline, p) < 6.0 * depth)
+        continue;
+      bool near_other = false;
+      for (std::size_t o = 0; o < d.gates.size(); ++o)
+        if (o != gi && geometry::distance_to_boundary(d.gates[o].outline, p) < 6.0 * depth) near_other = true;
+      if (near_other) continue;
+      const Point inside{p.x - 2.0 * depth * n.x, p.y - 2.0 * depth * n.y};
+      if (map.At(inside) > empty) continue;  // not depleted at its edge
+      for (double s = -2.0 * depth; s < 30.0 * depth; s += step) {
+        const Point q{p.x + s * n.x, p.y + s * n.y};
+        if (map.At(q) > empty) {
+          widths.push_back(s);
+          // Confining field on the electron side of the edge (one-sided difference over two cells).
+          const Point q2{q.x + 2.0 * map.cell_m * n.x, q.y + 2.0 * map.cell_m * n.y};
+          const double field = std::abs(map.EnergyAt(q) - map.EnergyAt(q2)) * fig.fermi_energy_J /
+                               (2.0 * map.cell_m * constants::kElementaryCharge_C);
+          speeds.push_back(field / std::abs(d.conditions.field_T));
+          break;
+        }
+      }
+    }
+  }
+  if (!widths.empty()) {
+    std::sort(widths.begin(), widths.end());
+    std::sort(speeds.begin(), speeds.end());
+    gm.lateral_depletion_m = widths[widths.size() / 2];
+    gm.drift_velocity_m_per_s = speeds[speeds.size() / 2];
+  }
+}
+
 }  // namespace
 
 double ConstrictionWindowCell_m(double depth_m, double gap_m, double half_m) {
@@ -138,7 +233,6 @@ MapResult ComputeMap(const Design& d, const MapOptions& opt) {
   const Clock clock;
   MapResult r;
   const HeterostructureFigures fig = DeriveFigures(d.heterostructure, d.conditions.field_T, d.conditions.temperature_K);
-  const double depth = d.heterostructure.depth_m;
   const double ns = d.heterostructure.density_per_m2;
   const double empty = opt.empty_fraction * ns;
   std::vector<double> design_volts;
@@ -182,80 +276,8 @@ MapResult ComputeMap(const Design& d, const MapOptions& opt) {
     GateMap gm;
     gm.name = g.name;
     gm.wide_depletion_V = fig.depletion_voltage_V;
-    // The deepest point: where the gate's own potential per volt is largest, over the mesa.
-    const auto bb = geometry::bounding_box(g.outline);
-    Point deepest{};
-    double best = -1.0;
-    for (int a = 0; a <= 60; ++a)
-      for (int b = 0; b <= 60; ++b) {
-        const Point q{bb.xmin + bb.width() * a / 60.0, bb.ymin + bb.height() * b / 60.0};
-        if (!geometry::contains(g.outline, q) || !geometry::contains(d.mesa.outline, q) ||
-            geometry::distance_to_boundary(d.mesa.outline, q) < 6.0 * depth + d.mesa.etch_depletion_m)
-          continue;
-        const double phi = GatePotentialPerVolt(g.outline, q, depth);
-        if (phi > best) {
-          best = phi;
-          deepest = q;
-        }
-      }
-    if (best > 0.0) {
-      const double half = opt.window_m > 0.0 ? opt.window_m : 15.0 * depth;
-      ElectrostaticsOptions lo = opt.electrostatics;
-      lo.grid_m = opt.local_grid_m > 0.0 ? opt.local_grid_m : std::max(depth / 3.0, 2.0 * half / 400.0);
-      const ElectrostaticProblem local(d, lo, ElectrostaticWindow{deepest, half, half});
-      DensityMap last;
-      bool have = false, ok = true;
-      auto density = [&](double v) {
-        std::vector<double> volts(d.gates.size(), 0.0);
-        volts[gi] = v;
-        last = local.Solve(volts, have ? &last : nullptr);
-        have = true;
-        note(last);
-        ok = ok && last.stats.converged;
-        return last.At(deepest);
-      };
-      gm.depletion_V = find_empty(density, empty, fig.depletion_voltage_V, opt.search_limit_V, opt.pinch_resolution_V);
-      if (!ok) gm.depletion_V.reset();
-    }
-    // Lateral depletion from the whole-mesa map: march out along the normals of the gate's edges.
-    std::vector<double> widths, speeds;
-    const auto& v = g.outline.vertices;  // counter-clockwise after loading: outward normal is (dy, -dx)
-    const double step = 0.25 * r.map.cell_m;
-    for (std::size_t e = 0; e < v.size(); ++e) {
-      const Point a = v[e], b = v[(e + 1) % v.size()];
-      const double len = geometry::distance(a, b);
-      if (len < 4.0 * depth) continue;
-      const Point n{(b.y - a.y) / len, -(b.x - a.x) / len};
-      for (double f : {0.25, 0.5, 0.75}) {
-        const Point p{a.x + f * (b.x - a.x), a.y + f * (b.y - a.y)};
-        if (!geometry::contains(d.mesa.outline, p) || geometry::distance_to_boundary(d.mesa.outline, p) < 6.0 * depth)
-          continue;
-        bool near_other = false;
-        for (std::size_t o = 0; o < d.gates.size(); ++o)
-          if (o != gi && geometry::distance_to_boundary(d.gates[o].outline, p) < 6.0 * depth) near_other = true;
-        if (near_other) continue;
-        const Point inside{p.x - 2.0 * depth * n.x, p.y - 2.0 * depth * n.y};
-        if (r.map.At(inside) > empty) continue;  // not depleted at its edge
-        for (double s = -2.0 * depth; s < 30.0 * depth; s += step) {
-          const Point q{p.x + s * n.x, p.y + s * n.y};
-          if (r.map.At(q) > empty) {
-            widths.push_back(s);
-            // Confining field on the electron side of the edge (one-sided difference over two cells).
-            const Point q2{q.x + 2.0 * r.map.cell_m * n.x, q.y + 2.0 * r.map.cell_m * n.y};
-            const double field = std::abs(r.map.EnergyAt(q) - r.map.EnergyAt(q2)) * fig.fermi_energy_J /
-                                 (2.0 * r.map.cell_m * constants::kElementaryCharge_C);
-            speeds.push_back(field / std::abs(d.conditions.field_T));
-            break;
-          }
-        }
-      }
-    }
-    if (!widths.empty()) {
-      std::sort(widths.begin(), widths.end());
-      std::sort(speeds.begin(), speeds.end());
-      gm.lateral_depletion_m = widths[widths.size() / 2];
-      gm.drift_velocity_m_per_s = speeds[speeds.size() / 2];
-    }
+    gm.depletion_V = GateDepletion(d, gi, opt, fig, empty, note);
+    LateralDepletion(d, gi, r.map, fig, empty, &gm);
     r.gates.push_back(gm);
   }
   if (!r.all_converged && r.findings.empty())
