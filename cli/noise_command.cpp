@@ -256,7 +256,10 @@ json noise_json(const Design& d, const NoiseResult& n) {
     colliders.push_back(x);
   }
   j["colliders"] = colliders;
-  j["models"] = n.models;
+  j["models"] = ModelTexts(n);
+  json tags = json::array();
+  for (const NoiseModelUse& m : n.models) tags.push_back(ToString(m.model));
+  j["model_tags"] = tags;
   return j;
 }
 
@@ -365,7 +368,7 @@ int RunNoise(const NoiseArgs& args) {
   out += fmt::format("  edge boundaries: {}\n", geometry.model);
   out += es_note;
   out += "  models:\n";
-  for (const auto& m : n.models) out += "    - " + m + "\n";
+  for (const auto& m : n.models) out += "    - " + m.text + "\n";
   out += fmt::format("  checks: |s^+ s - 1| = {:.1e}; equilibrium noise against 2kT(G + G^T): {:.1e} relative\n",
                      n.unitarity_error, n.equilibrium_identity_error);
   out += print_noise(d, n);

@@ -475,7 +475,7 @@ std::string page_html(const ReportData& r, const Tables& t,
                  : std::string(": P not defined")) +
          ".</p>\n";
   h += "<p>Models: ";
-  for (const auto& m : noise.models) h += html_escape(m) + "; ";
+  for (const auto& m : noise.models) h += html_escape(m.text) + "; ";
   h += "</p>\n";
   h += "<h2 id=\"constrictions\">Constriction models and path metrics</h2>\n" + kt.html() + pt.html();
   h += "<h2 id=\"figures\">Figures</h2>\n";

@@ -154,3 +154,53 @@ TEST(ScatteringRule, StepsAndReachOnTheColliderDemo) {
 
 }  // namespace
 }  // namespace hallway
+
+namespace hallway {
+namespace {
+
+// The scattering rule asked by port and read backwards (network.hpp) is the same rule: the port overload
+// gives the step of the piece that arrives there, the backward step undoes the forward one, and piece x is
+// reachable downstream from piece p exactly when p is reachable upstream from x (a walk reversed).
+TEST(ScatteringRule, PortOverloadAndBackwardWalkAgreeWithTheForwardRule) {
+  DeviceOptions options;
+  options.bare_estimate = true;
+  for (const char* path : {"designs/02_two_source_collider.yaml", "designs/03_fabry_perot.yaml"}) {
+    const Device device(LoadDesign(test::SourcePath(path)), options);
+    ASSERT_TRUE(device.usable()) << path;
+    const Design& d = device.design();
+    const EdgeNetwork& net = device.edges();
+    const int n = static_cast<int>(net.pieces.size());
+    int ports = 0;
+    for (int p = 0; p < n; ++p) {
+      const EdgePiece& e = net.pieces[static_cast<std::size_t>(p)];
+      const auto step = StepAtPort(d, net, p);
+      if (!step) continue;
+      ++ports;
+      const PortStep by_port = StepAtPort(d, net, e.channel, e.to.index, e.to.face);
+      EXPECT_EQ(by_port.reflected, step->reflected);
+      EXPECT_EQ(by_port.transmitted, step->transmitted);
+      EXPECT_EQ(by_port.transmission, step->transmission);
+      const ConstrictionPorts at = PortsOf(net, e.channel, e.to.index);
+      EXPECT_EQ(at.incoming[e.to.face], p);
+      EXPECT_EQ(at.outgoing[e.to.face], step->reflected);
+      EXPECT_EQ(at.outgoing[1 - e.to.face], step->transmitted);
+      const auto back_reflected = StepBackAtPort(d, net, step->reflected);
+      const auto back_transmitted = StepBackAtPort(d, net, step->transmitted);
+      ASSERT_TRUE(back_reflected && back_transmitted);
+      EXPECT_EQ(back_reflected->reflected, p);
+      EXPECT_EQ(back_transmitted->transmitted, p);
+    }
+    EXPECT_GE(ports, 4) << path;  // at least two constrictions with two faces each
+    std::vector<std::vector<char>> down;
+    for (int p = 0; p < n; ++p) down.push_back(ReachablePieces(d, net, {p}));
+    for (int x = 0; x < n; ++x) {
+      const std::vector<char> up = ReachablePieces(d, net, {x}, {}, Walk::kUpstream);
+      for (int p = 0; p < n; ++p)
+        EXPECT_EQ(up[static_cast<std::size_t>(p)], down[static_cast<std::size_t>(p)][static_cast<std::size_t>(x)])
+            << path << ": pieces " << p << " and " << x;
+    }
+  }
+}
+
+}  // namespace
+}  // namespace hallway

@@ -8,6 +8,7 @@
 #include <complex>
 #include <fstream>
 #include <numbers>
+#include <set>
 #include <sstream>
 
 #include "hallway/collider.hpp"
@@ -492,6 +493,47 @@ TEST(Measurement, ReferenceSubtractionHalvesSnrSquaredAndDoublesTheTime) {
   EXPECT_TRUE(NearRel(*diff.time_for_target_s, 2 * *plain.time_for_target_s, 1e-14));
   EXPECT_DOUBLE_EQ(diff.floor_V2_per_Hz, plain.floor_V2_per_Hz);  // the floor itself is unchanged
   EXPECT_DOUBLE_EQ(diff.signal_V2_per_Hz, plain.signal_V2_per_Hz);
+}
+
+// The table of noise models (noise.hpp): every row has a tag of its own, named by ToString, and its
+// docs/models.md section is a heading of that document (the repository's own; common practice that
+// each model cites it). The demos' results carry the tags of the models that produced their numbers,
+// in the table's order, each with its row's section: rung 1 integer channels with floating contacts
+// and an amplifier, rung 2 fractional channels with two amplifiers and a collider, rung 3 an integer
+// interferometer with floating contacts and an amplifier.
+TEST(NoiseModels, EveryRowHasATagAndItsSectionInModelsMd) {
+  const std::string doc = read("docs/models.md");
+  const std::vector<NoiseModelInfo>& rows = NoiseModels();
+  ASSERT_FALSE(rows.empty());
+  std::set<std::string> names;
+  std::set<NoiseModel> tags;
+  for (const NoiseModelInfo& row : rows) {
+    EXPECT_EQ(ToString(row.model), row.name);
+    EXPECT_TRUE(names.insert(row.name).second) << row.name;
+    EXPECT_TRUE(tags.insert(row.model).second) << row.name;
+    EXPECT_NE(doc.find("\n## " + std::string(row.docs_section) + "\n"), std::string::npos)
+        << row.name << ": no section \"" << row.docs_section << "\" in docs/models.md";
+  }
+  const std::vector<std::pair<const char*, std::vector<NoiseModel>>> demos{
+      {"designs/01_hallbar_qpc.yaml",
+       {NoiseModel::kCoherentInteger, NoiseModel::kFloatingContacts, NoiseModel::kAmplifierChain}},
+      {"designs/02_two_source_collider.yaml",
+       {NoiseModel::kFractionalPartition, NoiseModel::kAmplifierChain, NoiseModel::kCollider}},
+      {"designs/03_fabry_perot.yaml",
+       {NoiseModel::kCoherentInteger, NoiseModel::kFloatingContacts, NoiseModel::kAmplifierChain}}};
+  for (const auto& [path, expected] : demos) {
+    const Solved s = run(read(path));
+    std::vector<NoiseModel> got;
+    for (const NoiseModelUse& m : s.n.models) {
+      got.push_back(m.model);
+      EXPECT_FALSE(m.text.empty()) << path;
+      for (const NoiseModelInfo& row : rows) {
+        if (row.model != m.model) continue;
+        EXPECT_EQ(m.docs_section, row.docs_section) << path;
+      }
+    }
+    EXPECT_EQ(got, expected) << path;
+  }
 }
 
 }  // namespace

@@ -543,16 +543,40 @@ int PortPiece(const EdgeNetwork& net, int channel, int constriction, int face, b
 std::optional<PortStep> StepAtPort(const Design& d, const EdgeNetwork& net, int piece) {
   const EdgePiece& e = net.pieces[static_cast<std::size_t>(piece)];
   if (e.to.kind != EdgeEnd::Kind::kConstriction) return std::nullopt;
+  return StepAtPort(d, net, e.channel, e.to.index, e.to.face);
+}
+
+PortStep StepAtPort(const Design& d, const EdgeNetwork& net, int channel, int constriction, int face) {
   PortStep s;
   s.transmission =
-      d.constrictions[static_cast<std::size_t>(e.to.index)].transmission[static_cast<std::size_t>(e.channel)];
-  s.reflected = PortPiece(net, e.channel, e.to.index, e.to.face, true);
-  s.transmitted = PortPiece(net, e.channel, e.to.index, 1 - e.to.face, true);
+      d.constrictions[static_cast<std::size_t>(constriction)].transmission[static_cast<std::size_t>(channel)];
+  s.reflected = PortPiece(net, channel, constriction, face, true);
+  s.transmitted = PortPiece(net, channel, constriction, 1 - face, true);
   return s;
 }
 
+std::optional<PortStep> StepBackAtPort(const Design& d, const EdgeNetwork& net, int piece) {
+  const EdgePiece& e = net.pieces[static_cast<std::size_t>(piece)];
+  if (e.from.kind != EdgeEnd::Kind::kConstriction) return std::nullopt;
+  PortStep s;
+  s.transmission =
+      d.constrictions[static_cast<std::size_t>(e.from.index)].transmission[static_cast<std::size_t>(e.channel)];
+  s.reflected = PortPiece(net, e.channel, e.from.index, e.from.face, false);
+  s.transmitted = PortPiece(net, e.channel, e.from.index, 1 - e.from.face, false);
+  return s;
+}
+
+ConstrictionPorts PortsOf(const EdgeNetwork& net, int channel, int constriction) {
+  ConstrictionPorts ports;
+  for (int f = 0; f < 2; ++f) {
+    ports.incoming[f] = PortPiece(net, channel, constriction, f, false);
+    ports.outgoing[f] = PortPiece(net, channel, constriction, f, true);
+  }
+  return ports;
+}
+
 std::vector<char> ReachablePieces(const Design& d, const EdgeNetwork& net, const std::vector<int>& starts,
-                                  const std::vector<int>& channels) {
+                                  const std::vector<int>& channels, Walk walk) {
   std::vector<char> reach(net.pieces.size(), 0);
   auto counts = [&](int p) {
     return channels.empty() || std::find(channels.begin(), channels.end(), net.pieces[static_cast<std::size_t>(p)].channel) !=
@@ -566,7 +590,7 @@ std::vector<char> ReachablePieces(const Design& d, const EdgeNetwork& net, const
     stack.pop_back();
     if (reach[static_cast<std::size_t>(p)]) continue;
     reach[static_cast<std::size_t>(p)] = 1;
-    const auto step = StepAtPort(d, net, p);
+    const auto step = walk == Walk::kDownstream ? StepAtPort(d, net, p) : StepBackAtPort(d, net, p);
     if (!step) continue;
     if (step->transmission < 1.0 && step->reflected >= 0 && counts(step->reflected)) stack.push_back(step->reflected);
     if (step->transmission > 0.0 && step->transmitted >= 0 && counts(step->transmitted))

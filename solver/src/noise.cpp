@@ -64,13 +64,6 @@ bool is_integer_channel(const Channel& c) {
   return c.conductance == MakeFraction(1, 1) && c.charge_e == 1.0;
 }
 
-int out_piece(const EdgeNetwork& net, int channel, int constriction, int face) {
-  return PortPiece(net, channel, constriction, face, true);
-}
-int in_piece(const EdgeNetwork& net, int channel, int constriction, int face) {
-  return PortPiece(net, channel, constriction, face, false);
-}
-
 // Coherent scattering of the integer channels: inputs are the pieces that contacts emit, outputs the
 // pieces that contacts absorb, both over all integer channels (block diagonal by channel).
 struct CoherentNetwork {
@@ -78,6 +71,8 @@ struct CoherentNetwork {
   const EdgeNetwork& net;
   std::vector<int> channels;  // integer channels
   std::vector<int> in_pieces, out_pieces, in_contact, out_contact;
+  std::vector<std::optional<PortStep>> steps;  // per piece of an integer channel: its step at a port
+  std::vector<char> reach;                      // pieces reachable from an input
 
   CoherentNetwork(const Design& design, const EdgeNetwork& network) : d(design), net(network) {
     for (std::size_t k = 0; k < d.channels.size(); ++k)
@@ -94,34 +89,26 @@ struct CoherentNetwork {
         out_contact.push_back(e.to.index);
       }
     }
+    steps.resize(net.pieces.size());
+    for (std::size_t p = 0; p < net.pieces.size(); ++p)
+      if (std::find(channels.begin(), channels.end(), net.pieces[p].channel) != channels.end())
+        steps[p] = StepAtPort(d, net, static_cast<int>(p));
+    // Only pieces reachable from an input take part (closed loops that nothing feeds are left out).
+    reach = ReachablePieces(d, net, in_pieces, channels);
   }
 
   // s[out][in] for the given phase of every piece.
   CMat Solve(const std::vector<double>& phase) const {
     const int n = static_cast<int>(net.pieces.size());
     CMat M = CMat::Zero(n, n);
+    // The scattering rule (network.hpp) with amplitudes: sqrt(1 - t) back along the same face, i sqrt(t) across.
     for (int p = 0; p < n; ++p) {
-      const EdgePiece& e = net.pieces[static_cast<std::size_t>(p)];
-      if (e.to.kind != EdgeEnd::Kind::kConstriction) continue;
-      if (std::find(channels.begin(), channels.end(), e.channel) == channels.end()) continue;
-      const double t =
-          d.constrictions[static_cast<std::size_t>(e.to.index)].transmission[static_cast<std::size_t>(e.channel)];
+      const std::optional<PortStep>& step = steps[static_cast<std::size_t>(p)];
+      if (!step) continue;
+      const double t = step->transmission;
       const cd carry = std::polar(1.0, phase[static_cast<std::size_t>(p)]);
-      const int back = out_piece(net, e.channel, e.to.index, e.to.face);
-      const int across = out_piece(net, e.channel, e.to.index, 1 - e.to.face);
-      M(back, p) += std::sqrt(1.0 - t) * carry;
-      M(across, p) += cd(0.0, std::sqrt(t)) * carry;
-    }
-    // Only pieces reachable from an input take part (closed loops that nothing feeds are left out).
-    std::vector<char> reach(static_cast<std::size_t>(n), 0);
-    std::vector<int> stack(in_pieces.begin(), in_pieces.end());
-    while (!stack.empty()) {
-      const int p = stack.back();
-      stack.pop_back();
-      if (reach[static_cast<std::size_t>(p)]) continue;
-      reach[static_cast<std::size_t>(p)] = 1;
-      for (int q = 0; q < n; ++q)
-        if (M(q, p) != cd(0.0)) stack.push_back(q);
+      M(step->reflected, p) += std::sqrt(1.0 - t) * carry;
+      M(step->transmitted, p) += cd(0.0, std::sqrt(t)) * carry;
     }
     std::vector<int> idx, pos(static_cast<std::size_t>(n), -1);
     for (int p = 0; p < n; ++p)
@@ -267,9 +254,9 @@ Feed FeedOf(const Design& d, const EdgeNetwork& net, const TransportResult& tr, 
   f.source = p.from.index;
   f.source_face = p.from.face;
   const Constriction& src = d.constrictions[static_cast<std::size_t>(p.from.index)];
-  const int i0 = PortPiece(net, k, p.from.index, 0, false), i1 = PortPiece(net, k, p.from.index, 1, false);
+  const ConstrictionPorts ports = PortsOf(net, k, p.from.index);
   double hot = 0.0;
-  for (int i : {i0, i1})
+  for (int i : ports.incoming)
     if (i >= 0) hot = std::max(hot, std::abs(tr.piece_potential_V[static_cast<std::size_t>(i)]));
   f.dilution = hot > 0.0 ? std::abs(mu) / hot : 0.0;
   if (!f.equilibrium && EffectiveRegime(src) == Regime::kStrong)
@@ -310,7 +297,8 @@ std::vector<ColliderPrediction> FindColliders(const Design& d, const EdgeNetwork
       const Constriction& c = d.constrictions[q];
       const double t = c.transmission[k];
       const int kk = static_cast<int>(k), qq = static_cast<int>(q);
-      const int in0 = in_piece(net, kk, qq, 0), in1 = in_piece(net, kk, qq, 1);
+      const ConstrictionPorts ports = PortsOf(net, kk, qq);
+      const int in0 = ports.incoming[0], in1 = ports.incoming[1];
       if (!(t > 0.0 && t < 1.0) || in0 < 0 || in1 < 0) continue;
       const EdgePiece& p0 = net.pieces[static_cast<std::size_t>(in0)];
       const EdgePiece& p1 = net.pieces[static_cast<std::size_t>(in1)];
@@ -350,7 +338,7 @@ std::vector<ColliderPrediction> FindColliders(const Design& d, const EdgeNetwork
       cp.weak_tunnelling = reg == Regime::kWeak && cp.tunnelling <= opt.weak_tunnelling_limit;
       cp.exchange_below_half_pi = ch.exchange_pi && *ch.exchange_pi < 0.5;
       for (int f = 0; f < 2; ++f) {
-        const int o = out_piece(net, kk, qq, f);
+        const int o = ports.outgoing[f];
         int best = -1;
         double most = 0.0;
         for (std::size_t x = 0; o >= 0 && x < d.contacts.size(); ++x)
@@ -439,8 +427,8 @@ bool AddFractionalNoise(const Design& d, const EdgeNetwork& net, const Transport
       const int qq = static_cast<int>(q);
       const double t = c.transmission[k];
       if (!(t > 0.0 && t < 1.0) || MatrixColliderAt(colliders, kk, qq)) continue;
-      const int i0 = in_piece(net, kk, qq, 0), i1 = in_piece(net, kk, qq, 1);
-      const int o0 = out_piece(net, kk, qq, 0), o1 = out_piece(net, kk, qq, 1);
+      const ConstrictionPorts ports = PortsOf(net, kk, qq);
+      const int i0 = ports.incoming[0], i1 = ports.incoming[1], o0 = ports.outgoing[0], o1 = ports.outgoing[1];
       if (i0 < 0 || i1 < 0 || o0 < 0 || o1 < 0) continue;
       const double vq = std::abs(tr.piece_potential_V[static_cast<std::size_t>(i0)] -
                                  tr.piece_potential_V[static_cast<std::size_t>(i1)]);
@@ -463,9 +451,9 @@ bool AddFractionalNoise(const Design& d, const EdgeNetwork& net, const Transport
         if (!cp.in_contact_matrix || cp.channel != kk) continue;
         for (int input = 0; input < 2; ++input) {
           if ((input == 0 ? cp.source_first : cp.source_second) != qq) continue;
-          const int stream_piece = in_piece(net, kk, cp.constriction, input);
-          const int self_face = net.pieces[static_cast<std::size_t>(stream_piece)].from.face;
-          w = absorb(out_piece(net, kk, cp.constriction, 1 - input)) - absorb(out_piece(net, kk, qq, 1 - self_face));
+          const ConstrictionPorts at = PortsOf(net, kk, cp.constriction);
+          const int self_face = net.pieces[static_cast<std::size_t>(at.incoming[input])].from.face;
+          w = absorb(at.outgoing[1 - input]) - absorb(ports.outgoing[1 - self_face]);
           w_in[2 * static_cast<std::size_t>(cp.constriction) + static_cast<std::size_t>(input)] = w;
         }
       }
@@ -475,8 +463,8 @@ bool AddFractionalNoise(const Design& d, const EdgeNetwork& net, const Transport
     // S_1T and S_2T pair it with its inputs' fluctuations, S_TT with itself.
     for (const ColliderPrediction& cp : colliders) {
       if (!cp.in_contact_matrix || cp.channel != kk) continue;
-      const Eigen::VectorXd wt =
-          absorb(out_piece(net, kk, cp.constriction, 0)) - absorb(out_piece(net, kk, cp.constriction, 1));
+      const ConstrictionPorts at = PortsOf(net, kk, cp.constriction);
+      const Eigen::VectorXd wt = absorb(at.outgoing[0]) - absorb(at.outgoing[1]);
       const Eigen::VectorXd& wa = w_in[2 * static_cast<std::size_t>(cp.constriction)];
       const Eigen::VectorXd& wb = w_in[2 * static_cast<std::size_t>(cp.constriction) + 1];
       excess += cp.shape.stt_A2_per_Hz * wt * wt.transpose() +
@@ -499,6 +487,8 @@ struct NoiseSolving {
   std::vector<double> v;     // contact voltages (undetermined ones at 0)
   Mat G;                     // conductance matrix, S
   NoiseResult r;
+  Mat excess;          // the sources' excess noise with every contact voltage fixed, A^2/Hz
+  Mat L;               // from that noise to the measured one (floating contacts eliminated)
   Mat excess_p, eq_p;  // excess and equilibrium noise with floating contacts eliminated, A^2/Hz
 };
 
@@ -530,12 +520,11 @@ std::vector<CoherentLoop> coherent_loops(const NoiseSolving& ctx, const Coherent
 // Phase configuration k: every piece gets phase 2 pi frac(k alpha_p), alpha_p = frac(p sqrt 2 +
 // (p + 1) sqrt 3) (a Weyl sequence, equidistributed); with a fixed loop phase, one piece of each
 // loop carries the phase and every other piece zero.
-std::vector<double> piece_phases(const NoiseSolving& ctx, int k) {
+std::vector<double> piece_phases(const NoiseSolving& ctx, const std::vector<CoherentLoop>& loops, int k) {
   std::vector<double> phase(ctx.net.pieces.size(), 0.0);
   if (ctx.opt.loop_phase_rad) {
-    for (const CoherentLoop& loop : ctx.r.loops)
-      phase[static_cast<std::size_t>(loop.pieces.front())] = *ctx.opt.loop_phase_rad;
-  } else if (!ctx.r.loops.empty()) {
+    for (const CoherentLoop& loop : loops) phase[static_cast<std::size_t>(loop.pieces.front())] = *ctx.opt.loop_phase_rad;
+  } else if (!loops.empty()) {
     for (std::size_t p = 0; p < phase.size(); ++p) {
       const double alpha = std::fmod(
           static_cast<double>(p) * std::numbers::sqrt2 + static_cast<double>(p + 1) * std::numbers::sqrt3, 1.0);
@@ -561,49 +550,113 @@ double equilibrium_identity_error(const NoiseSolving& ctx, const CoherentNetwork
   return (se - eq_sample).cwiseAbs().maxCoeff() / scale;
 }
 
+// ---- The noise models as units: each returns its contribution; the table at the end composes them ----
+
 // Integer channels: coherent scattering, averaged over the loops' phases (or at the fixed loop phase).
-// Adds the biased and the equilibrium noise to s_bias and s_eq.
-void coherent_noise(NoiseSolving& ctx, Mat& s_bias, Mat& s_eq) {
+struct CoherentContribution {
+  bool used = false;  // the design has integer channels that a contact feeds
+  Mat excess;         // biased minus equilibrium noise, every contact voltage fixed, A^2/Hz
+  std::vector<CoherentLoop> loops;
+  bool phase_averaged = false;
+  int phase_samples = 1;
+  double unitarity_error = 0.0, equilibrium_identity_error = 0.0;
+  std::vector<Finding> findings;
+};
+
+CoherentContribution coherent_noise(const NoiseSolving& ctx) {
   const NoiseOptions& opt = ctx.opt;
-  NoiseResult& r = ctx.r;
   const int nc = ctx.nc;
+  CoherentContribution c;
+  c.excess = Mat::Zero(nc, nc);
   const CoherentNetwork coherent(ctx.d, ctx.net);
-  if (coherent.channels.empty() || coherent.in_pieces.empty()) return;
-  r.loops = coherent_loops(ctx, coherent);
-  const int samples = r.loops.empty() ? 1 : (opt.loop_phase_rad ? 1 : opt.phase_samples);
-  r.phase_averaged = !r.loops.empty() && !opt.loop_phase_rad;
-  r.phase_samples = samples;
+  if (coherent.channels.empty() || coherent.in_pieces.empty()) return c;
+  c.used = true;
+  c.loops = coherent_loops(ctx, coherent);
+  const int samples = c.loops.empty() ? 1 : (opt.loop_phase_rad ? 1 : opt.phase_samples);
+  c.phase_averaged = !c.loops.empty() && !opt.loop_phase_rad;
+  c.phase_samples = samples;
+  Mat s_bias = Mat::Zero(nc, nc), s_eq = Mat::Zero(nc, nc);
   for (int k = 0; k < samples; ++k) {
-    const CMat s = coherent.Solve(piece_phases(ctx, k));
+    const CMat s = coherent.Solve(piece_phases(ctx, c.loops, k));
     if (s.rows() == s.cols())
-      r.unitarity_error =
-          std::max(r.unitarity_error, (s.adjoint() * s - CMat::Identity(s.rows(), s.cols())).cwiseAbs().maxCoeff());
+      c.unitarity_error =
+          std::max(c.unitarity_error, (s.adjoint() * s - CMat::Identity(s.rows(), s.cols())).cwiseAbs().maxCoeff());
     else
-      r.unitarity_error = std::max(r.unitarity_error, 1.0);
+      c.unitarity_error = std::max(c.unitarity_error, 1.0);
     const Mat sb = coherent.Noise(s, ctx.v, ctx.temperature);
     const Mat se = coherent.Noise(s, std::vector<double>(static_cast<std::size_t>(nc), 0.0), ctx.temperature);
     s_bias += sb / samples;
     s_eq += se / samples;
-    r.equilibrium_identity_error =
-        std::max(r.equilibrium_identity_error, equilibrium_identity_error(ctx, coherent, s, se));
+    c.equilibrium_identity_error =
+        std::max(c.equilibrium_identity_error, equilibrium_identity_error(ctx, coherent, s, se));
   }
-  if (r.unitarity_error > 1e-9)
-    r.findings.push_back({Severity::kError, "not-unitary",
-                          "the composed scattering matrix is not unitary (error " + std::to_string(r.unitarity_error) +
+  c.excess = s_bias - s_eq;
+  if (c.unitarity_error > 1e-9)
+    c.findings.push_back({Severity::kError, "not-unitary",
+                          "the composed scattering matrix is not unitary (error " + std::to_string(c.unitarity_error) +
                               "); the noise is not reliable",
                           ctx.d.mesa.where});
-  r.models.push_back(
-      std::string(
-          "integer channels: coherent scattering matrix with Büttiker's multi-terminal formula at finite temperature "
-          "(Büttiker, Phys. Rev. B 46, 12485 (1992); docs/models.md \"Coherent noise of integer channels\"); ") +
-      (r.loops.empty()    ? "the network has no loop, so the phases drop out"
-       : r.phase_averaged ? "averaged over " + std::to_string(samples) + " phase configurations of its loop(s)"
-                          : "with the loop phase fixed at " + std::to_string(*opt.loop_phase_rad) + " rad"));
+  return c;
+}
+
+std::optional<std::string> apply_coherent(NoiseSolving& ctx) {
+  CoherentContribution c = coherent_noise(ctx);
+  if (!c.used) return std::nullopt;
+  NoiseResult& r = ctx.r;
+  ctx.excess += c.excess;
+  r.loops = std::move(c.loops);
+  r.phase_averaged = c.phase_averaged;
+  r.phase_samples = c.phase_samples;
+  r.unitarity_error = c.unitarity_error;
+  r.equilibrium_identity_error = c.equilibrium_identity_error;
+  r.findings.insert(r.findings.end(), c.findings.begin(), c.findings.end());
+  return std::string(
+             "integer channels: coherent scattering matrix with Büttiker's multi-terminal formula at finite "
+             "temperature (Büttiker, Phys. Rev. B 46, 12485 (1992); docs/models.md \"Coherent noise of integer "
+             "channels\"); ") +
+         (r.loops.empty()    ? "the network has no loop, so the phases drop out"
+          : r.phase_averaged ? "averaged over " + std::to_string(r.phase_samples) + " phase configurations of its loop(s)"
+                             : "with the loop phase fixed at " + std::to_string(*ctx.opt.loop_phase_rad) + " rad");
+}
+
+// Fractional channels: colliders first (they decide how their inputs' noise is carried), then the
+// partition noise of every constriction and each matrix collider's own block.
+struct FractionalContribution {
+  bool used = false;  // the design has fractional channels
+  Mat excess;         // every contact voltage fixed, A^2/Hz
+  std::vector<ColliderPrediction> colliders;
+  std::vector<Finding> findings;
+};
+
+FractionalContribution fractional_noise(const NoiseSolving& ctx) {
+  FractionalContribution c;
+  c.excess = Mat::Zero(ctx.nc, ctx.nc);
+  c.colliders = FindColliders(ctx.d, ctx.net, ctx.tr, ctx.opt, &c.findings);
+  c.used = AddFractionalNoise(ctx.d, ctx.net, ctx.tr, c.colliders, ctx.temperature, c.excess, &c.findings);
+  return c;
+}
+
+std::optional<std::string> apply_fractional(NoiseSolving& ctx) {
+  FractionalContribution c = fractional_noise(ctx);
+  ctx.excess += c.excess;
+  ctx.r.colliders = std::move(c.colliders);
+  ctx.r.findings.insert(ctx.r.findings.end(), c.findings.begin(), c.findings.end());
+  if (!c.used) return std::nullopt;
+  return "fractional channels: partition noise at each constriction, 2 e* V g t(1-t)[coth(e*V/2kT) - 2kT/e*V], with "
+         "e* of its regime (weak backscattering unless the design says `regime: strong`; Kane & Fisher, Phys. Rev. "
+         "Lett. 72, 724 (1994)), carried to the contacts by the incoherent network; a collider in the contact matrix "
+         "replaces the splitting of its inputs' noise by its own block (S_34 from P, the rest from current "
+         "conservation; docs/models.md \"Anyon collider\")";
 }
 
 // Floating contacts and current sources: dI = 0. The map L from the noise of the contacts' currents
 // with every voltage fixed to that with the floating contacts eliminated (identity when there are none).
-Mat floating_contact_map(NoiseSolving& ctx) {
+struct FloatingContribution {
+  bool any = false;  // some contact is held at dI = 0
+  Mat L;
+};
+
+FloatingContribution floating_contact_map(const NoiseSolving& ctx) {
   const int nc = ctx.nc;
   const Mat& G = ctx.G;
   std::vector<int> held, fixed;
@@ -612,32 +665,34 @@ Mat floating_contact_map(NoiseSolving& ctx) {
     const bool floating = w.role == Role::kFloat || (w.role == Role::kSource && w.bias_is_current);
     (floating && ctx.tr.voltage_V[static_cast<std::size_t>(i)] ? held : fixed).push_back(i);
   }
-  Mat L = Mat::Identity(nc, nc);
-  if (!held.empty()) {
-    Mat gff(static_cast<int>(held.size()), static_cast<int>(held.size()));
-    for (std::size_t a = 0; a < held.size(); ++a)
-      for (std::size_t b = 0; b < held.size(); ++b) gff(static_cast<int>(a), static_cast<int>(b)) = G(held[a], held[b]);
-    const Mat inv = gff.fullPivLu().inverse();
-    L = Mat::Zero(nc, nc);
-    for (int a : fixed) {
-      L(a, a) = 1.0;
-      for (std::size_t f = 0; f < held.size(); ++f) {
-        double x = 0.0;
-        for (std::size_t h = 0; h < held.size(); ++h)
-          x += G(a, held[h]) * inv(static_cast<int>(h), static_cast<int>(f));
-        L(a, held[f]) = -x;
-      }
+  FloatingContribution c{!held.empty(), Mat::Identity(nc, nc)};
+  if (held.empty()) return c;
+  Mat gff(static_cast<int>(held.size()), static_cast<int>(held.size()));
+  for (std::size_t a = 0; a < held.size(); ++a)
+    for (std::size_t b = 0; b < held.size(); ++b) gff(static_cast<int>(a), static_cast<int>(b)) = G(held[a], held[b]);
+  const Mat inv = gff.fullPivLu().inverse();
+  c.L = Mat::Zero(nc, nc);
+  for (int a : fixed) {
+    c.L(a, a) = 1.0;
+    for (std::size_t f = 0; f < held.size(); ++f) {
+      double x = 0.0;
+      for (std::size_t h = 0; h < held.size(); ++h) x += G(a, held[h]) * inv(static_cast<int>(h), static_cast<int>(f));
+      c.L(a, held[f]) = -x;
     }
-    ctx.r.models.push_back(
-        "floating contacts and current sources conserve current at low frequency (docs/models.md \"Floating "
-        "contacts\"); their heating "
-        "by the bias is not included");
   }
-  return L;
+  return c;
 }
 
-const AmplifierNoise* amplifier_at(const NoiseResult& r, int contact) {
-  for (const auto& a : r.amplifiers)
+std::optional<std::string> apply_floating(NoiseSolving& ctx) {
+  FloatingContribution c = floating_contact_map(ctx);
+  ctx.L = std::move(c.L);
+  if (!c.any) return std::nullopt;
+  return "floating contacts and current sources conserve current at low frequency (docs/models.md \"Floating "
+         "contacts\"); their heating by the bias is not included";
+}
+
+const AmplifierNoise* amplifier_at(const std::vector<AmplifierNoise>& amplifiers, int contact) {
+  for (const auto& a : amplifiers)
     if (a.contact == contact) return &a;
   return nullptr;
 }
@@ -645,10 +700,10 @@ const AmplifierNoise* amplifier_at(const NoiseResult& r, int contact) {
 // The cross-correlation of amplifiers x and y for a current cross-spectrum s_xy_current: returns the
 // signal in V^2/Hz, sets the signal-to-noise and the time to reach target_signal_V2. Cross-spectrum
 // error: sqrt((S_xx S_yy + S_xy^2) / (2 df t)) (docs/models.md "Amplifier chain").
-double cross_correlation(const NoiseSolving& ctx, int x, int y, double s_xy_current, double* snr,
-                         std::optional<double>* time, double target_signal_V2) {
-  const AmplifierNoise* ax = amplifier_at(ctx.r, x);
-  const AmplifierNoise* ay = amplifier_at(ctx.r, y);
+double cross_correlation(const NoiseSolving& ctx, const std::vector<AmplifierNoise>& amplifiers, int x, int y,
+                         double s_xy_current, double* snr, std::optional<double>* time, double target_signal_V2) {
+  const AmplifierNoise* ax = amplifier_at(amplifiers, x);
+  const AmplifierNoise* ay = amplifier_at(amplifiers, y);
   const Amplifier& a = *ctx.d.wiring[static_cast<std::size_t>(x)].amplifier;
   const Amplifier& b = *ctx.d.wiring[static_cast<std::size_t>(y)].amplifier;
   const double df = std::min(a.bandwidth_Hz, b.bandwidth_Hz), t = std::min(a.integration_s, b.integration_s);
@@ -666,12 +721,17 @@ double cross_correlation(const NoiseSolving& ctx, int x, int y, double s_xy_curr
 // Amplifiers: each one's chain, and the cross-correlation of every pair. The sample seen from an
 // amplifier contact: the other fixed-voltage contacts held at AC ground, floating ones eliminated:
 // G' = G_AA - G_AF G_FF^-1 G_FA (the Schur complement).
-void amplifier_noise(NoiseSolving& ctx, const Mat& L) {
+struct AmplifierContribution {
+  std::vector<AmplifierNoise> amplifiers;
+  std::vector<CrossNoise> cross;
+};
+
+AmplifierContribution amplifier_noise(const NoiseSolving& ctx) {
   const Design& d = ctx.d;
   const NoiseOptions& opt = ctx.opt;
-  NoiseResult& r = ctx.r;
   const Mat& excess_p = ctx.excess_p;
-  const Mat Gp = L * ctx.G * L.transpose();
+  const Mat Gp = ctx.L * ctx.G * ctx.L.transpose();
+  AmplifierContribution c;
   std::vector<int> amps;
   for (int i = 0; i < ctx.nc; ++i)
     if (d.wiring[static_cast<std::size_t>(i)].role == Role::kAmplifier) amps.push_back(i);
@@ -679,7 +739,7 @@ void amplifier_noise(NoiseSolving& ctx, const Mat& L) {
     AmplifierNoise an = AmplifierChain(Gp(i, i), *d.wiring[static_cast<std::size_t>(i)].amplifier, ctx.temperature,
                                        excess_p(i, i), opt.target_sigmas);
     an.contact = i;
-    r.amplifiers.push_back(an);
+    c.amplifiers.push_back(an);
   }
   for (std::size_t a = 0; a < amps.size(); ++a)
     for (std::size_t b = a + 1; b < amps.size(); ++b) {
@@ -687,87 +747,143 @@ void amplifier_noise(NoiseSolving& ctx, const Mat& L) {
       cn.first = amps[a];
       cn.second = amps[b];
       cn.excess_current_A2_per_Hz = excess_p(amps[a], amps[b]);
-      const double rr =
-          amplifier_at(r, amps[a])->effective_resistance_Ohm * amplifier_at(r, amps[b])->effective_resistance_Ohm;
-      cn.signal_V2_per_Hz =
-          cross_correlation(ctx, amps[a], amps[b], cn.excess_current_A2_per_Hz, &cn.snr, &cn.time_for_target_s,
-                            rr * cn.excess_current_A2_per_Hz / opt.target_sigmas);
-      r.cross.push_back(cn);
+      const double rr = amplifier_at(c.amplifiers, amps[a])->effective_resistance_Ohm *
+                        amplifier_at(c.amplifiers, amps[b])->effective_resistance_Ohm;
+      cn.signal_V2_per_Hz = cross_correlation(ctx, c.amplifiers, amps[a], amps[b], cn.excess_current_A2_per_Hz,
+                                              &cn.snr, &cn.time_for_target_s,
+                                              rr * cn.excess_current_A2_per_Hz / opt.target_sigmas);
+      c.cross.push_back(cn);
     }
-  if (!amps.empty())
-    r.models.push_back(
-        "amplifier chain: sample in parallel with the load, S_V = R^2 S_I + e_n^2 + R^2 i_n^2 + 4k R^2 (T_s/R_s + "
-        "T_L/R_L) with the load at its own temperature; averaging "
-        "error S/sqrt(df t) for autocorrelations and sqrt((SxxSyy + Sxy^2)/(2 df t)) for cross-correlations "
-        "(Dicke radiometer formula; docs/models.md \"Amplifier chain\")");
+  return c;
 }
 
-// Colliders: their time to know P from the drains' cross-correlation.
-void collider_measurement_times(NoiseSolving& ctx) {
-  NoiseResult& r = ctx.r;
-  for (ColliderPrediction& cp : r.colliders) {
+std::optional<std::string> apply_amplifiers(NoiseSolving& ctx) {
+  AmplifierContribution c = amplifier_noise(ctx);
+  const bool any = !c.amplifiers.empty();
+  ctx.r.amplifiers = std::move(c.amplifiers);
+  ctx.r.cross = std::move(c.cross);
+  if (!any) return std::nullopt;
+  return "amplifier chain: sample in parallel with the load, S_V = R^2 S_I + e_n^2 + R^2 i_n^2 + 4k R^2 (T_s/R_s + "
+         "T_L/R_L) with the load at its own temperature; averaging "
+         "error S/sqrt(df t) for autocorrelations and sqrt((SxxSyy + Sxy^2)/(2 df t)) for cross-correlations "
+         "(Dicke radiometer formula; docs/models.md \"Amplifier chain\")";
+}
+
+// Colliders: the time to know each one's P from the drains' cross-correlation (in the order of
+// NoiseResult::colliders; nullopt where it cannot be measured).
+std::vector<std::optional<double>> collider_measurement_times(const NoiseSolving& ctx) {
+  const NoiseResult& r = ctx.r;
+  std::vector<std::optional<double>> times;
+  for (const ColliderPrediction& cp : r.colliders) {
+    std::optional<double>& time = times.emplace_back();
     if (!cp.s34_A2_per_Hz || cp.output_first < 0 || cp.output_second < 0 || cp.output_first == cp.output_second ||
-        !amplifier_at(r, cp.output_first) || !amplifier_at(r, cp.output_second))
+        !amplifier_at(r.amplifiers, cp.output_first) || !amplifier_at(r.amplifiers, cp.output_second))
       continue;
-    const double rr = amplifier_at(r, cp.output_first)->effective_resistance_Ohm *
-                      amplifier_at(r, cp.output_second)->effective_resistance_Ohm;
+    const double rr = amplifier_at(r.amplifiers, cp.output_first)->effective_resistance_Ohm *
+                      amplifier_at(r.amplifiers, cp.output_second)->effective_resistance_Ohm;
     const double p_used =
         cp.model_in_matrix == ColliderModel::kFiniteTemperature ? *cp.fano_finite_temperature : *cp.fano;
     double snr = 0.0;
     if (p_used != 0.0)
-      cross_correlation(ctx, cp.output_first, cp.output_second, ctx.excess_p(cp.output_first, cp.output_second), &snr,
-                        &cp.time_for_fano_s, rr * ctx.opt.collider_fano_uncertainty * *cp.s34_A2_per_Hz / p_used);
+      cross_correlation(ctx, r.amplifiers, cp.output_first, cp.output_second,
+                        ctx.excess_p(cp.output_first, cp.output_second), &snr, &time,
+                        rr * ctx.opt.collider_fano_uncertainty * *cp.s34_A2_per_Hz / p_used);
   }
-  if (!r.colliders.empty())
-    r.models.push_back(
-        "colliders: generalized Fano factor P of Rosenow, Levkivskyi & Halperin, Phys. Rev. Lett. 116, 156802 (2016), "
-        "lowest order in the collider tunnelling, at T = 0 and with thermal edge correlators at the design "
-        "temperature; the contact matrix uses the " +
-        ToString(ctx.opt.collider_model) + " form; S_34 = 2 P e* |I+| T(1 - T) (docs/models.md \"Anyon collider\")");
+  return times;
+}
+
+std::optional<std::string> apply_collider_times(NoiseSolving& ctx) {
+  const std::vector<std::optional<double>> times = collider_measurement_times(ctx);
+  for (std::size_t i = 0; i < times.size(); ++i) ctx.r.colliders[i].time_for_fano_s = times[i];
+  if (ctx.r.colliders.empty()) return std::nullopt;
+  return "colliders: generalized Fano factor P of Rosenow, Levkivskyi & Halperin, Phys. Rev. Lett. 116, 156802 "
+         "(2016), lowest order in the collider tunnelling, at T = 0 and with thermal edge correlators at the design "
+         "temperature; the contact matrix uses the " +
+         ToString(ctx.opt.collider_model) + " form; S_34 = 2 P e* |I+| T(1 - T) (docs/models.md \"Anyon collider\")";
+}
+
+// When a model runs. Sources add to the contacts' excess noise with every voltage fixed; the circuit
+// then turns that into the noise measured at the contacts (floating contacts); readouts read it.
+enum class Stage { kSource, kCircuit, kReadout };
+
+struct ModelRow {
+  NoiseModel model;
+  const char* name;          // ToString(model)
+  const char* docs_section;  // docs/models.md
+  Stage stage;
+  // Runs the unit on the solution so far and keeps its contribution; returns what it did (for
+  // NoiseResult::models), or nullopt when it had nothing to do in this design.
+  std::optional<std::string> (*apply)(NoiseSolving&);
+};
+
+// The table of noise models, in the order they run. A new model is a unit above and one row here.
+const std::vector<ModelRow>& ModelTable() {
+  static const std::vector<ModelRow> table{
+      {NoiseModel::kCoherentInteger, "coherent-integer", "Coherent noise of integer channels", Stage::kSource,
+       apply_coherent},
+      {NoiseModel::kFractionalPartition, "fractional-partition", "Fractional constriction", Stage::kSource,
+       apply_fractional},
+      {NoiseModel::kFloatingContacts, "floating-contacts", "Floating contacts", Stage::kCircuit, apply_floating},
+      {NoiseModel::kAmplifierChain, "amplifier-chain", "Amplifier chain", Stage::kReadout, apply_amplifiers},
+      {NoiseModel::kCollider, "collider", "Anyon collider", Stage::kReadout, apply_collider_times},
+  };
+  return table;
+}
+
+void run_stage(NoiseSolving& ctx, Stage stage) {
+  for (const ModelRow& row : ModelTable())
+    if (row.stage == stage)
+      if (std::optional<std::string> text = row.apply(ctx))
+        ctx.r.models.push_back({row.model, std::move(*text), row.docs_section});
 }
 
 }  // namespace
+
+std::string ToString(NoiseModel m) {
+  for (const ModelRow& row : ModelTable())
+    if (row.model == m) return row.name;
+  return "unknown";
+}
+
+const std::vector<NoiseModelInfo>& NoiseModels() {
+  static const std::vector<NoiseModelInfo> info = [] {
+    std::vector<NoiseModelInfo> out;
+    for (const ModelRow& row : ModelTable()) out.push_back({row.model, row.name, row.docs_section});
+    return out;
+  }();
+  return info;
+}
+
+std::vector<std::string> ModelTexts(const NoiseResult& result) {
+  std::vector<std::string> out;
+  for (const NoiseModelUse& m : result.models) out.push_back(m.text);
+  return out;
+}
 
 NoiseResult SolveNoise(const Design& d, const EdgeNetwork& net, const TransportResult& tr, const NoiseOptions& opt) {
   std::string why;
   if (!opt.IsValid(&why)) throw std::invalid_argument("NoiseOptions: " + why);
   const int nc = static_cast<int>(d.contacts.size());
-  NoiseSolving ctx{d, net, tr, opt, nc, d.conditions.temperature_K, 0.0, {}, to_eigen(tr.conductance_S), {}, {}, {}};
+  NoiseSolving ctx{d, net, tr, opt, nc, d.conditions.temperature_K, 0.0, {}, to_eigen(tr.conductance_S), {}, {}, {}, {},
+                   {}};
   ctx.kt = kBoltzmann_J_per_K * ctx.temperature;
   NoiseResult& r = ctx.r;
   r.field_T = net.field_T;
   ctx.v.assign(static_cast<std::size_t>(nc), 0.0);
   for (int i = 0; i < nc; ++i)
     ctx.v[static_cast<std::size_t>(i)] = tr.voltage_V[static_cast<std::size_t>(i)].value_or(0.0);
+  ctx.excess = Mat::Zero(nc, nc);
+  ctx.L = Mat::Identity(nc, nc);
 
-  // ---- Integer channels: coherent scattering ----
-  Mat s_bias = Mat::Zero(nc, nc), s_eq = Mat::Zero(nc, nc);
-  coherent_noise(ctx, s_bias, s_eq);
-  Mat excess = s_bias - s_eq;
-
-  // ---- Fractional channels: colliders first (they decide how their inputs' noise is carried), then
-  // the partition noise of every constriction and each collider's own block ----
-  r.colliders = FindColliders(d, net, tr, opt, &r.findings);
-  if (AddFractionalNoise(d, net, tr, r.colliders, ctx.temperature, excess, &r.findings))
-    r.models.push_back(
-        "fractional channels: partition noise at each constriction, 2 e* V g t(1-t)[coth(e*V/2kT) - 2kT/e*V], with "
-        "e* of its regime (weak backscattering unless the design says `regime: strong`; Kane & Fisher, Phys. Rev. "
-        "Lett. 72, 724 (1994)), carried to the contacts by the incoherent network; a collider in the contact matrix "
-        "replaces the splitting of its inputs' noise by its own block (S_34 from P, the rest from current "
-        "conservation; docs/models.md \"Anyon collider\")");
+  run_stage(ctx, Stage::kSource);
   const Mat equilibrium = 2.0 * ctx.kt * (ctx.G + ctx.G.transpose());
-
-  // ---- Floating contacts and current sources: dI = 0 ----
-  const Mat L = floating_contact_map(ctx);
-  ctx.excess_p = L * excess * L.transpose();
-  ctx.eq_p = L * equilibrium * L.transpose();
+  run_stage(ctx, Stage::kCircuit);
+  ctx.excess_p = ctx.L * ctx.excess * ctx.L.transpose();
+  ctx.eq_p = ctx.L * equilibrium * ctx.L.transpose();
   r.excess_A2_per_Hz = from_eigen(ctx.excess_p);
   r.equilibrium_A2_per_Hz = from_eigen(ctx.eq_p);
   r.total_A2_per_Hz = from_eigen(ctx.excess_p + ctx.eq_p);
-
-  // ---- Amplifiers, then the colliders' measurement times ----
-  amplifier_noise(ctx, L);
-  collider_measurement_times(ctx);
+  run_stage(ctx, Stage::kReadout);
   return std::move(ctx.r);
 }
 

@@ -22,54 +22,44 @@ struct ChannelChain {
   std::vector<std::vector<int>> emitted_by;  // per contact: states it emits
 };
 
-int find_piece(const std::vector<int>& states, const std::vector<EdgePiece>& all, const EdgeEnd& from) {
-  for (std::size_t s = 0; s < states.size(); ++s)
-    if (all[static_cast<std::size_t>(states[s])].from == from) return static_cast<int>(s);
-  return -1;
-}
-
 ChannelChain build_chain(const Design& d, const EdgeNetwork& net, int channel) {
   ChannelChain c;
+  std::vector<int> state_of(net.pieces.size(), -1);  // network piece -> state of this channel
   for (std::size_t p = 0; p < net.pieces.size(); ++p)
-    if (net.pieces[p].channel == channel) c.pieces.push_back(static_cast<int>(p));
+    if (net.pieces[p].channel == channel) {
+      state_of[p] = static_cast<int>(c.pieces.size());
+      c.pieces.push_back(static_cast<int>(p));
+    }
   const int n = static_cast<int>(c.pieces.size());
   const int nc = static_cast<int>(d.contacts.size());
   c.P = Eigen::MatrixXd::Zero(n, n);
   c.R = Eigen::MatrixXd::Zero(n, nc);
   c.emitted_by.assign(static_cast<std::size_t>(nc), {});
+  std::vector<int> emitting;  // pieces that leave a contact
   for (int s = 0; s < n; ++s) {
-    const EdgePiece& p = net.pieces[static_cast<std::size_t>(c.pieces[static_cast<std::size_t>(s)])];
-    if (p.from.kind == EdgeEnd::Kind::kContact) c.emitted_by[static_cast<std::size_t>(p.from.index)].push_back(s);
-    if (p.to.kind == EdgeEnd::Kind::kContact) {
+    const int piece = c.pieces[static_cast<std::size_t>(s)];
+    const EdgePiece& p = net.pieces[static_cast<std::size_t>(piece)];
+    if (p.from.kind == EdgeEnd::Kind::kContact) {
+      c.emitted_by[static_cast<std::size_t>(p.from.index)].push_back(s);
+      emitting.push_back(piece);
+    }
+    // The scattering rule at a constriction port (network.hpp): 1 - t back along the same face, t across.
+    const std::optional<PortStep> step = StepAtPort(d, net, piece);
+    if (!step) {
       c.R(s, p.to.index) = 1.0;
       continue;
     }
-    const double t =
-        d.constrictions[static_cast<std::size_t>(p.to.index)].transmission[static_cast<std::size_t>(channel)];
-    const int back = find_piece(c.pieces, net.pieces, {EdgeEnd::Kind::kConstriction, p.to.index, p.to.face});
-    const int across = find_piece(c.pieces, net.pieces, {EdgeEnd::Kind::kConstriction, p.to.index, 1 - p.to.face});
-    if (back < 0 || across < 0)
+    if (step->reflected < 0 || step->transmitted < 0)
       throw std::runtime_error("edge network has a constriction port without an outgoing edge");
-    c.P(s, back) += 1.0 - t;
-    c.P(s, across) += t;
+    c.P(s, state_of[static_cast<std::size_t>(step->reflected)]) += 1.0 - step->transmission;
+    c.P(s, state_of[static_cast<std::size_t>(step->transmitted)]) += step->transmission;
   }
   // Solve on the states that current from a contact can reach; closed loops that no contact feeds
   // carry nothing and would make I - P singular.
-  std::vector<char> reach(static_cast<std::size_t>(n), 0);
-  std::vector<int> stack;
-  for (const auto& e : c.emitted_by)
-    for (int s : e) stack.push_back(s);
-  while (!stack.empty()) {
-    const int s = stack.back();
-    stack.pop_back();
-    if (reach[static_cast<std::size_t>(s)]) continue;
-    reach[static_cast<std::size_t>(s)] = 1;
-    for (int q = 0; q < n; ++q)
-      if (c.P(s, q) > 0.0) stack.push_back(q);
-  }
+  const std::vector<char> reach = ReachablePieces(d, net, emitting, {channel});
   std::vector<int> idx;
   for (int s = 0; s < n; ++s)
-    if (reach[static_cast<std::size_t>(s)]) idx.push_back(s);
+    if (reach[static_cast<std::size_t>(c.pieces[static_cast<std::size_t>(s)])]) idx.push_back(s);
   const int m = static_cast<int>(idx.size());
   Eigen::MatrixXd A = Eigen::MatrixXd::Identity(m, m);
   Eigen::MatrixXd Rr(m, nc);
@@ -356,11 +346,9 @@ void edge_potentials_and_partitioning(Solving& ctx) {
       const double t = d.constrictions[q].transmission[static_cast<std::size_t>(k)];
       if (!(t > kTiny && t < 1.0 - kTiny)) continue;
       std::optional<double> mu[2];
-      for (std::size_t p = 0; p < net.pieces.size(); ++p) {
-        const EdgePiece& e = net.pieces[p];
-        if (e.channel == k && e.to.kind == EdgeEnd::Kind::kConstriction && e.to.index == static_cast<int>(q))
-          mu[e.to.face] = r.piece_potential_V[p];
-      }
+      const ConstrictionPorts ports = PortsOf(net, k, static_cast<int>(q));
+      for (int f = 0; f < 2; ++f)
+        if (ports.incoming[f] >= 0) mu[f] = r.piece_potential_V[static_cast<std::size_t>(ports.incoming[f])];
       if (mu[0] && mu[1] && std::abs(*mu[0] - *mu[1]) > 1e-9 * vmax)
         r.partitioning.push_back({static_cast<int>(q), k, *mu[0] - *mu[1]});
     }

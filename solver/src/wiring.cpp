@@ -101,23 +101,14 @@ std::vector<int> SourcesOnPiece(const FieldData& f, int piece) {
 std::vector<int> SourcesFeeding(const FieldData& f, int piece) {
   std::vector<int> out = SourcesOnPiece(f, piece);
   if (piece < 0) return out;
-  std::vector<char> seen(f.net.pieces.size(), 0);
-  std::vector<int> stack{piece}, floats;
-  while (!stack.empty()) {
-    const int p = stack.back();
-    stack.pop_back();
-    if (p < 0 || seen[static_cast<std::size_t>(p)]) continue;
-    seen[static_cast<std::size_t>(p)] = 1;
-    const EdgePiece& e = f.net.pieces[static_cast<std::size_t>(p)];
-    if (e.from.kind == EdgeEnd::Kind::kContact) {
-      if (f.role(e.from.index) == Role::kFloat) floats.push_back(e.from.index);
-      continue;
-    }
-    // The piece leaving face g is fed by the one arriving at face g (1 - t) and at the other face (t).
-    const double t =
-        f.d.constrictions[static_cast<std::size_t>(e.from.index)].transmission[static_cast<std::size_t>(e.channel)];
-    if (t < 1.0) stack.push_back(PortPiece(f.net, e.channel, e.from.index, e.from.face, false));
-    if (t > 0.0) stack.push_back(PortPiece(f.net, e.channel, e.from.index, 1 - e.from.face, false));
+  // Walk back through constrictions (network.hpp, the scattering rule read backwards) to the contacts
+  // whose emission can arrive on `piece`; the floating ones pass on what their sources send them.
+  const std::vector<char> feeding = ReachablePieces(f.d, f.net, {piece}, {}, Walk::kUpstream);
+  std::vector<int> floats;
+  for (std::size_t p = 0; p < f.net.pieces.size(); ++p) {
+    const EdgePiece& e = f.net.pieces[p];
+    if (feeding[p] && e.from.kind == EdgeEnd::Kind::kContact && f.role(e.from.index) == Role::kFloat)
+      floats.push_back(e.from.index);
   }
   for (const Route& r : f.tr.routes)
     for (int x = 0; x < f.contacts(); ++x)

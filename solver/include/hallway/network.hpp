@@ -135,12 +135,32 @@ struct PortStep {
 };
 // The step at the end of piece `piece`, or nullopt when the piece ends at a contact.
 std::optional<PortStep> StepAtPort(const Design& design, const EdgeNetwork& network, int piece);
+// The same step for a carrier of `channel` arriving at face `face` of constriction `constriction`,
+// whether or not a piece arrives there (the colliders and the fractional partition noise ask by port).
+PortStep StepAtPort(const Design& design, const EdgeNetwork& network, int channel, int constriction, int face);
+// The rule read backwards: the pieces that feed piece `piece`, which leaves face f of a constriction:
+// `reflected` arrives at face f (weight 1 - t), `transmitted` at the other face (t); nullopt when the
+// piece leaves a contact.
+std::optional<PortStep> StepBackAtPort(const Design& design, const EdgeNetwork& network, int piece);
+
+// The pieces of `channel` at the two faces of a constriction: incoming[f] arrives at face f,
+// outgoing[f] leaves it (-1 where none does).
+struct ConstrictionPorts {
+  int incoming[2] = {-1, -1};
+  int outgoing[2] = {-1, -1};
+};
+ConstrictionPorts PortsOf(const EdgeNetwork& network, int channel, int constriction);
+
+// Which way a reachability search walks: the way carriers go (StepAtPort), or back to where they
+// come from (StepBackAtPort).
+enum class Walk { kDownstream, kUpstream };
 
 // The pieces a carrier can reach from `starts` (steps of nonzero probability: reflected when t < 1,
 // transmitted when t > 0; a piece that ends at a contact ends the walk), among pieces of `channels`
-// (all channels when empty). reach[p] is 1 for each reachable piece.
+// (all channels when empty). reach[p] is 1 for each reachable piece. Upstream: the pieces whose
+// carriers can arrive on a start piece (a piece that leaves a contact ends the walk).
 std::vector<char> ReachablePieces(const Design& design, const EdgeNetwork& network, const std::vector<int>& starts,
-                                  const std::vector<int>& channels = {});
+                                  const std::vector<int>& channels = {}, Walk walk = Walk::kDownstream);
 
 // Loops of the edge network: strongly connected sets of pieces (Tarjan) among the given channels,
 // joined through constrictions that let the edge go that way (t > 0 across, t < 1 back). Each loop

@@ -21,6 +21,10 @@
 //   S' = L S L^T, L = [1, -G_AF G_FF^-1]. Their heating by the bias is not included.
 // Colliders: docs/models.md, Anyon collider (collider.hpp).
 // Amplifiers: docs/models.md, Amplifier chain (Dicke radiometer formula for the averaging time).
+// Each model is a unit in noise.cpp that returns its contribution, and one row of the table of models
+// there (its tag NoiseModel, its docs/models.md section, when it runs: a source of noise with every
+// contact voltage fixed, the circuit that turns that into the measured noise, or a readout of it);
+// NoiseResult::models says which models produced the numbers.
 #pragma once
 
 #include <optional>
@@ -126,6 +130,32 @@ struct ColliderPrediction {
   std::vector<std::string> caveats;
 };
 
+// The noise models SolveNoise composes, one tag each (docs/models.md gives each its section).
+enum class NoiseModel {
+  kCoherentInteger,      // integer channels: coherent scattering matrix in Büttiker's formula
+  kFractionalPartition,  // fractional channels: partition noise at each constriction, collider blocks
+  kFloatingContacts,     // floating contacts and current sources hold dI = 0
+  kAmplifierChain,       // what each amplifier measures, and the amplifiers' cross-correlations
+  kCollider,             // colliders' generalised Fano factor P and the time to measure it
+};
+std::string ToString(NoiseModel m);  // "coherent-integer", "fractional-partition", ...
+
+// One row of the table of noise models (noise.cpp holds the table with each model's unit).
+struct NoiseModelInfo {
+  NoiseModel model;
+  const char* name;          // ToString(model)
+  const char* docs_section;  // the section of docs/models.md that states the model
+};
+// Every noise model, in the order SolveNoise applies them.
+const std::vector<NoiseModelInfo>& NoiseModels();
+
+// A model that produced numbers of a NoiseResult, and how.
+struct NoiseModelUse {
+  NoiseModel model = NoiseModel::kCoherentInteger;
+  std::string text;          // what it computed, with its assumptions and published source
+  std::string docs_section;  // the docs/models.md section
+};
+
 struct NoiseResult {
   double field_T = 0.0;
   Matrix total_A2_per_Hz, excess_A2_per_Hz, equilibrium_A2_per_Hz;  // contact order, after floats
@@ -137,12 +167,15 @@ struct NoiseResult {
   std::vector<AmplifierNoise> amplifiers;
   std::vector<CrossNoise> cross;
   std::vector<ColliderPrediction> colliders;
-  std::vector<std::string> models;  // which model produced which numbers
+  std::vector<NoiseModelUse> models;  // which model produced which numbers, in the order they ran
   std::vector<Finding> findings;
 };
 
 NoiseResult SolveNoise(const Design& design, const EdgeNetwork& network, const TransportResult& transport,
                        const NoiseOptions& options = {});
+
+// The texts of result.models, in order (what a command lists as the models used).
+std::vector<std::string> ModelTexts(const NoiseResult& result);
 
 // The measurement chain at one amplifier contact (docs/models.md, Amplifier chain): the sample
 // conductance gs seen there in parallel with the load, R = R_s || R_L,
