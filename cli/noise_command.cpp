@@ -1,6 +1,7 @@
 // `hallway noise`: current noise at every contact, amplifier signal-to-noise, colliders, bias sweeps.
 #include <fmt/core.h>
 
+#include <algorithm>
 #include <cmath>
 #include <iostream>
 #include <nlohmann/json.hpp>
@@ -12,6 +13,7 @@
 #include "hallway/design_loader.hpp"
 #include "hallway/network.hpp"
 #include "hallway/noise.hpp"
+#include "hallway/quantities.hpp"
 #include "hallway/transport.hpp"
 #include "hallway/units.hpp"
 #include "hallway/wiring.hpp"
@@ -263,48 +265,45 @@ json noise_json(const Design& d, const NoiseResult& n) {
   return j;
 }
 
-// The bias sweep as CSV: one row per point with the biases, the contact currents, the amplifiers'
-// excess noise and each collider's P.
-std::string sweep_csv(const Design& d, const EdgeNetwork& net, const NoiseOptions& opt, const Sweep& sweep,
-                      const NoiseResult& n, bool quiet) {
-  std::string csv;
-  std::vector<int> amps;
-  for (std::size_t i = 0; i < d.wiring.size(); ++i)
-    if (d.wiring[i].role == Role::kAmplifier) amps.push_back(static_cast<int>(i));
-  csv = "point";
+// The groups of the quantity table (quantities.hpp) that the bias sweep writes: the default ones that a
+// bias point gives (all but the pinch-off search, which the bias does not move).
+std::vector<const QuantityGroup*> sweep_groups() {
+  std::vector<const QuantityGroup*> out;
+  for (const QuantityGroup& g : QuantityGroups())
+    if (g.default_on && g.needs != QuantityNeeds::kPinchOffSearch) out.push_back(&g);
+  return out;
+}
+
+// The bias sweep as CSV on the device: one row per point with the biases, then the columns of
+// sweep_groups() (an empty field where a value does not exist at that point).
+std::string sweep_csv(const Device& device, FieldSign sign, const NoiseOptions& opt, const Sweep& sweep, bool quiet) {
+  const Design& d = device.design();
+  const std::vector<const QuantityGroup*> groups = sweep_groups();
+  std::string csv = "point";
   for (int c : sweep.contacts)
     csv += fmt::format(",bias_{}_{}", d.contacts[static_cast<std::size_t>(c)].name,
                        d.wiring[static_cast<std::size_t>(c)].bias_is_current ? "A" : "V");
-  for (const Contact& c : d.contacts) csv += ",I_" + c.name + "_A";
-  for (std::size_t a = 0; a < amps.size(); ++a)
-    for (std::size_t b = a; b < amps.size(); ++b)
-      csv += fmt::format(",S_exc_{}_{}_A2_per_Hz", d.contacts[static_cast<std::size_t>(amps[a])].name,
-                         d.contacts[static_cast<std::size_t>(amps[b])].name);
-  for (const ColliderPrediction& c : n.colliders)
-    csv += ",P_" + d.constrictions[static_cast<std::size_t>(c.constriction)].name;
+  for (const QuantityGroup* g : groups)
+    for (const std::string& c : g->columns(d)) csv += "," + c;
   csv += "\n";
+  const bool noise = std::any_of(groups.begin(), groups.end(),
+                                 [](const QuantityGroup* g) { return g->needs == QuantityNeeds::kNoise; });
   const Progress progress("noise sweep", sweep.points, quiet);
   for (int k = 0; k < sweep.points; ++k) {
     progress.Step(k, "bias point");
     const double x = sweep.points == 1 ? sweep.from : sweep.from + (sweep.to - sweep.from) * k / (sweep.points - 1);
-    Design dk = d;
-    for (std::size_t s = 0; s < sweep.contacts.size(); ++s)
-      dk.wiring[static_cast<std::size_t>(sweep.contacts[s])].bias = x * sweep.ratio[s];
-    const TransportResult tk = SolveTransport(dk, net);
-    const NoiseResult nk = SolveNoise(dk, net, tk, opt);
+    std::vector<double> biases;
+    for (double r : sweep.ratio) biases.push_back(x * r);
+    const BiasPoint point = SolveAtBias(device, sign, sweep.contacts, biases, noise ? &opt : nullptr);
     std::string row = std::to_string(k);
-    for (std::size_t s = 0; s < sweep.contacts.size(); ++s) row += fmt::format(",{:.9g}", x * sweep.ratio[s]);
-    for (double i : tk.current_A) row += fmt::format(",{:.9g}", i);
-    for (std::size_t a = 0; a < amps.size(); ++a)
-      for (std::size_t b = a; b < amps.size(); ++b)
-        row += fmt::format(",{:.9g}",
-                           nk.excess_A2_per_Hz[static_cast<std::size_t>(amps[a])][static_cast<std::size_t>(amps[b])]);
-    for (const ColliderPrediction& c : n.colliders) {
-      std::string p;
-      for (const ColliderPrediction& ck : nk.colliders)
-        if (ck.constriction == c.constriction && ck.fano) p = fmt::format("{:.9g}", *ck.fano);
-      row += "," + p;
-    }
+    for (double b : biases) row += fmt::format(",{:.12g}", b);
+    for (const QuantityGroup* g : groups)
+      for (const std::optional<double>& v : g->values(point.Results(device))) {
+        if (v && !std::isfinite(*v))
+          throw std::runtime_error(std::string("noise --sweep: a value that is not finite appeared in the group '") +
+                                   g->name + "' at point " + std::to_string(k) + "; nothing is written");
+        row += v ? fmt::format(",{:.10g}", *v) : std::string(",");
+      }
     csv += row + "\n";
   }
   return csv;
@@ -389,7 +388,7 @@ int RunNoise(const NoiseArgs& args) {
   // Bias sweep.
   std::string csv;
   if (!sweep.contacts.empty()) {
-    csv = sweep_csv(d, net, opt, sweep, n, args.quiet);
+    csv = sweep_csv(*device, sign, opt, sweep, args.quiet);
     out += fmt::format("\nSweep of {} point(s)\n", sweep.points);
     out += args.csv_path.empty() ? csv : "  written to " + args.csv_path + "\n";
   }

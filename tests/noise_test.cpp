@@ -3,10 +3,12 @@
 // collider, Amplifier chain) evaluated in the tests themselves, each with its source beside it.
 #include <gsl/gsl_integration.h>
 #include <gtest/gtest.h>
+#include <unistd.h>
 
 #include <cmath>
 #include <complex>
 #include <fstream>
+#include <filesystem>
 #include <numbers>
 #include <set>
 #include <sstream>
@@ -14,8 +16,10 @@
 #include "hallway/collider.hpp"
 #include "hallway/constants.hpp"
 #include "hallway/design_loader.hpp"
+#include "hallway/device.hpp"
 #include "hallway/network.hpp"
 #include "hallway/noise.hpp"
+#include "hallway/quantities.hpp"
 #include "hallway/transport.hpp"
 #include "test_support.hpp"
 
@@ -534,6 +538,101 @@ TEST(NoiseModels, EveryRowHasATagAndItsSectionInModelsMd) {
     }
     EXPECT_EQ(got, expected) << path;
   }
+}
+
+// A bias scan on one device (quantities.hpp, SolveAtBias): at the design's own biases it gives the
+// device's transport to the last bit; at twice the biases every contact current doubles, the linear
+// response of the Landauer-Büttiker formula I_a = sum_b G_ab V_b (Büttiker, Phys. Rev. Lett. 57, 1761
+// (1986)), and the noise is solved only when asked.
+TEST(NoiseSweep, BiasScanReusesTheDeviceAndRespondsLinearly) {
+  DeviceOptions options;
+  options.bare_estimate = true;
+  const Device device(LoadDesign(test::SourcePath("designs/02_two_source_collider.yaml")), options);
+  ASSERT_TRUE(device.usable());
+  const Design& d = device.design();
+  std::vector<int> sources;
+  std::vector<double> same, twice;
+  for (std::size_t i = 0; i < d.wiring.size(); ++i)
+    if (d.wiring[i].role == Role::kSource) {
+      sources.push_back(static_cast<int>(i));
+      same.push_back(d.wiring[i].bias);
+      twice.push_back(2 * d.wiring[i].bias);
+    }
+  ASSERT_EQ(sources.size(), 2u);  // SA and SB
+  const BiasPoint at_design = SolveAtBias(device, FieldSign::kDesign, sources, same, nullptr);
+  EXPECT_EQ(at_design.transport.current_A, device.transport().current_A);
+  EXPECT_FALSE(at_design.noise);
+  const NoiseOptions nopt;
+  const BiasPoint doubled = SolveAtBias(device, FieldSign::kDesign, sources, twice, &nopt);
+  ASSERT_TRUE(doubled.noise);
+  double largest = 0.0;
+  for (double i : device.transport().current_A) largest = std::max(largest, std::abs(i));
+  ASSERT_GT(largest, 0.0);
+  for (std::size_t a = 0; a < d.contacts.size(); ++a)
+    // 1e-12 of the largest current: rounding of the linear solve (common practice)
+    EXPECT_NEAR(doubled.transport.current_A[a], 2 * device.transport().current_A[a], 1e-12 * largest) << a;
+  const PointResults results = doubled.Results(device);
+  EXPECT_EQ(results.transport, &doubled.transport);
+  EXPECT_EQ(results.noise, &*doubled.noise);
+  EXPECT_THROW(SolveAtBias(device, FieldSign::kDesign, {0}, {1e-6, 2e-6}, nullptr), std::invalid_argument);
+  int not_source = 0;
+  while (d.wiring[static_cast<std::size_t>(not_source)].role == Role::kSource) ++not_source;
+  EXPECT_THROW(SolveAtBias(device, FieldSign::kDesign, {not_source}, {1e-6}, nullptr), std::invalid_argument);
+}
+
+
+// `noise --sweep` takes its columns from the table of quantities (quantities.hpp): after the point and
+// the swept biases come exactly the columns of the table's default groups that a bias point gives (all
+// but the pinch-off search), in the table's order; its last row's currents are those of the library's
+// bias scan at the same biases (printed to 10 significant digits).
+TEST(NoiseSweep, ColumnsAreTheQuantityTablesAndValuesTheLibrarysBiasScan) {
+  const std::string design = test::SourcePath("designs/02_two_source_collider.yaml");
+  const std::filesystem::path csv =
+      std::filesystem::temp_directory_path() / ("hallway_noise_sweep_" + std::to_string(::getpid()) + ".csv");
+  std::filesystem::remove(csv);
+  const test::CommandRun r =
+      test::RunHallway("noise '" + design + "' --fast --quiet --sweep SA,SB=0:40uV:3 --ratio 1,0.5 --csv '" +
+                       csv.string() + "'");
+  ASSERT_EQ(r.exit_code, 0) << r.output;
+  std::ifstream in(csv);
+  std::string header, line, last;
+  std::getline(in, header);
+  int rows = 0;
+  while (std::getline(in, line)) {
+    ++rows;
+    last = line;
+  }
+  std::filesystem::remove(csv);
+  DeviceOptions options;
+  options.bare_estimate = true;
+  const Device device(LoadDesign(design), options);
+  ASSERT_TRUE(device.usable());
+  const Design& d = device.design();
+  std::string expected = "point,bias_SA_V,bias_SB_V";
+  std::vector<std::string> columns{"point", "bias_SA_V", "bias_SB_V"};
+  for (const QuantityGroup& g : QuantityGroups())
+    if (g.default_on && g.needs != QuantityNeeds::kPinchOffSearch)
+      for (const std::string& c : g.columns(d)) {
+        expected += "," + c;
+        columns.push_back(c);
+      }
+  EXPECT_EQ(header, expected);
+  EXPECT_EQ(rows, 3);
+  std::vector<std::string> fields;
+  std::stringstream ss(last);
+  for (std::string f; std::getline(ss, f, ',');) fields.push_back(f);
+  fields.resize(columns.size());
+  const int sa = static_cast<int>(d.FindWiring("SA") - d.wiring.data());
+  const int sb = static_cast<int>(d.FindWiring("SB") - d.wiring.data());
+  const BiasPoint point = SolveAtBias(device, FieldSign::kDesign, {sa, sb}, {40e-6, 20e-6}, nullptr);
+  int currents = 0;
+  for (std::size_t c = 0; c < columns.size(); ++c)
+    for (std::size_t a = 0; a < d.contacts.size(); ++a)
+      if (columns[c] == "I_" + d.contacts[a].name + "_A" && point.transport.current_A[a] != 0.0) {
+        ++currents;
+        EXPECT_TRUE(NearRel(std::stod(fields[c]), point.transport.current_A[a], 1e-9)) << columns[c];
+      }
+  EXPECT_GE(currents, 2);  // the two sources at least
 }
 
 }  // namespace

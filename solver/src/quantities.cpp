@@ -2,6 +2,7 @@
 #include "hallway/quantities.hpp"
 
 #include <algorithm>
+#include <stdexcept>
 
 #include "hallway/gap.hpp"
 #include "hallway/saddle.hpp"
@@ -165,6 +166,26 @@ const QuantityGroup* FindQuantityGroup(std::string_view name) {
   for (const QuantityGroup& g : QuantityGroups())
     if (name == g.name) return &g;
   return nullptr;
+}
+
+BiasPoint SolveAtBias(const Device& device, FieldSign sign, const std::vector<int>& contacts,
+                      const std::vector<double>& biases, const NoiseOptions* noise) {
+  if (contacts.size() != biases.size()) throw std::invalid_argument("SolveAtBias: one bias per contact");
+  BiasPoint point{device.design(), {}, std::nullopt};
+  for (std::size_t i = 0; i < contacts.size(); ++i) {
+    if (contacts[i] < 0 || static_cast<std::size_t>(contacts[i]) >= point.design.wiring.size() ||
+        point.design.wiring[static_cast<std::size_t>(contacts[i])].role != Role::kSource)
+      throw std::invalid_argument("SolveAtBias: contact " + std::to_string(contacts[i]) + " is not a source");
+    point.design.wiring[static_cast<std::size_t>(contacts[i])].bias = biases[i];
+  }
+  const EdgeNetwork& edges = device.edges(sign);
+  point.transport = SolveTransport(point.design, edges);
+  if (noise) point.noise = SolveNoise(point.design, edges, point.transport, *noise);
+  return point;
+}
+
+PointResults BiasPoint::Results(const Device& device) const {
+  return {&design, &transport, noise ? &*noise : nullptr, device.density(), nullptr};
 }
 
 }  // namespace hallway

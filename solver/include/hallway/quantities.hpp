@@ -1,6 +1,7 @@
 // Output quantities as a table. Each group names its columns, says which computation it needs and
-// reads its values from the results of one operating point; `hallway sweep` builds its header and its
-// rows from this table only, so a new quantity is one row in quantities.cpp and one test.
+// reads its values from the results of one operating point; `hallway sweep` and the bias scan of
+// `hallway noise --sweep` build their header and their rows from this table only, so a new quantity is
+// one row in quantities.cpp and one test.
 #pragma once
 
 #include <optional>
@@ -9,6 +10,7 @@
 #include <vector>
 
 #include "hallway/design.hpp"
+#include "hallway/device.hpp"
 #include "hallway/electrostatics.hpp"
 #include "hallway/map.hpp"
 #include "hallway/noise.hpp"
@@ -42,5 +44,21 @@ struct QuantityGroup {
 const std::vector<QuantityGroup>& QuantityGroups();
 // The group called `name`, or null.
 const QuantityGroup* FindQuantityGroup(std::string_view name);
+
+// A bias scan on one device (`noise --sweep`, the report's figures). The source biases move neither the
+// electrostatics nor the edges (the network follows from the layout and the field, docs/models.md
+// "Edge network and Landauer–Büttiker transport"), so one device serves every point: its edges for the
+// field sign are kept and the transport and, when asked, the noise are solved again at each point.
+struct BiasPoint {
+  Design design;  // the device's design with the point's biases set
+  TransportResult transport;
+  std::optional<NoiseResult> noise;
+  // The point for the quantity table (the density is the device's; no pinch-off search).
+  PointResults Results(const Device& device) const;
+};
+// Bias biases[i] (V, or A for a current source) at source contacts[i]. std::invalid_argument when a
+// contact is not a source or the sizes differ; std::logic_error on a device that is not usable.
+BiasPoint SolveAtBias(const Device& device, FieldSign sign, const std::vector<int>& contacts,
+                      const std::vector<double>& biases, const NoiseOptions* noise);
 
 }  // namespace hallway
