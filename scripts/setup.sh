@@ -25,6 +25,7 @@ packages=(
   libgtest-dev libgmock-dev libbenchmark-dev libgsl-dev
   libfftw3-dev libcli11-dev libfmt-dev nlohmann-json3-dev libcairo2-dev
   libtbb-dev libopenmpi-dev openmpi-bin
+  pybind11-dev python3-dev python3-numpy python3-pytest
 )
 # The test suite also checks the HTML report with an HTML checker and a headless browser; the
 # sanitizer build and the fuzzers need clang and its runtime libraries.
@@ -46,7 +47,8 @@ fi
 if [ "$mode" = sanitize ]; then
   # -O1 keeps the sanitized suite fast enough; line tables give file:line in every report.
   cmake -S "$here" -B "$build_dir" -G Ninja -DCMAKE_BUILD_TYPE=None -DCMAKE_CXX_COMPILER=clang++ \
-    "-DCMAKE_CXX_FLAGS=-O1 -gline-tables-only" -DHALLWAY_BUILD_TESTS=ON -DHALLWAY_SANITIZE=ON -DHALLWAY_BUILD_FUZZ=ON
+    "-DCMAKE_CXX_FLAGS=-O1 -gline-tables-only" -DHALLWAY_BUILD_TESTS=ON -DHALLWAY_SANITIZE=ON -DHALLWAY_BUILD_FUZZ=ON \
+    -DHALLWAY_PYTHON=OFF  # an instrumented extension cannot be loaded into the uninstrumented interpreter
 else
   cmake -S "$here" -B "$build_dir" -G Ninja -DCMAKE_BUILD_TYPE=Release -DHALLWAY_BUILD_TESTS=ON
 fi
@@ -60,6 +62,14 @@ case "$mode" in
     "$build_dir/cli/hallway" noise "$here/designs/01_hallbar_qpc.yaml"
     "$build_dir/cli/hallway" report "$here/designs/01_hallbar_qpc.yaml" -o "$build_dir/demo-report"
     echo "demo report: $build_dir/demo-report/report.html"
+    # The Python module (README.md, "Python"): the collider demo's SNR against its source constrictions;
+    # a plot only when matplotlib is installed. Debian's NumPy belongs to the system interpreter.
+    if [ -d "$build_dir/python/hallway" ]; then
+      python=/usr/bin/python3; [ -x "$python" ] || python=python3
+      PYTHONPATH="$build_dir/python" "$python" "$here/python/examples/collider_sweep.py" --plot "$build_dir/demo-snr.png"
+    else
+      echo "Python module not built (HALLWAY_PYTHON=OFF): Python example skipped"
+    fi
     ;;
   test)
     ctest --test-dir "$build_dir" --output-on-failure -j "$jobs"
