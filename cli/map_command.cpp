@@ -40,7 +40,7 @@ bool ParseGrid(const std::string& text, double* grid_m) {
   return true;
 }
 
-std::string MapText(const Design& d, const MapResult& m) {
+std::string MapText(const Design& d, const MapResult& m, const CheckResult& check) {
   std::string out = fmt::format("hallway map  {}\n", d.path);
   if (!d.name.empty()) out += fmt::format("  design: {}\n", d.name);
   out +=
@@ -83,6 +83,10 @@ std::string MapText(const Design& d, const MapResult& m) {
   out +=
       "\nPinch-off and depletion voltages are estimates; approach them slowly. A gate driven past its leakage or\n"
       "breakdown onset can destroy the sample.\n";
+  if (!check.findings.empty()) {  // the design checks' warnings (errors stopped the command before)
+    out += "\nWarnings\n";
+    for (const Finding& f : check.findings) out += "  - " + f.message + " [" + f.code + "]\n";
+  }
   out += kSafetyCaution;
   return out;
 }
@@ -173,7 +177,7 @@ int RunMap(const MapArgs& args) {
   if (!RequireFiniteJson(doc, "the map results") ||
       !RequireFinite({m.map.density_per_m2, m.map.energy_over_fermi}, "the density grid"))
     return kExitInternal;
-  std::cout << MapText(d, m);
+  std::cout << MapText(d, m, check);
   try {
     if (!args.csv_path.empty()) {
       WriteFileAtomically(args.csv_path, MapCsv(d, m), {args.design_path});

@@ -34,8 +34,9 @@ namespace fs = std::filesystem;
 using units::FormatSI;
 
 const char* const kSafetyCaution =
-    "\nAll figures are model estimates. A gate voltage past the leakage or breakdown onset can destroy a\n"
-    "sample; follow your lab's own safety rules for cryostats, magnets and electronics.\n";
+    "\nCaution: these predictions are model estimates, not measurements. A gate voltage past the leakage or\n"
+    "breakdown onset can destroy a sample. Your lab's own safety rules and local regulations for cryogens,\n"
+    "magnets and high voltage come first; nothing printed here replaces them.\n";
 
 bool LoadOrReport(const std::string& path, Design* design, int* exit_code) {
   try {

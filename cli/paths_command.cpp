@@ -118,7 +118,7 @@ bool ParsePathOptions(const PathsArgs& args, std::size_t max_memory, PathOptions
 }
 
 std::string PathsText(const Design& d, const ChannelGeometry& geometry, const std::string& es_note,
-                      const EdgeNetwork& net, const PathResult& r, const PathOptions& po) {
+                      const EdgeNetwork& net, const PathResult& r, const PathOptions& po, const CheckResult& check) {
   const double kt = constants::kBoltzmann_J_per_K * d.conditions.temperature_K;
 
   std::string out = fmt::format("hallway paths  {}\n", d.path);
@@ -195,6 +195,7 @@ std::string PathsText(const Design& d, const ChannelGeometry& geometry, const st
     }
   }
   std::vector<std::string> warnings;
+  for (const Finding& f : check.findings) warnings.push_back(f.message);  // the design checks' warnings
   for (const Finding& f : r.findings) warnings.push_back(f.message);
   if (!warnings.empty()) {
     out += "\nWarnings\n";
@@ -220,7 +221,7 @@ int RunPaths(const PathsArgs& args) {
   PathOptions po;
   if (!ParsePathOptions(args, max_memory, &po)) return kExitUsage;
   const PathResult r = device->paths(po);
-  std::string out = PathsText(d, geometry, es_note, net, r, po);
+  std::string out = PathsText(d, geometry, es_note, net, r, po, device->check());
   std::vector<std::string> warnings;
   for (const Finding& f : r.findings) warnings.push_back(f.message);
   out += kSafetyCaution;

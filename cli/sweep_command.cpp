@@ -16,6 +16,7 @@
 #include <unistd.h>
 
 #include <algorithm>
+#include <array>
 #include <atomic>
 #include <chrono>
 #include <cmath>
@@ -470,6 +471,7 @@ struct SweepPlan {
   std::set<std::string> q;
   std::vector<Point> points;
   std::string header;
+  std::string warnings;  // printed before the run: the design checks' and the swept gate voltages'
 
   std::string TextOf(const Point& p, const std::string& path) const {
     std::string t = text;
@@ -537,6 +539,47 @@ std::vector<Point> list_points(const std::vector<Axis>& axes, bool zip) {
   }
 }
 
+// What to say before the run: every gate whose voltage over the sweep leaves the design's gate-voltage
+// window (GateLimitProblem, check.hpp), with the gate, the swept range and the limit; then the design's
+// own check warnings, less those about a swept gate's fixed voltage (the sweep replaces it). The values
+// vary linearly, so the ends of each range are its extremes; the window is the narrowest any end of any
+// range gives (a swept limit), so a grid is judged at its worst combination.
+std::string sweep_warnings(const SweepPlan& plan, const std::vector<std::array<Design, 2>>& ends) {
+  Design strict = plan.base;  // the base design under the narrowest window of the sweep
+  for (const auto& pair : ends)
+    for (const Design& e : pair) {
+      strict.conditions.gate_voltage_min_V =
+          std::max(strict.conditions.gate_voltage_min_V, e.conditions.gate_voltage_min_V);
+      strict.conditions.gate_voltage_max_V =
+          std::min(strict.conditions.gate_voltage_max_V, e.conditions.gate_voltage_max_V);
+    }
+  std::string out;
+  std::set<std::string> swept;  // key paths of the swept gates' `voltage:`
+  for (std::size_t g = 0; g < plan.base.gates.size(); ++g) {
+    const Gate& base = plan.base.gates[g];
+    std::string line;
+    for (std::size_t a = 0; a < plan.axes.size() && line.empty(); ++a) {
+      const double first = ends[a][0].gates[g].voltage_V, last = ends[a][1].gates[g].voltage_V;
+      if (first == base.voltage_V && last == base.voltage_V) continue;
+      swept.insert(base.voltage_where.key_path);
+      for (const double v : {first, last})
+        if (const auto why = GateLimitProblem(strict, v); why && line.empty())
+          line = "gate " + base.name + " is swept from " + units::FormatSI(first, "V") + " to " +
+                 units::FormatSI(last, "V") + " (--vary " + plan.axes[a].key + "); at " + units::FormatSI(v, "V") +
+                 " it " + *why;
+    }
+    if (!swept.count(base.voltage_where.key_path) && !GateLimitProblem(plan.base, base.voltage_V))
+      if (const auto why = GateLimitProblem(strict, base.voltage_V))  // inside the design's window, not the swept one
+        line =
+            "gate " + base.name + " at " + units::FormatSI(base.voltage_V, "V") + " (under the swept limits) " + *why;
+    if (!line.empty()) out += "  - " + line + " [gate-voltage-limit]\n";
+  }
+  for (const Finding& f : CheckDesign(plan.base).findings)
+    if (f.severity == Severity::kWarning && !(f.code == "gate-voltage-limit" && swept.count(f.where.key_path)))
+      out += "  - " + f.message + " [" + f.code + "]\n";
+  return out.empty() ? out : "\nWarnings\n" + out;
+}
+
 // Everything before any work: options, the design, axes, quantities, points, and both ends of every
 // range loaded. Every rank runs it on the same input and reaches the same verdict.
 int plan_sweep(const SweepArgs& args, int rank, SweepPlan* plan) {
@@ -563,16 +606,21 @@ int plan_sweep(const SweepArgs& args, int rank, SweepPlan* plan) {
   }
   // Every key and both ends of every range must load before any work starts; the values are changed
   // in place, so a message cites the line of the user's file.
+  std::vector<std::array<Design, 2>> ends;  // per axis, the design at its first and last value
   try {
-    for (const Axis& a : plan->axes)
-      for (std::size_t end : {std::size_t{0}, a.values.size() - 1}) {
-        const std::string t = SetDesignValue(plan->text, args.design_path, a.key, a.values[end]);
-        LoadDesignFromString(t, args.design_path + " with " + a.key + " = " + a.values[end]);
+    for (const Axis& a : plan->axes) {
+      ends.emplace_back();
+      for (std::size_t k = 0; k < 2; ++k) {  // the first value, then the last (the same for N = 1)
+        const std::string& value = a.values[k == 0 ? 0 : a.values.size() - 1];
+        const std::string t = SetDesignValue(plan->text, args.design_path, a.key, value);
+        ends.back()[k] = LoadDesignFromString(t, args.design_path + " with " + a.key + " = " + value);
       }
+    }
   } catch (const DesignError& e) {
     if (rank == 0) std::cerr << "hallway: design error: " << e.what() << "\n";
     return kExitDesignError;
   }
+  plan->warnings = sweep_warnings(*plan, ends);
   plan->header = "point";
   for (const Axis& a : plan->axes) plan->header += "," + a.key;
   plan->header += quantities_header(plan->base, plan->q) + "\n";
@@ -782,6 +830,8 @@ int RunSweep(const SweepArgs& args, int argc, char** argv) {
   if (mpi.rank == 0)
     verdict = prepare_output(args, plan.header, plan.axes, plan.points, record, &output_lock, &kept, &out);
   if (const int code = mpi.Share(verdict); code != kExitOk) return code;
+  if (mpi.rank == 0)
+    std::cout << "hallway sweep  " << args.design_path << "\n" << plan.warnings << kSafetyCaution << "\n" << std::flush;
 
   std::map<std::size_t, std::string> rows;
   std::size_t kept_points = 0;

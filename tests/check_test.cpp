@@ -5,6 +5,7 @@
 #include <gtest/gtest.h>
 
 #include <algorithm>
+#include <cmath>
 
 #include "hallway/design_loader.hpp"
 #include "test_support.hpp"
@@ -114,13 +115,63 @@ TEST(Check, ConstrictionBetweenAGateAndTheMesaEdge) {
   EXPECT_NE(find(r, "constriction-wide"), nullptr);
 }
 
+// Above the default forward-bias limit, +0.5 V (design.hpp; common practice for Schottky gates on GaAs).
 TEST(Check, ForwardBiasedGateWarns) {
   const CheckResult r =
       check(replace(kBase, "voltage: -0.9 V, outline: [[10,14]", "voltage: 0.7 V, outline: [[10,14]"));
-  const Finding* f = find(r, "gate-forward-bias");
+  const Finding* f = find(r, "gate-voltage-limit");
   ASSERT_NE(f, nullptr);
   EXPECT_EQ(f->severity, Severity::kWarning);
+  EXPECT_NE(f->message.find("gate QR at 700 mV"), std::string::npos) << f->message;
+  EXPECT_NE(f->message.find("forward-bias limit 500 mV"), std::string::npos) << f->message;
+  EXPECT_EQ(f->where.key_path, "gates[1].voltage");
   EXPECT_NE(find(r, "constriction-gates-weak"), nullptr);
+}
+
+// A gate at -8 V passed the checks silently; the default limit is -2 V (design.hpp; common practice for
+// surface Schottky gates on GaAs). The warning names the gate, its voltage, the limit and where the voltage
+// was written (line 17, column 25 of the base design: the value after `voltage: `).
+TEST(Check, GateBeyondTheNegativeLimitWarnsAtItsVoltage) {
+  const CheckResult r =
+      check(replace(kBase, "voltage: -0.9 V, outline: [[10,-14]", "voltage: -8 V, outline: [[10,-14]"));
+  EXPECT_TRUE(r.ok());  // a warning, not an error
+  const Finding* f = find(r, "gate-voltage-limit");
+  ASSERT_NE(f, nullptr);
+  EXPECT_EQ(f->severity, Severity::kWarning);
+  for (const char* w : {"gate QL at -8 V", "gate-voltage limit -2 V", "conditions.gate_voltage_min",
+                        "common practice for surface Schottky gates on GaAs", "destroy the sample", "line 17"})
+    EXPECT_NE(f->message.find(w), std::string::npos) << w << " missing from " << f->message;
+  EXPECT_EQ(f->where.file, "t.yaml");
+  EXPECT_EQ(f->where.line, 17);
+  EXPECT_EQ(f->where.column, 25);
+  EXPECT_EQ(f->where.key_path, "gates[0].voltage");
+  EXPECT_EQ(std::count_if(r.findings.begin(), r.findings.end(),
+                          [](const Finding& x) { return x.code == "gate-voltage-limit"; }),
+            1);  // QR at -0.9 V is inside the window
+}
+
+// The lab's own limit replaces the default, both ways: -1.5 V warns under a -1 V limit, -1.9 V passes the
+// default and -3 V passes a -5 V limit; the limit is the inequality, so the limit itself passes.
+TEST(Check, TheDesignsOwnGateLimitIsTheOneApplied) {
+  auto with = [](const std::string& voltage, const std::string& limits) {
+    return check(
+        replace(replace(kBase, "voltage: -0.9 V, outline: [[10,-14]", "voltage: " + voltage + ", outline: [[10,-14]"),
+                "filling: 2", "filling: 2" + limits));
+  };
+  const CheckResult own = with("-1.5 V", "\n  gate_voltage_min: -1 V");
+  ASSERT_NE(find(own, "gate-voltage-limit"), nullptr);
+  EXPECT_NE(find(own, "gate-voltage-limit")->message.find("limit -1 V"), std::string::npos);
+  EXPECT_EQ(find(with("-1.9 V", ""), "gate-voltage-limit"), nullptr);
+  EXPECT_EQ(find(with("-2 V", ""), "gate-voltage-limit"), nullptr);
+  EXPECT_EQ(find(with("-3 V", "\n  gate_voltage_min: -5 V"), "gate-voltage-limit"), nullptr);
+  const CheckResult forward = with("0.4 V", "\n  gate_voltage_max: 0.3 V");
+  ASSERT_NE(find(forward, "gate-voltage-limit"), nullptr);
+  EXPECT_NE(find(forward, "gate-voltage-limit")->message.find("forward-bias limit 300 mV"), std::string::npos);
+  const Design d = LoadDesignFromString(kBase, "t.yaml");
+  EXPECT_FALSE(GateLimitProblem(d, kDefaultGateVoltageMin_V));
+  EXPECT_TRUE(GateLimitProblem(d, std::nextafter(kDefaultGateVoltageMin_V, -10.0)));
+  EXPECT_FALSE(GateLimitProblem(d, kDefaultGateVoltageMax_V));
+  EXPECT_TRUE(GateLimitProblem(d, std::nextafter(kDefaultGateVoltageMax_V, 10.0)));
 }
 
 TEST(Check, HighBiasWarnsOfBreakdown) {

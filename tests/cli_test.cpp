@@ -31,6 +31,11 @@ std::string read(const fs::path& p) {
   return s.str();
 }
 
+// "  gate_voltage_min: <v> V\n", the design line of a lab's own gate limit.
+std::string fmt_limit(double volts) {
+  return "  gate_voltage_min: " + std::to_string(volts) + " V\n";
+}
+
 fs::path scratch(const std::string& name) {
   const fs::path dir = fs::temp_directory_path() / ("hallway_cli_test_" + std::to_string(::getpid()));
   fs::create_directories(dir);
@@ -335,6 +340,103 @@ TEST(Sweep, PinchOffColumnAgreesWithTheMapCommand) {
                                   "--quantities pinchoff --fast --output '" + scratch("never.csv").string() + "'");
   EXPECT_EQ(fast.exit_code, 2) << fast.output;
   EXPECT_NE(fast.output.find("cannot be combined with --fast"), std::string::npos) << fast.output;
+}
+
+// A gate beyond the gate-voltage window (default -2 V, design.hpp: common practice for surface Schottky
+// gates on GaAs) passed every command silently. Now each command that shows the design's findings names
+// the gate, its voltage, the limit and the line of its `voltage:`, and ends with the caution.
+TEST(Cautions, EveryCommandWarnsOfAGateBeyondTheLimit) {
+  const std::string demo = read(test::SourcePath("designs/01_hallbar_qpc.yaml"));
+  const std::string from = "{name: QS, voltage: -0.8 V,";
+  ASSERT_NE(demo.find(from), std::string::npos);
+  std::string text = demo;
+  text.replace(text.find(from), from.size(), "{name: QS, voltage: -8 V,");
+  text.insert(text.find("  filling: 2\n") + 13, "  gate_voltage_min: -2 V\n");  // the default, written out to sweep it
+  const fs::path design = scratch("gate_limit.yaml");
+  {
+    std::ofstream o(design);
+    o << text;
+  }
+  const std::string line = std::to_string(std::count(text.begin(), text.begin() + text.find("name: QS"), '\n') + 1);
+  const std::string d = "'" + design.string() + "'";
+  const fs::path report_dir = scratch("gate_limit_report");
+  fs::remove_all(report_dir);
+  for (const std::string& cmd : {"check " + d, "solve " + d + " --fast", "noise " + d + " --fast",
+                                 "paths " + d + " --fast", "map " + d + " --quiet --grid 200nm"}) {
+    const CommandRun r = hallway(cmd);
+    EXPECT_EQ(r.exit_code, 0) << cmd << "\n" << r.output;
+    EXPECT_NE(r.output.find("gate QS at -8 V (gates[0].voltage, line " + line + ")"), std::string::npos) << cmd << "\n"
+                                                                                                         << r.output;
+    EXPECT_NE(r.output.find("gate-voltage limit -2 V"), std::string::npos) << cmd << "\n" << r.output;
+    EXPECT_NE(r.output.find("model estimates"), std::string::npos) << cmd << ": caution missing";
+    EXPECT_NE(r.output.find("local regulations for cryogens"), std::string::npos) << cmd << ": caution missing";
+  }
+  const CommandRun report = hallway("report " + d + " --fast -o '" + report_dir.string() + "'");
+  ASSERT_EQ(report.exit_code, 0) << report.output;
+  EXPECT_NE(read(report_dir / "report.html").find("gate QS at -8 V"), std::string::npos);
+  // The sweep warns before it runs: the fixed gate from the checks, and the swept gate's range beyond the limit.
+  const fs::path csv = scratch("gate_limit_sweep.csv");
+  const CommandRun sweep =
+      hallway("sweep " + d + " --vary gates.QN.voltage=-1.5V:-3V:2 --fast --quiet --output '" + csv.string() + "'");
+  ASSERT_EQ(sweep.exit_code, 0) << sweep.output;
+  EXPECT_NE(sweep.output.find("gate QS at -8 V (gates[0].voltage, line " + line + ")"), std::string::npos)
+      << sweep.output;
+  EXPECT_NE(sweep.output.find("gate QN is swept from -1.5 V to -3 V (--vary gates.QN.voltage); at -3 V it is below the "
+                              "gate-voltage limit -2 V"),
+            std::string::npos)
+      << sweep.output;
+  EXPECT_LT(sweep.output.find("gate QN is swept"), sweep.output.find("points (0 kept from before)"))
+      << "warned before the run";
+  EXPECT_NE(sweep.output.find("model estimates"), std::string::npos) << "sweep caution missing";
+  // Within the window nothing is said, and the lab's own limit replaces the default.
+  const CommandRun quiet =
+      hallway("sweep " + d + " --vary gates.QS.voltage=-0.5V:-1V:2 --fast --quiet --output '" + csv.string() + "'");
+  ASSERT_EQ(quiet.exit_code, 0) << quiet.output;
+  EXPECT_EQ(quiet.output.find("gate-voltage-limit"), std::string::npos) << quiet.output;
+  EXPECT_NE(quiet.output.find("model estimates"), std::string::npos) << quiet.output;
+  const CommandRun own = hallway("sweep " + d +
+                                 " --vary gates.QS.voltage=-0.5V:-1V:2 --vary conditions.gate_voltage_min=-2V:-0.8V:2 "
+                                 "--zip --fast --quiet --output '" +
+                                 csv.string() + "'");
+  ASSERT_EQ(own.exit_code, 0) << own.output;
+  EXPECT_NE(own.output.find("gate QS is swept from -500 mV to -1 V"), std::string::npos) << own.output;
+}
+
+// `paths` suggests no gate voltage beyond the design's own limit (one definition: conditions.gate_voltage_min),
+// unless --gate-limit overrides it. The voltage the model needs is read from the run itself; limits just
+// above and just below it must give and withhold the warning.
+TEST(Cautions, PathsTakesItsSuggestionLimitFromTheDesign) {
+  const std::string demo = read(test::SourcePath("designs/01_hallbar_qpc.yaml"));
+  const fs::path json_path = scratch("paths_limit.json");
+  ASSERT_EQ(hallway("paths '" + test::SourcePath("designs/01_hallbar_qpc.yaml") + "' --fast --json '" +
+                    json_path.string() + "'")
+                .exit_code,
+            0);
+  const auto j = nlohmann::json::parse(read(json_path));
+  double needed = 0.0;  // the most negative voltage any channel needs
+  for (const auto& v : j["constriction_models"][0]["voltage_for_design_transmission_V"])
+    if (v.is_number()) needed = std::min(needed, v.get<double>());
+  ASSERT_LT(needed, -0.1);
+  ASSERT_GT(needed, -1.9);  // inside the default window, so the default gives no warning
+  std::string text = demo;
+  const std::string at = "  filling: 2\n";
+  ASSERT_NE(text.find(at), std::string::npos);
+  text.insert(text.find(at) + at.size(), fmt_limit(needed + 0.05));
+  const fs::path design = scratch("paths_limit.yaml");
+  {
+    std::ofstream o(design);
+    o << text;
+  }
+  const CommandRun own = hallway("paths '" + design.string() + "' --fast");
+  ASSERT_EQ(own.exit_code, 0) << own.output;
+  EXPECT_NE(own.output.find("(conditions.gate_voltage_min): a gate driven past leakage"), std::string::npos)
+      << own.output;
+  const CommandRun cli =
+      hallway("paths '" + design.string() + "' --fast --gate-limit '" + std::to_string(needed - 0.05) + " V'");
+  ASSERT_EQ(cli.exit_code, 0) << cli.output;
+  EXPECT_EQ(cli.output.find("beyond the gate-voltage limit"), std::string::npos) << cli.output;
+  const CommandRun plain = hallway("paths '" + test::SourcePath("designs/01_hallbar_qpc.yaml") + "' --fast");
+  EXPECT_EQ(plain.output.find("beyond the gate-voltage limit"), std::string::npos) << plain.output;
 }
 
 TEST(Sweep, BadKeysRangesAndUnitsFailBeforeAnyWork) {

@@ -1,7 +1,10 @@
 // Design loader: what a valid file yields in SI, and that every error names file, line, column and key.
 #include <gtest/gtest.h>
 
+#include <algorithm>
 #include <string>
+#include <utility>
+#include <vector>
 
 #include "hallway/design_loader.hpp"
 #include "test_support.hpp"
@@ -189,8 +192,89 @@ TEST(Loader, YamlSyntaxErrorHasLineAndColumn) {
   ExpectError(replace(kBase, "  depth: 95 nm", "  depth: [95 nm"), 0, "", {"YAML syntax"});
 }
 
-TEST(Loader, TabIndentationIsASyntaxError) {
-  ExpectError(replace(kBase, "  depth: 95 nm", "\tdepth: 95 nm"), 0, "", {"YAML syntax"});
+// YAML forbids tabs in indentation (YAML 1.2, section 6.1); yaml-cpp calls it "illegal map value" or the
+// like, so the loader names the tab itself: line 5 of the base design, column 1 (or 3 after two spaces).
+TEST(Loader, TabIndentationIsNamedWithLineAndColumn) {
+  for (const auto& [indent, column] : std::vector<std::pair<std::string, int>>{{"\t", 1}, {"  \t", 3}}) {
+    const std::string text = replace(kBase, "  depth: 95 nm", indent + "depth: 95 nm");
+    ExpectError(text, 5, "", {"tab", "indentation", "spaces"});
+    try {
+      LoadDesignFromString(text, "t.yaml");
+    } catch (const DesignError& e) {
+      EXPECT_EQ(e.where().column, column) << e.what();
+      EXPECT_EQ(std::string(e.what()).find("illegal map value"), std::string::npos) << e.what();
+    }
+  }
+  // A tab that separates a key from its value is not indentation: the design loads.
+  EXPECT_NO_THROW(LoadDesignFromString(replace(kBase, "  depth: 95 nm", "  depth:\t95 nm"), "t.yaml"));
+}
+
+// A bow-tie has zero signed area; it is reported as self-intersecting, naming the two edges that cross by
+// their points as written (counted from 0) and the crossing point, never as "zero area".
+TEST(Loader, BowTieOutlineNamesTheCrossingEdges) {
+  const std::string text = replace(kBase, "outline: [[-60,-10],[60,-10],[60,10],[-60,10]]",
+                                   "outline: [[-60,-10],[60,10],[60,-10],[-60,10]]");
+  ExpectError(text, 12, "mesa.outline",
+              {"self-intersecting", "point [0] (-60, -10)", "point [1] (60, 10)", "point [2] (60, -10)",
+               "point [3] (-60, 10)", "at (0, 0) um"});
+  try {
+    LoadDesignFromString(text, "t.yaml");
+  } catch (const DesignError& e) {
+    EXPECT_EQ(std::string(e.what()).find("zero area"), std::string::npos) << e.what();
+  }
+  // All points on one line is still zero area.
+  ExpectError(replace(kBase, "outline: [[-60,-10],[60,-10],[60,10],[-60,10]]", "outline: [[-60,0],[0,0],[60,0]]"), 12,
+              "mesa.outline", {"zero area"});
+}
+
+// Writing the first point again at the end is a common way to close a ring (common practice): the repeat is
+// left out with a note naming where it was written; the outline is the same as without it.
+TEST(Loader, ClosingPointThatRepeatsTheFirstIsDroppedWithANote) {
+  const std::string text = replace(kBase, "outline: [[-60,-10],[60,-10],[60,10],[-60,10]]",
+                                   "outline: [[-60,-10],[60,-10],[60,10],[-60,10],[-60,-10]]");
+  const Design d = LoadDesignFromString(text, "t.yaml");
+  const Design base = LoadDesignFromString(kBase, "t.yaml");
+  ASSERT_EQ(d.mesa.outline.vertices.size(), 4u);
+  EXPECT_DOUBLE_EQ(geometry::area(d.mesa.outline), geometry::area(base.mesa.outline));
+  const auto note = std::find_if(d.notes.begin(), d.notes.end(),
+                                 [](const std::string& n) { return n.find("repeats the first") != std::string::npos; });
+  ASSERT_NE(note, d.notes.end());
+  EXPECT_NE(note->find("mesa.outline"), std::string::npos) << *note;
+  EXPECT_NE(note->find("line 12"), std::string::npos) << *note;
+  // A repeated point anywhere else is still an error.
+  ExpectError(replace(kBase, "outline: [[-60,-10],[60,-10],[60,10],[-60,10]]",
+                      "outline: [[-60,-10],[60,-10],[60,-10],[60,10],[-60,10]]"),
+              12, "mesa.outline", {"coincide"});
+}
+
+// The format reference allows the space between number and unit to be left out; both read the same.
+TEST(Loader, QuantityWithoutASpaceReadsTheSame) {
+  const Design d = LoadDesignFromString(replace(kBase, "depth: 95 nm", "depth: 95nm"), "t.yaml");
+  EXPECT_DOUBLE_EQ(d.heterostructure.depth_m, LoadDesignFromString(kBase, "t.yaml").heterostructure.depth_m);
+  const Design g = LoadDesignFromString(
+      replace(kBase, "voltage: -0.9 V, outline: [[10,-14]", "voltage: -0.9V, outline: [[10,-14]"), "t.yaml");
+  EXPECT_DOUBLE_EQ(g.gates[0].voltage_V, -0.9);
+}
+
+// The gate-voltage window: defaults from design.hpp, the lab's own values, their ranges, and where each
+// gate's voltage was written.
+TEST(Loader, GateVoltageWindowAndWhereEachVoltageIsWritten) {
+  const Design d = LoadDesignFromString(kBase, "t.yaml");
+  EXPECT_EQ(d.conditions.gate_voltage_min_V, kDefaultGateVoltageMin_V);
+  EXPECT_EQ(d.conditions.gate_voltage_max_V, kDefaultGateVoltageMax_V);
+  EXPECT_EQ(d.gates[0].voltage_where.line, 17);
+  EXPECT_EQ(d.gates[0].voltage_where.key_path, "gates[0].voltage");
+  EXPECT_EQ(d.gates[1].voltage_where.line, 18);
+  const Design own = LoadDesignFromString(
+      replace(kBase, "filling: 2", "filling: 2\n  gate_voltage_min: -1.5 V\n  gate_voltage_max: 300 mV"), "t.yaml");
+  EXPECT_DOUBLE_EQ(own.conditions.gate_voltage_min_V, -1.5);
+  EXPECT_DOUBLE_EQ(own.conditions.gate_voltage_max_V, 0.3);
+  ExpectError(replace(kBase, "filling: 2", "filling: 2\n  gate_voltage_min: 1 V"), 11, "conditions.gate_voltage_min",
+              {"between", "-20 V", "0 V"});
+  ExpectError(replace(kBase, "filling: 2", "filling: 2\n  gate_voltage_max: -0.2 V"), 11, "conditions.gate_voltage_max",
+              {"between"});
+  ExpectError(replace(kBase, "filling: 2", "filling: 2\n  gate_voltage_min: -2"), 11, "conditions.gate_voltage_min",
+              {"needs a unit"});
 }
 
 TEST(Loader, DeepNestingIsRefusedBeforeParsing) {

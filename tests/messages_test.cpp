@@ -5,9 +5,11 @@
 #include <fstream>
 #include <sstream>
 #include <string>
+#include <tuple>
 #include <vector>
 
 #include "hallway/design_loader.hpp"
+#include "hallway/units.hpp"
 #include "test_support.hpp"
 
 namespace hallway {
@@ -86,6 +88,56 @@ TEST(Advice, NeverSuggestsAnOptionAlreadyGiven) {
   const test::CommandRun slow = test::RunHallway("solve '" + design + "' --max-memory 1MiB");
   EXPECT_EQ(slow.exit_code, 5) << slow.output;
   EXPECT_NE(slow.output.find("Use --fast"), std::string::npos) << slow.output;
+}
+
+// A unit typo in any key of the design gets the nearest known unit, with file, line, column and key. One
+// case per unit family the format uses (docs/design-format.md); the typos are common ones (common
+// practice: a letter in the wrong case, a letter added). Line numbers are those of test::kBase.
+TEST(UnitTypos, EveryUnitFamilyOfTheFormatGetsASuggestion) {
+  struct Case {
+    const char* from;
+    const char* to;
+    int line;
+    const char* key;
+    const char* meant;
+  };
+  const Case cases[] = {
+      {"depth: 95 nm", "depth: 95 NM", 5, "heterostructure.depth", "nm"},               // length
+      {"2.3e11 cm^-2", "2.3e11 CM^-2", 6, "heterostructure.density", "cm"},             // sheet density
+      {"2.5e6 cm^2/Vs", "2.5e6 cm^2/vs", 7, "heterostructure.mobility", "Vs"},          // mobility
+      {"temperature: 15 mK", "temperature: 15 mk", 9, "conditions.temperature", "mK"},  // temperature
+      {"filling: 2", "field: 4.75 t", 10, "conditions.field", "T"},                     // field
+      {"voltage: -0.9 V, outline: [[10,-14]", "voltage: -0.3 mv, outline: [[10,-14]", 17, "gates[0].voltage", "mV"},
+      {"W: source 10 uV", "W: source 2 na", 24, "wiring.W", "nA"},                          // current
+      {"load: 10 kOhm", "load: 10 KOhm", 27, "amplifier.load", "kOhm"},                     // resistance
+      {"0.25 nV/rtHz", "0.25 nv/rtHz", 28, "amplifier.voltage_noise", "nV"},                // voltage noise
+      {"5 fA/rtHz", "5 fa/rtHz", 29, "amplifier.current_noise", "fA"},                      // current noise
+      {"bandwidth: 200 kHz", "bandwidth: 200 khz", 30, "amplifier.bandwidth", "kHz"},       // frequency
+      {"integration: 20 min", "integration: 20 mins", 31, "amplifier.integration", "min"},  // time
+  };
+  for (const Case& c : cases) {
+    try {
+      LoadDesignFromString(test::replace(test::kBase, c.from, c.to), "t.yaml");
+      ADD_FAILURE() << c.to << ": no error";
+    } catch (const DesignError& e) {
+      const std::string msg = e.what();
+      EXPECT_EQ(e.where().line, c.line) << msg;
+      EXPECT_GT(e.where().column, 0) << msg;
+      EXPECT_EQ(e.where().key_path, c.key) << msg;
+      EXPECT_EQ(msg.rfind("t.yaml:" + std::to_string(c.line) + ":", 0), 0u) << msg;
+      EXPECT_NE(msg.find(std::string("did you mean '") + c.meant + "'"), std::string::npos) << msg;
+    }
+  }
+  // The two families no design key uses yet, through the parser itself.
+  for (const auto& [text, kind, meant] :
+       {std::tuple{"10 uev", units::Kind::kEnergy, "ueV"}, std::tuple{"2 fFF", units::Kind::kCapacitance, "fF"}}) {
+    try {
+      units::Parse(text, kind);
+      ADD_FAILURE() << text << ": no error";
+    } catch (const units::UnitError& e) {
+      EXPECT_NE(std::string(e.what()).find(std::string("did you mean '") + meant + "'"), std::string::npos) << e.what();
+    }
+  }
 }
 
 }  // namespace

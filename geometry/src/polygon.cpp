@@ -4,6 +4,8 @@
 #include <algorithm>
 #include <cmath>
 #include <limits>
+#include <optional>
+#include <tuple>
 
 #include "hallway/geometry/exact.hpp"
 
@@ -224,9 +226,59 @@ PolygonDefect find_defect(const Polygon& p) {
     const Point& b = v[(k + 1) % v.size()];
     if (a.x == b.x && a.y == b.y) return PolygonDefect::kRepeatedVertex;
   }
-  if (signed_area(p) == 0.0) return PolygonDefect::kZeroArea;
+  if (signed_area(p) == 0.0) {
+    // A simple ring has positive area, so a ring of zero area is either flat (every vertex on the line
+    // through the first two distinct ones) or crosses itself (a bow-tie, whose two lobes cancel).
+    for (const Point& q : v)
+      if (cross(v[0], v[1], q) != 0.0) return PolygonDefect::kSelfIntersecting;
+    return PolygonDefect::kZeroArea;
+  }
   if (!is_simple(p)) return PolygonDefect::kSelfIntersecting;
   return PolygonDefect::kNone;
+}
+
+namespace {
+
+bool on_segment(Point a, Point b, Point q) {
+  return cross(a, b, q) == 0.0 && std::min(a.x, b.x) <= q.x && q.x <= std::max(a.x, b.x) && std::min(a.y, b.y) <= q.y &&
+         q.y <= std::max(a.y, b.y);
+}
+
+// A point shared by the closed segments [a, b] and [c, d], if any (proper crossings, touching ends,
+// collinear overlaps).
+std::optional<Point> segments_meet(Point a, Point b, Point c, Point d) {
+  if (segments_cross(a, b, c, d)) {
+    const double t = cross(c, d, a) / (cross(c, d, a) - cross(c, d, b));
+    return Point{a.x + t * (b.x - a.x), a.y + t * (b.y - a.y)};
+  }
+  for (const auto& [s0, s1, q] : {std::tuple{c, d, a}, std::tuple{c, d, b}, std::tuple{a, b, c}, std::tuple{a, b, d}})
+    if (on_segment(s0, s1, q)) return q;
+  return std::nullopt;
+}
+
+}  // namespace
+
+std::optional<EdgeCrossing> find_crossing_edges(const Polygon& p, std::size_t max_vertices) {
+  const auto& v = p.vertices;
+  const std::size_t n = v.size();
+  if (n < 3 || n > max_vertices) return std::nullopt;
+  for (std::size_t i = 0; i < n; ++i) {
+    const Point a = v[i], b = v[(i + 1) % n];
+    for (std::size_t j = i + 1; j < n; ++j) {
+      const Point c = v[j], d = v[(j + 1) % n];
+      const bool next = j == i + 1, wraps = i == 0 && j == n - 1;
+      if (next || wraps) {
+        // Neighbours share one vertex; they meet wrongly only when they fold back over each other.
+        const Point shared = next ? b : a, far_i = next ? a : b, far_j = next ? d : c;
+        if (cross(far_i, shared, far_j) == 0.0 &&
+            (far_j.x - shared.x) * (far_i.x - shared.x) + (far_j.y - shared.y) * (far_i.y - shared.y) > 0.0)
+          return EdgeCrossing{i, j, on_segment(shared, far_i, far_j) ? far_j : far_i};
+        continue;
+      }
+      if (const auto at = segments_meet(a, b, c, d)) return EdgeCrossing{i, j, *at};
+    }
+  }
+  return std::nullopt;
 }
 
 }  // namespace hallway::geometry

@@ -25,7 +25,6 @@ bool CheckOptions::IsValid(std::string* why) const {
     if (why) *why = what;
     return false;
   };
-  if (!(forward_bias_warning_V >= 0.0)) return bad("forward_bias_warning_V must be >= 0");
   if (!(wide_gap_in_depths > 0.0)) return bad("wide_gap_in_depths must be > 0");
   if (!(bias_fraction_of_cyclotron_gap > 0.0)) return bad("bias_fraction_of_cyclotron_gap must be > 0");
   return true;
@@ -192,10 +191,30 @@ void check_contacts(Checking& ctx) {
   }
 }
 
+}  // namespace
+
+std::optional<std::string> GateLimitProblem(const Design& d, double voltage_V) {
+  const Conditions& c = d.conditions;
+  const std::string tail =
+      ": a gate driven past its leakage or breakdown onset can destroy the sample; give your lab's own limit in "
+      "the design";
+  if (voltage_V < c.gate_voltage_min_V)
+    return "is below the gate-voltage limit " + units::FormatSI(c.gate_voltage_min_V, "V") +
+           " (conditions.gate_voltage_min; default " + units::FormatSI(kDefaultGateVoltageMin_V, "V") +
+           ", common practice for surface Schottky gates on GaAs)" + tail;
+  if (voltage_V > c.gate_voltage_max_V)
+    return "is above the forward-bias limit " + units::FormatSI(c.gate_voltage_max_V, "V") +
+           " (conditions.gate_voltage_max; default " + units::FormatSI(kDefaultGateVoltageMax_V, "V") +
+           ": a forward-biased Schottky gate on GaAs leaks into the 2DEG above a few hundred mV, common practice)" +
+           tail;
+  return std::nullopt;
+}
+
+namespace {
+
 // Gates: shorts to each other or to ohmic contacts, position, voltage.
 void check_gates(Checking& ctx) {
   const Design& d = ctx.d;
-  const CheckOptions& opt = ctx.opt;
   const Polygon& mesa = d.mesa.outline;
   for (std::size_t i = 0; i < d.gates.size(); ++i) {
     const Gate& g = d.gates[i];
@@ -219,13 +238,11 @@ void check_gates(Checking& ctx) {
     if (geometry::intersection_area(g.outline, mesa) <= 0.0)
       ctx.add(Severity::kWarning, "gate-off-mesa",
               "gate " + g.name + " does not cover any of the mesa and has no effect", g.where);
-    if (g.voltage_V > opt.forward_bias_warning_V)
-      ctx.add(
-          Severity::kWarning, "gate-forward-bias",
-          "gate " + g.name + " at " + units::FormatSI(g.voltage_V, "V") +
-              " is forward biased: a Schottky gate starts to conduct into the 2DEG from about +0.5 V (common practice) "
-              "and can be damaged",
-          g.where);
+    if (auto why = GateLimitProblem(d, g.voltage_V))
+      ctx.add(Severity::kWarning, "gate-voltage-limit",
+              "gate " + g.name + " at " + units::FormatSI(g.voltage_V, "V") + " (" + g.voltage_where.key_path +
+                  ", line " + std::to_string(g.voltage_where.line) + ") " + *why,
+              g.voltage_where);
   }
 }
 

@@ -115,9 +115,28 @@ std::string name_problem(const std::string& s) {
   return "";
 }
 
+// Where two edges of an outline meet that should not, with the points as the user wrote them (0-based
+// indices, coordinates in `unit_name`); "" when the ring is too large to search (find_crossing_edges).
+std::string crossing_text(const geometry::Polygon& p, double unit_m, const std::string& unit_name) {
+  const auto x = geometry::find_crossing_edges(p);
+  if (!x) return "";
+  const std::size_t n = p.vertices.size();
+  auto pt = [&](std::size_t k) {
+    char b[96];
+    std::snprintf(b, sizeof b, "[%zu] (%.6g, %.6g)", k, p.vertices[k].x / unit_m, p.vertices[k].y / unit_m);
+    return std::string(b);
+  };
+  auto edge = [&](std::size_t e) { return "the edge from point " + pt(e) + " to point " + pt((e + 1) % n); };
+  char at[96];
+  std::snprintf(at, sizeof at, "(%.6g, %.6g) %s", x->at.x / unit_m, x->at.y / unit_m, unit_name.c_str());
+  return "; " + edge(x->first) + " meets " + edge(x->second) + " at " + at +
+         " (points counted from 0 in the order written, coordinates in " + unit_name + ")";
+}
+
 // "" when `p` (in metres) is an outline the solvers can use, else the end of a sentence "the outline
-// ...". Inline outlines and every polygon from a layout file pass through here.
-std::string outline_problem(const geometry::Polygon& p) {
+// ...". Inline outlines and every polygon from a layout file pass through here; `unit_m` and
+// `unit_name` are the unit the user wrote its coordinates in (for messages).
+std::string outline_problem(const geometry::Polygon& p, double unit_m = 1e-6, const std::string& unit_name = "um") {
   if (p.vertices.size() < 3) return "needs at least 3 points, got " + std::to_string(p.vertices.size());
   if (p.vertices.size() > 100000) return "has more than 100000 points";
   for (const auto& q : p.vertices)
@@ -127,6 +146,9 @@ std::string outline_problem(const geometry::Polygon& p) {
       return b;
     }
   const auto defect = geometry::find_defect(p);
+  if (defect == geometry::PolygonDefect::kSelfIntersecting)
+    return "is not a simple polygon: it is self-intersecting (crosses or touches itself)" +
+           crossing_text(p, unit_m, unit_name);
   if (defect != geometry::PolygonDefect::kNone) return "is not a simple polygon: " + geometry::ToString(defect);
   for (std::size_t i = 0; i < p.vertices.size(); ++i) {
     const auto& a = p.vertices[i];
@@ -285,20 +307,30 @@ class Reader {
     return out;
   }
 
-  geometry::Polygon outline(const Value& v, double unit_m) const {
+  // An outline in the file's unit (`unit_m` metres, written `unit_name`). A last point that repeats the
+  // first (a common way to write a closed ring) is dropped, and *note says so; the file is not touched.
+  geometry::Polygon outline(const Value& v, double unit_m, const std::string& unit_name, std::string* note) const {
     geometry::Polygon p;
     const auto pts = list(v, "[x, y] points");
     if (pts.size() < 3) fail(v, "an outline needs at least 3 points, got " + std::to_string(pts.size()));
     if (pts.size() > 100000) fail(v, "an outline may have at most 100000 points");
+    std::vector<std::pair<double, double>> written;  // as in the file, compared exactly
     for (const Value& pt : pts) {
       const auto xy = list(pt, "two coordinates [x, y]");
       if (xy.size() != 2) fail(pt, "a point is [x, y]: exactly two plain numbers in the file's `units`");
-      const double x = number(xy[0]) * unit_m, y = number(xy[1]) * unit_m;
+      written.emplace_back(number(xy[0]), number(xy[1]));
+      const double x = written.back().first * unit_m, y = written.back().second * unit_m;
       if (!(std::abs(x) <= kMaxCoordinate_m) || !(std::abs(y) <= kMaxCoordinate_m))
         fail(pt, "coordinate lies more than 10 cm from the origin; check `units`");
       p.vertices.push_back({x, y});
     }
-    if (const std::string why = outline_problem(p); !why.empty()) fail(v, "the outline " + why);
+    if (written.size() > 3 && written.back() == written.front()) {
+      p.vertices.pop_back();
+      const SourceLocation at = where(pts.back());
+      *note = v.path + ": the last point (line " + std::to_string(at.line) + ", column " + std::to_string(at.column) +
+              ") repeats the first; an outline closes by itself, so the repeat is left out (the file is unchanged)";
+    }
+    if (const std::string why = outline_problem(p, unit_m, unit_name); !why.empty()) fail(v, "the outline " + why);
     geometry::normalise(p);
     return p;
   }
@@ -705,6 +737,22 @@ int SecondDocumentLine(const std::string& text) {
 
 namespace {
 
+// The line and column (1-based) of the first tab in the indentation of a line that holds content (not
+// blank, not only a comment), at or before `last_line`; nothing when there is none.
+std::optional<std::pair<int, int>> indentation_tab(const std::string& text, int last_line) {
+  int line = 1;
+  for (std::size_t start = 0; start <= text.size() && line <= last_line; ++line) {
+    std::size_t end = text.find('\n', start);
+    if (end == std::string::npos) end = text.size();
+    const std::size_t content = text.find_first_not_of(" \t", start);
+    const bool has_content = content < end && text[content] != '#' && text[content] != '\r';
+    const std::size_t tab = text.find('\t', start);
+    if (has_content && tab < content) return std::pair<int, int>{line, static_cast<int>(tab - start) + 1};
+    start = end + 1;
+  }
+  return std::nullopt;
+}
+
 // The text of a design file parsed as one YAML document; a DesignError names the line otherwise.
 YAML::Node parse_document(const std::string& original_text, const std::string& path) {
   // The file name reaches messages and JSON output: it must be text.
@@ -727,6 +775,11 @@ YAML::Node parse_document(const std::string& original_text, const std::string& p
                         "the file holds a second YAML document (after '---'); a design file is exactly one document");
     root = YAML::Load(text);
   } catch (const YAML::Exception& e) {
+    // yaml-cpp reports a tab in the indentation as some other error ("illegal map value"), often lines
+    // later; YAML forbids tabs there (YAML 1.2, section 6.1), so name the first one up to the error.
+    if (const auto tab = indentation_tab(text, e.mark.line + 1))
+      throw DesignError({path, tab->first, tab->second, ""},
+                        "a tab in the indentation: YAML does not allow tabs for indentation; indent with spaces");
     throw DesignError({path, e.mark.line + 1, e.mark.column + 1, ""}, "YAML syntax: " + e.msg);
   }
   return root;
@@ -748,7 +801,10 @@ struct Loading {
 
   geometry::Polygon inline_outline(const Value& v) const {
     if (!units_value) r.fail(v, "an inline outline needs the file's `units` (nm, um or mm)");
-    return r.outline(v, d.unit_m);
+    std::string note;
+    geometry::Polygon p = r.outline(v, d.unit_m, d.unit_name, &note);
+    if (!note.empty()) d.notes.push_back(note);
+    return p;
   }
   void claim(const Value& v, const std::string& n, const std::string& what) {
     auto [it, fresh] = taken.emplace(n, what);
@@ -828,13 +884,29 @@ void read_heterostructure(Loading& ctx) {
   }
 }
 
+// The lab's own gate-voltage window (design.hpp, kDefaultGateVoltageMin_V and kDefaultGateVoltageMax_V
+// when absent): the minimum between -20 V and 0 V, the maximum between 0 V and +20 V, the range a gate
+// voltage may take at all.
+void read_gate_limits(const Reader& r, const Reader::Map& c, Conditions& cd) {
+  if (auto v = c.get("gate_voltage_min")) {
+    cd.gate_voltage_min_V = r.quantity(*v, Kind::kVoltage);
+    range(r, *v, cd.gate_voltage_min_V, -20.0, 0.0, "gate_voltage_min", {"V"});
+  }
+  if (auto v = c.get("gate_voltage_max")) {
+    cd.gate_voltage_max_V = r.quantity(*v, Kind::kVoltage);
+    range(r, *v, cd.gate_voltage_max_V, 0.0, 20.0, "gate_voltage_max", {"V"});
+  }
+}
+
 // Conditions: temperature and exactly one of filling / field.
 void read_conditions(Loading& ctx) {
   const Reader& r = ctx.r;
   const Reader::Map& m = ctx.m;
   Design& d = ctx.d;
-  const auto c = r.map(r.require(m, "conditions"), {"temperature", "filling", "field"});
+  const auto c =
+      r.map(r.require(m, "conditions"), {"temperature", "filling", "field", "gate_voltage_min", "gate_voltage_max"});
   auto& cd = d.conditions;
+  read_gate_limits(r, c, cd);
   const Value t = r.require(c, "temperature");
   cd.temperature_K = r.quantity(t, Kind::kTemperature);
   if (!(cd.temperature_K > 0.0)) r.fail(t, "temperature must be above absolute zero");
@@ -1012,6 +1084,7 @@ void read_gates(Loading& ctx) {
       g.where.key_path = item.path + " (" + g.name + ")";
       const Value vv = r.require(gm, "voltage");
       g.voltage_V = r.quantity(vv, Kind::kVoltage);
+      g.voltage_where = r.where(vv);
       range(r, vv, g.voltage_V, -20.0, 20.0, "a gate voltage", {"V"});
       const auto drawn = ctx.imported.gates.find(g.name);
       if (auto ov = gm.get("outline")) {
@@ -1030,7 +1103,7 @@ void read_gates(Loading& ctx) {
     if (listed_gates.count(name)) continue;
     if (ctx.taken.count(name)) r.fail(m.self, "the layout's gate " + name + " has the name of a " + ctx.taken.at(name));
     ctx.taken.emplace(name, "gate");
-    d.gates.push_back({name, 0.0, outline, ctx.imported.where});
+    d.gates.push_back({name, 0.0, outline, ctx.imported.where, ctx.imported.where});
     d.notes.push_back("gate " + name + " from the layout has no voltage in the design: taken as 0 V");
   }
 }

@@ -32,7 +32,7 @@ bool PathOptions::IsValid(std::string* why) const {
   };
   if (!(default_velocity_m_per_s > 0.0)) return bad("default_velocity_m_per_s must be > 0");
   if (!(relaxation_length_m >= 0.0)) return bad("relaxation_length_m must be >= 0 (0: default)");
-  if (!(gate_voltage_limit_V < 0.0)) return bad("gate_voltage_limit_V must be negative");
+  if (gate_voltage_limit_V && !(*gate_voltage_limit_V < 0.0)) return bad("gate_voltage_limit_V must be negative");
   if (curve_points < 2 || curve_points > 1000) return bad("curve_points must lie in [2, 1000]");
   if (target_transmission && !(*target_transmission >= 0.0 && *target_transmission <= 1.0))
     return bad("target_transmission must lie in [0, 1]");
@@ -406,11 +406,13 @@ void voltages_for_target(const GapModel& g, double v_hi, double v_lo, Constricti
       cm.warnings.push_back(ch + ": the design transmission is not reached between " +
                             std::to_string(v_hi).substr(0, 5) + " and " + std::to_string(v_lo).substr(0, 5) +
                             " V (beyond pinch-off or the sweep)");
-    else if (*at < opt.gate_voltage_limit_V)
+    else if (*at < opt.gate_voltage_limit_V.value_or(d.conditions.gate_voltage_min_V))
       cm.warnings.push_back(
           ch + ": reaching the design transmission needs " + std::to_string(*at).substr(0, 6) +
-          " V, beyond the gate-voltage limit " + std::to_string(opt.gate_voltage_limit_V).substr(0, 5) +
-          " V (a conservative leakage onset, common practice): a gate driven past leakage can destroy the sample");
+          " V, beyond the gate-voltage limit " +
+          std::to_string(opt.gate_voltage_limit_V.value_or(d.conditions.gate_voltage_min_V)).substr(0, 5) + " V (" +
+          (opt.gate_voltage_limit_V ? "--gate-limit" : "conditions.gate_voltage_min") +
+          "): a gate driven past leakage can destroy the sample");
   }
 }
 

@@ -28,10 +28,9 @@ struct ConstrictionGap {
   double most_positive_gate_V = 0.0;  // of the gates that form it
 };
 
+// A gate beyond the design's gate-voltage window (Conditions::gate_voltage_min_V, gate_voltage_max_V,
+// design.hpp) is a warning, "gate-voltage-limit", at the gate's `voltage:` value.
 struct CheckOptions {
-  // Forward bias above which a Schottky gate on GaAs starts to conduct (common practice: the barrier
-  // is about 0.7-0.8 V; conduction sets in from about +0.5 V).
-  double forward_bias_warning_V = 0.5;
   // A gap wider than this many 2DEG depths is unlikely to pinch off at moderate voltage.
   double wide_gap_in_depths = 10.0;
   // A source bias above this fraction of the cyclotron energy (over e) risks breaking down the
@@ -50,5 +49,10 @@ struct CheckResult {
 };
 
 CheckResult CheckDesign(const Design& design, const CheckOptions& options = {});
+
+// The end of a sentence "gate X at V ..." saying that `voltage_V` lies outside the design's gate-voltage
+// window and what that risks, or nothing when it lies inside. The one rule for the check finding
+// "gate-voltage-limit" and the warnings of `sweep` about a swept range.
+std::optional<std::string> GateLimitProblem(const Design& design, double voltage_V);
 
 }  // namespace hallway

@@ -46,7 +46,20 @@ struct Heterostructure {
   SurfaceModel surface = SurfaceModel::kPinned;
 };
 
+// The default gate-voltage window, used when a design does not give its lab's own
+// (`conditions.gate_voltage_min` and `gate_voltage_max`). -2 V: a conservative reverse-bias limit,
+// common practice for surface Schottky gates on GaAs (leakage through the barrier and breakdown set in
+// a few volts further). +0.5 V: a forward-biased Schottky gate on GaAs leaks into the 2DEG above a few
+// hundred mV (common practice; the barrier is about 0.7-0.8 V).
+inline constexpr double kDefaultGateVoltageMin_V = -2.0;
+inline constexpr double kDefaultGateVoltageMax_V = 0.5;
+
 struct Conditions {
+  // The lab's own gate-voltage window: CheckDesign warns for every gate beyond it (code
+  // "gate-voltage-limit"), `paths` suggests no voltage below the minimum, `sweep` warns for a swept
+  // range that leaves it.
+  double gate_voltage_min_V = kDefaultGateVoltageMin_V;
+  double gate_voltage_max_V = kDefaultGateVoltageMax_V;
   double temperature_K = 0.0;
   double field_T = 0.0;             // signed, +z from the 2DEG towards the surface
   Fraction filling;                 // bulk plateau used by the solvers
@@ -81,6 +94,7 @@ struct Gate {
   double voltage_V = 0.0;
   geometry::Polygon outline;
   SourceLocation where;
+  SourceLocation voltage_where;  // its `voltage:` value (a layout gate without one: `where`)
 };
 
 enum class Regime { kWeak, kStrong };

@@ -39,7 +39,8 @@ struct PathOptions {
   // integer fillings >= 2 (judgement on le Sueur et al., Phys. Rev. Lett. 105, 056803 (2010)), 3 um
   // otherwise (judgement, docs/models.md, Edge velocity and lengths); 0: these defaults.
   double relaxation_length_m = 0.0;
-  double gate_voltage_limit_V = -2.0;         // conservative leakage onset of surface gates (common practice)
+  // Most negative gate voltage to suggest; nothing: the design's conditions.gate_voltage_min_V (design.hpp).
+  std::optional<double> gate_voltage_limit_V;
   int curve_points = 25;                      // transmission-versus-voltage samples per constriction
   std::optional<double> target_transmission;  // instead of each constriction's design transmission
   std::size_t max_memory_bytes = kDefaultMaxMemoryBytes;  // of each constriction's electrostatic window

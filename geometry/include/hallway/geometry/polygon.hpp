@@ -64,8 +64,21 @@ ClosestPair closest_boundary_points(const Polygon& a, const Polygon& b, const st
 
 // What is wrong with a ring, cheapest checks first. Self-intersection is decided with exact
 // predicates (CGAL), see exact.hpp.
+// A ring of zero area whose vertices do not all lie on one line (a bow-tie) is kSelfIntersecting.
 enum class PolygonDefect { kNone, kTooFewVertices, kNotFinite, kRepeatedVertex, kZeroArea, kSelfIntersecting };
 std::string ToString(PolygonDefect d);
 PolygonDefect find_defect(const Polygon& p);
+
+// Two edges of a ring that meet where they should not (edge k joins vertex k and k+1, the last edge
+// closes the ring): non-neighbouring edges that share any point, or neighbouring edges that overlap
+// beyond their shared vertex. `first` < `second`; `at` is a point they share.
+struct EdgeCrossing {
+  std::size_t first = 0, second = 0;
+  Point at;
+};
+// The first such pair in edge order, or nothing for a simple ring. Brute force over the edge pairs,
+// O(n^2), with floating-point orientation tests: meant for naming the edges in a message after
+// find_defect() has found the ring not simple; rings above `max_vertices` are not searched.
+std::optional<EdgeCrossing> find_crossing_edges(const Polygon& p, std::size_t max_vertices = 5000);
 
 }  // namespace hallway::geometry
