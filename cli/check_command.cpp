@@ -16,6 +16,7 @@
 #include "hallway/wiring.hpp"
 #include "json_parts.hpp"
 #include "output.hpp"
+#include "transmissions.hpp"
 
 namespace hallway::cli {
 namespace {
@@ -66,7 +67,49 @@ std::string channel_text(const Channel& c) {
   return s;
 }
 
-std::string render_text(const Design& d, const CheckResult& r, const WiringVerdict* v) {
+// The constrictions' transmissions against their gates, and the gate voltages for the declared values.
+struct GateView {
+  std::vector<ConstrictionTransmission> transmissions;
+  std::vector<GateSetting> settings;
+  std::string not_modelled;  // why there is no model (empty: modelled, or nothing to model)
+};
+
+std::string gate_settings_text(const Design& d, const GateView& g) {
+  std::string out = TransmissionsText(d, g.transmissions);
+  if (!g.not_modelled.empty()) out += "\nConstriction models: " + g.not_modelled + "\n";
+  if (g.settings.empty()) return out;
+  out += fmt::format(
+      "\nGate voltages for the declared transmissions (both gates of the constriction together, the others at "
+      "their design voltages; saddle-point model on the self-consistent window potential; a declared 1 or 0 is "
+      "searched as 0.99 or 0.01, `from-gates` lists where each channel is half open)\n");
+  for (const GateSetting& s : g.settings) {
+    const Constriction& k = d.constrictions[static_cast<std::size_t>(s.constriction)];
+    const Gate* first = d.FindGate(k.first);
+    row(out, fmt::format("{} channel {}", k.name, s.channel + 1),
+        fmt::format("t = {:.3g} at {}{}", s.target,
+                    s.voltage_V ? FormatSI(*s.voltage_V, "V") : "(not reached above " + FormatSI(s.floor_V, "V") + ")",
+                    first ? fmt::format(" (design {})", FormatSI(first->voltage_V, "V")) : std::string()));
+  }
+  out += "  These are estimates: approach them slowly, and never past the gates' leakage or breakdown onset.\n";
+  return out;
+}
+
+void gate_settings_json(const Design& d, const GateView& g, nlohmann::json& constrictions) {
+  const nlohmann::json used = TransmissionsJson(d, g.transmissions);
+  for (std::size_t i = 0; i < constrictions.size() && i < used.size(); ++i) {
+    nlohmann::json& x = constrictions[i];
+    for (const char* key : {"transmission_used", "transmission_source", "model"}) x[key] = used[i][key];
+    nlohmann::json settings = nlohmann::json::array();
+    for (const GateSetting& s : g.settings)
+      if (s.constriction == static_cast<int>(i))
+        settings.push_back({{"channel", s.channel + 1},
+                            {"transmission", s.target},
+                            {"voltage_V", s.voltage_V ? nlohmann::json(*s.voltage_V) : nlohmann::json(nullptr)}});
+    x["gate_settings"] = settings;
+  }
+}
+
+std::string render_text(const Design& d, const CheckResult& r, const WiringVerdict* v, const GateView* gv) {
   const auto& f = r.figures;
   const auto& h = d.heterostructure;
   std::string out;
@@ -132,6 +175,8 @@ std::string render_text(const Design& d, const CheckResult& r, const WiringVerdi
     }
   }
 
+  if (gv) out += gate_settings_text(d, *gv);
+
   out += "\nWiring\n";
   for (const Wiring& w : d.wiring) row(out, w.contact, describe_wiring(w));
 
@@ -164,7 +209,7 @@ nlohmann::json polygon_json(const geometry::Polygon& p) {
   return {{"area_m2", geometry::area(p)}, {"bounding_box_m", {bb.xmin, bb.ymin, bb.xmax, bb.ymax}}};
 }
 
-std::string render_json(const Design& d, const CheckResult& r, const WiringVerdict* v) {
+std::string render_json(const Design& d, const CheckResult& r, const WiringVerdict* v, const GateView* gv) {
   using nlohmann::json;
   const auto& f = r.figures;
   json j;
@@ -235,6 +280,7 @@ std::string render_json(const Design& d, const CheckResult& r, const WiringVerdi
       }
     ks.push_back(x);
   }
+  if (gv) gate_settings_json(d, *gv, ks);
   j["constrictions"] = ks;
   json wiring = json::object();
   for (const Wiring& w : d.wiring) {
@@ -466,17 +512,41 @@ WiringVerdict bare_verdict(const Design& d, const CheckResult& r) {
   }
 }
 
+// Transmissions from the gates (written into the design) and the gate settings for the declared ones;
+// their findings join the checks'.
+GateView gate_view(Design* d, CheckResult* r) {
+  GateView g;
+  if (!r->ok() || d->constrictions.empty()) return g;
+  try {
+    GateTransmissionOptions go;
+    g.transmissions = ResolveGateTransmissions(d, go, &r->findings);
+    if (r->ok()) g.settings = GateSettings(*d, SaddlePotential::kSelfConsistentWindow, go.electrostatics);
+  } catch (const GridTooLarge& e) {
+    g.not_modelled = std::string("not computed (") + e.what() + ")";
+    g.transmissions.clear();
+    g.settings.clear();
+    for (const Constriction& k : d->constrictions)
+      if (k.transmission_from_gates)
+        r->findings.push_back({Severity::kError, "transmission-model-failed",
+                               "constriction " + k.name + ": `transmission: from-gates`, but its window is too large "
+                                                          "to solve within the memory limit",
+                               k.where});
+  }
+  return g;
+}
+
 }  // namespace
 
 int RunCheck(const CheckArgs& args) {
   Design d;
   if (int code = 0; !LoadOrReport(args.design_path, &d, &code)) return code;
-  const CheckResult r = CheckDesign(d);
+  CheckResult r = CheckDesign(d);
+  const GateView gv = gate_view(&d, &r);
   const WiringVerdict v = bare_verdict(d, r);
-  std::cout << render_text(d, r, &v);
+  std::cout << render_text(d, r, &v, &gv);
   if (!args.json_path.empty()) {
     try {
-      WriteFileAtomically(args.json_path, render_json(d, r, &v), {args.design_path});
+      WriteFileAtomically(args.json_path, render_json(d, r, &v, &gv), {args.design_path});
     } catch (const OutputError& e) {
       std::cerr << "hallway: output error: " << e.what() << "\n";
       return kExitOutputError;
@@ -487,7 +557,7 @@ int RunCheck(const CheckArgs& args) {
 }
 
 std::string CheckJsonText(const Design& d, const CheckResult& r) {
-  return render_json(d, r, nullptr);
+  return render_json(d, r, nullptr, nullptr);
 }
 
 }  // namespace hallway::cli

@@ -5,6 +5,7 @@
 #include <string>
 
 #include "commands.hpp"
+#include "hallway/quantities.hpp"
 #include "output.hpp"
 
 #ifndef HALLWAY_VERSION
@@ -88,6 +89,16 @@ void AddReport(CLI::App& app, ReportArgs& a) {
   rp->add_flag("--quiet", a.quiet, "No progress line on standard error");
 }
 
+// The --quantities help, from the quantity table (quantities.hpp).
+std::string QuantityHelp() {
+  std::string all, off;
+  for (const hallway::QuantityGroup& g : hallway::QuantityGroups()) {
+    all += (all.empty() ? "" : ",") + std::string(g.name);
+    if (!g.default_on) off += (off.empty() ? "" : " and ") + std::string(g.name);
+  }
+  return "Groups: " + all + " (default: all" + (off.empty() ? "" : " but " + off) + ")";
+}
+
 void AddSweep(CLI::App& app, SweepArgs& a) {
   CLI::App* sw = app.add_subcommand("sweep", "Sweep design values (threads; MPI under mpirun) into a CSV file");
   sw->add_option("design", a.design_path, "Design file (YAML)")->required();
@@ -98,9 +109,7 @@ void AddSweep(CLI::App& app, SweepArgs& a) {
   sw->add_option("--output", a.output,
                  "CSV file, one row per point (a regular file; locked while the sweep runs)" + kPathNote)
       ->required();
-  sw->add_option("--quantities", a.quantities,
-                 "Groups: currents,voltages,conductance,noise,snr,fano,saddle,pinchoff (default: all but conductance "
-                 "and pinchoff)");
+  sw->add_option("--quantities", a.quantities, QuantityHelp());
   sw->add_option("--threads", a.threads, "Threads per process (default: the cores, shared among MPI ranks)");
   sw->add_flag("--resume", a.resume,
                "Keep the points already in the output file: its sweep record OUTPUT.hallway-sweep must show the same "

@@ -19,6 +19,7 @@
 #include "hallway/wiring.hpp"
 #include "json_parts.hpp"
 #include "output.hpp"
+#include "transmissions.hpp"
 #include "progress.hpp"
 
 namespace hallway::cli {
@@ -344,7 +345,6 @@ int RunNoise(const NoiseArgs& args) {
   std::string es_note;
   if (int code = 0; !BuildDevice(std::move(design), args.fast, max_memory, &device, &es_note, &code)) return code;
   const Design& d = device->design();
-  const CheckResult& check = device->check();
   const ChannelGeometry& geometry = device->geometry();
   const FieldSign sign = args.reversed_only ? FieldSign::kReversed : FieldSign::kDesign;
   const EdgeNetwork& net = device->edges(sign);
@@ -374,8 +374,7 @@ int RunNoise(const NoiseArgs& args) {
   const WiringVerdict verdict = AssessWiring(d, geometry);
   out += WiringVerdictText(d, verdict, EdgesLabel(geometry));
   std::vector<std::string> warnings;
-  for (const Finding& f : check.findings) warnings.push_back(f.message);
-  for (const Finding& f : geometry.findings) warnings.push_back(f.message);
+  for (const Finding& f : device->summary().findings) warnings.push_back(f.message);
   const std::string label = ReversedFieldLabel(d, verdict, device->field_T(sign));
   for (const std::vector<Finding>* list :
        std::initializer_list<const std::vector<Finding>*>{&net.findings, &tr.findings, &n.findings})
@@ -411,6 +410,7 @@ int RunNoise(const NoiseArgs& args) {
   try {
     if (!args.csv_path.empty()) WriteFileAtomically(args.csv_path, csv, {args.design_path});
     if (!args.json_path.empty()) WriteFileAtomically(args.json_path, j.dump(2) + "\n", {args.design_path});
+  j["constrictions"] = TransmissionsJson(d, device->summary().transmissions);
   } catch (const OutputError& e) {
     std::cerr << "hallway: output error: " << e.what() << "\n";
     return kExitOutputError;

@@ -27,6 +27,7 @@
 #include "hallway/electrostatics.hpp"
 #include "hallway/units.hpp"
 #include "progress.hpp"
+#include "transmissions.hpp"
 
 namespace hallway::cli {
 
@@ -123,11 +124,12 @@ bool BuildDevice(Design design, bool fast, std::size_t max_memory_bytes, std::op
   } else {
     *note += "  (--fast: bare-potential channel boundaries, no whole-mesa electrostatic solve)\n";
   }
-  if (!dev.usable()) {  // an error of the channel geometry (the checks passed)
+  if (!dev.usable()) {  // an error of the transmissions from the gates or of the channel geometry
     ReportErrors(dev.summary().findings);
     *exit_code = kExitDesignError;
     return false;
   }
+  *note += TransmissionsText(dev.design(), dev.summary().transmissions);
   return true;
 }
 

@@ -13,6 +13,7 @@
 #include "hallway/units.hpp"
 #include "json_parts.hpp"
 #include "output.hpp"
+#include "transmissions.hpp"
 
 namespace hallway::cli {
 
@@ -118,7 +119,8 @@ bool ParsePathOptions(const PathsArgs& args, std::size_t max_memory, PathOptions
 }
 
 std::string PathsText(const Design& d, const ChannelGeometry& geometry, const std::string& es_note,
-                      const EdgeNetwork& net, const PathResult& r, const PathOptions& po, const CheckResult& check) {
+                      const EdgeNetwork& net, const PathResult& r, const PathOptions& po,
+                      const std::vector<Finding>& device_findings) {
   const double kt = constants::kBoltzmann_J_per_K * d.conditions.temperature_K;
 
   std::string out = fmt::format("hallway paths  {}\n", d.path);
@@ -195,7 +197,8 @@ std::string PathsText(const Design& d, const ChannelGeometry& geometry, const st
     }
   }
   std::vector<std::string> warnings;
-  for (const Finding& f : check.findings) warnings.push_back(f.message);  // the design checks' warnings
+  // The device's: design checks, transmissions from the gates, channel geometry.
+  for (const Finding& f : device_findings) warnings.push_back(f.message);
   for (const Finding& f : r.findings) warnings.push_back(f.message);
   if (!warnings.empty()) {
     out += "\nWarnings\n";
@@ -221,8 +224,9 @@ int RunPaths(const PathsArgs& args) {
   PathOptions po;
   if (!ParsePathOptions(args, max_memory, &po)) return kExitUsage;
   const PathResult r = device->paths(po);
-  std::string out = PathsText(d, geometry, es_note, net, r, po, device->check());
+  std::string out = PathsText(d, geometry, es_note, net, r, po, device->summary().findings);
   std::vector<std::string> warnings;
+  for (const Finding& f : device->summary().findings) warnings.push_back(f.message);
   for (const Finding& f : r.findings) warnings.push_back(f.message);
   out += kSafetyCaution;
   json j = PathsJson(d, net, r);
@@ -230,6 +234,7 @@ int RunPaths(const PathsArgs& args) {
   j["design"] = d.path;
   j["field_T"] = d.conditions.field_T;
   j["warnings"] = warnings;
+  j["constrictions"] = TransmissionsJson(d, device->summary().transmissions);
   if (!RequireFiniteJson(j, "the path metrics and constriction models")) return kExitInternal;
   std::cout << out;
   if (!args.json_path.empty()) {

@@ -17,6 +17,7 @@
 #include "hallway/wiring.hpp"
 #include "json_parts.hpp"
 #include "output.hpp"
+#include "transmissions.hpp"
 
 namespace hallway::cli {
 namespace {
@@ -191,10 +192,11 @@ void print_four(std::string& out, const std::string& spec, const std::vector<int
 }
 
 // Every warning, the reversed field's labelled by what the verdict says about it.
-std::vector<std::string> solve_warnings(const Design& d, const CheckResult& check, const ChannelGeometry& geometry,
+// The device's findings (checks, electrostatics, transmissions from the gates, channel geometry) come first.
+std::vector<std::string> solve_warnings(const Design& d, const DeviceSummary& summary,
                                         const std::vector<Solved>& solved, const WiringVerdict& verdict) {
   std::vector<std::string> warnings;
-  for (const Finding& f : geometry.findings) warnings.push_back(f.message);
+  for (const Finding& f : summary.findings) warnings.push_back(f.message);
   for (const Solved& s : solved) {
     const std::string label = ReversedFieldLabel(d, verdict, s.transport.field_T);
     const std::string tag =
@@ -202,7 +204,6 @@ std::vector<std::string> solve_warnings(const Design& d, const CheckResult& chec
     for (const Finding& f : s.network.findings) warnings.push_back(tag + " " + f.message);
     for (const Finding& f : s.transport.findings) warnings.push_back(tag + " " + f.message);
   }
-  for (const Finding& f : check.findings) warnings.insert(warnings.begin(), f.message);
   return warnings;
 }
 
@@ -251,7 +252,6 @@ int RunSolve(const SolveArgs& args) {
   std::string es_note;
   if (int code = 0; !BuildDevice(std::move(design), args.fast, max_memory, &device, &es_note, &code)) return code;
   const Design& d = device->design();
-  const CheckResult& check = device->check();
   const ChannelGeometry& geometry = device->geometry();
   std::vector<FieldSign> signs;
   if (!args.reversed_only) signs.push_back(FieldSign::kDesign);
@@ -292,7 +292,7 @@ int RunSolve(const SolveArgs& args) {
                                                    : AssessWiring(d, geometry);
   out += WiringVerdictText(d, verdict, EdgesLabel(geometry));
   if (!four.empty()) print_four(out, args.four_terminal, four, solved);
-  const std::vector<std::string> warnings = solve_warnings(d, check, geometry, solved, verdict);
+  const std::vector<std::string> warnings = solve_warnings(d, device->summary(), solved, verdict);
   if (!warnings.empty()) {
     out += "\nWarnings\n";
     for (const auto& w : warnings) out += "  - " + w + "\n";
@@ -312,9 +312,7 @@ int RunSolve(const SolveArgs& args) {
     for (const Contact& c : d.contacts) contacts.push_back(c.name);
     j["contacts"] = contacts;
     json gw = json::array();
-    for (const Finding& f : check.findings)
-      gw.push_back({{"code", f.code}, {"severity", ToString(f.severity)}, {"message", f.message}});
-    for (const Finding& f : geometry.findings)
+    for (const Finding& f : device->summary().findings)
       gw.push_back({{"code", f.code}, {"severity", ToString(f.severity)}, {"message", f.message}});
     for (auto& w : j["warnings"]) gw.push_back(w);
     j["warnings"] = gw;
@@ -322,6 +320,7 @@ int RunSolve(const SolveArgs& args) {
     j["wiring_verdict"] = WiringVerdictJson(d, verdict);
     // Path metrics and constriction models of the first field solved (hallway paths gives the same).
     PathOptions po;
+    j["constrictions"] = TransmissionsJson(d, device->summary().transmissions);
     po.max_memory_bytes = max_memory;
     PathResult paths =
         ComputePaths(d, solved.front().network, solved.front().transport, device->density(), po);

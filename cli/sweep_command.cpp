@@ -151,6 +151,7 @@ std::string solve_point(const std::string& text, const std::string& path, const 
   options.bare_estimate = fast;
   options.electrostatics.threads = 1;
   options.electrostatics.max_memory_bytes = max_memory;
+  options.check_declared_transmissions = false;  // the warnings would not be shown per point
   if (!fast) options.start = warm->StartFor(at);
   const Device device(LoadDesignFromString(text, path), options);
   const Design& d = device.design();

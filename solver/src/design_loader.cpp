@@ -4,10 +4,12 @@
 #include <yaml-cpp/yaml.h>
 
 #include <algorithm>
+#include <cctype>
 #include <charconv>
 #include <cmath>
 #include <filesystem>
 #include <fstream>
+#include <limits>
 #include <map>
 #include <set>
 #include <sstream>
@@ -1108,7 +1110,9 @@ void read_gates(Loading& ctx) {
   }
 }
 
-// Constrictions: two gates (or a gate and the mesa) and one transmission per edge channel.
+// Constrictions: two gates (or a gate and the mesa) and one transmission per edge channel, or
+// `from-gates` (the saddle-point model at the design voltages, saddle_model.hpp).
+constexpr const char* kFromGates = "from-gates";
 void read_constrictions(Loading& ctx) {
   const Reader& r = ctx.r;
   const Reader::Map& m = ctx.m;
@@ -1138,7 +1142,14 @@ void read_constrictions(Loading& ctx) {
       k.second = names[1];
       const Value tv = r.require(km, "transmission");
       std::vector<Value> tvals;
-      if (tv.node.IsSequence())
+      if (tv.node.IsScalar() && tv.node.Scalar() == kFromGates) {
+        // The saddle-point model fills these in (saddle_model.hpp); NaN marks them not yet computed.
+        k.transmission_from_gates = true;
+        k.transmission.assign(d.channels.size(), std::numeric_limits<double>::quiet_NaN());
+      } else if (tv.node.IsScalar() && !tv.node.Scalar().empty() && std::isalpha(static_cast<unsigned char>(tv.node.Scalar()[0]))) {
+        r.fail(tv, "transmission is one number between 0 and 1 per channel (a list, outermost first), or `" +
+                       std::string(kFromGates) + "` to compute it from the gate voltages; got '" + tv.node.Scalar() + "'");
+      } else if (tv.node.IsSequence())
         tvals = r.list(tv, "transmissions");
       else {
         if (d.channels.size() != 1)
@@ -1146,7 +1157,7 @@ void read_constrictions(Loading& ctx) {
                          " edge channels: give one transmission per channel as a list, outermost first");
         tvals.push_back(tv);
       }
-      if (tvals.size() != d.channels.size())
+      if (!k.transmission_from_gates && tvals.size() != d.channels.size())
         r.fail(tv, "expected " + std::to_string(d.channels.size()) +
                        " transmissions (one per edge channel, outermost first), got " + std::to_string(tvals.size()));
       for (const Value& t : tvals) {

@@ -62,11 +62,23 @@ Device::Device(Design design, const DeviceOptions& options) : design_(std::move(
     }
     network.density = &*density_;
   }
+  if (!resolve_transmissions()) return;
   geometry_ = BuildChannelGeometry(design_, network);
   summary_.boundary_model = geometry_->model;
   summary_.findings.insert(summary_.findings.end(), geometry_->findings.begin(), geometry_->findings.end());
   summary_.usable = true;
   for (const Finding& f : geometry_->findings) summary_.usable = summary_.usable && f.severity != Severity::kError;
+}
+
+bool Device::resolve_transmissions() {
+  GateTransmissionOptions go;
+  go.potential = options_.bare_estimate ? SaddlePotential::kBare : SaddlePotential::kSelfConsistentWindow;
+  go.electrostatics = options_.electrostatics;
+  go.check_declared = options_.check_declared_transmissions;
+  std::vector<Finding> found;
+  summary_.transmissions = ResolveGateTransmissions(&design_, go, &found);
+  summary_.findings.insert(summary_.findings.end(), found.begin(), found.end());
+  return std::none_of(found.begin(), found.end(), [](const Finding& f) { return f.severity == Severity::kError; });
 }
 
 void Device::require_usable() const {

@@ -15,6 +15,7 @@
 #include "hallway/heterostructure.hpp"
 #include "hallway/map.hpp"
 #include "hallway/saddle.hpp"
+#include "hallway/saddle_model.hpp"
 
 namespace hallway {
 
@@ -295,65 +296,25 @@ struct ModelSetting {
   std::vector<double> design_volts;  // the design's gate voltages, V
 };
 
-// One constriction as its model sees it: the gap, the directions across and along it, the window
-// solver around it and the strip its saddle is searched in (saddle.hpp).
+// One constriction as its model sees it: the saddle model on its window (saddle_model.hpp).
 struct GapModel {
   const ModelSetting& s;
   const Constriction& k;
-  const geometry::ClosestPair& gap;
-  Point u;    // across the gap, from the first side to the second
-  Point nrm;  // along the gap
-  const ElectrostaticProblem& problem;
-  const SaddleStrip& strip;
-  int ga = -1, gb = -1;  // the two sides' gates in the design (-1: the mesa)
+  std::size_t index = 0;
+  const ConstrictionSaddleModel& model;
 };
-
-// Saddle model at one set of voltages: barrier, curvatures and per-channel transmissions.
-struct Saddle {
-  bool ok = false;
-  Point at;
-  double barrier = 0, hx = 0, hy = 0;
-  std::vector<double> t;
-};
-
-Saddle saddle_of(const GapModel& g, const DensityMap& m) {
-  const Design& d = g.s.d;
-  const double ef0 = g.s.ef0, mass = g.s.mass;
-  const Point u = g.u, nrm = g.nrm;
-  Saddle s;
-  auto U = [&](Point p) { return m.EnergyAt(p) * ef0; };
-  // The same saddle as `hallway map` (saddle.hpp).
-  s.at = DensitySaddle(m, g.strip).point;
-  const double h = std::max(m.cell_m, g.gap.distance_m / 20.0);
-  auto along = [&](Point dir, double t) { return U({s.at.x + t * dir.x, s.at.y + t * dir.y}); };
-  const double uu = (along(u, h) - 2 * along(u, 0) + along(u, -h)) / (h * h);
-  const double nn = (along(nrm, h) - 2 * along(nrm, 0) + along(nrm, -h)) / (h * h);
-  s.barrier = along(u, 0) - ef0;
-  if (!(uu > 0.0 && nn < 0.0)) return s;
-  s.ok = true;
-  s.hy = kHbar_Js * std::sqrt(uu / mass);
-  s.hx = kHbar_Js * std::sqrt(-nn / mass);
-  for (std::size_t c = 0; c < d.channels.size(); ++c) {
-    if (!d.channels[c].conductance.is_integer()) {
-      s.t.push_back(std::nan(""));
-      continue;
-    }
-    s.t.push_back(SpinResolvedSaddleTransmission(-s.barrier, s.hx, s.hy, g.s.cyclotron_J, static_cast<int>(c)));
-  }
-  return s;
-}
 
 // Transverse subbands across the saddle, and how far their spacing is from the harmonic estimate.
-void transverse_subbands(const GapModel& g, const DensityMap& m, const Saddle& s0, double grid_m,
-                         ConstrictionModel& cm) {
-  const double dx = 0.25 * grid_m;
-  const double reach = 0.5 * g.gap.distance_m + 4.0 * g.s.depth;
+void transverse_subbands(const GapModel& g, const DensityMap& m, const SaddleModel& s0, ConstrictionModel& cm) {
+  const double dx = 0.25 * g.model.window_cell_m();
+  const double reach = 0.5 * g.model.gap().distance_m + 4.0 * g.s.depth;
+  const Point u = g.model.across();
   std::vector<double> pot;
   for (double t = -reach; t <= reach; t += dx)
-    pot.push_back(m.EnergyAt({s0.at.x + t * g.u.x, s0.at.y + t * g.u.y}) * g.s.ef0);
+    pot.push_back(m.EnergyAt({s0.saddle.x + t * u.x, s0.saddle.y + t * u.y}) * g.s.ef0);
   try {
     cm.subbands_J = TransverseLevels_J(pot, dx, g.s.mass, 3);
-    cm.harmonic_ratio = (cm.subbands_J[1] - cm.subbands_J[0]) / s0.hy;
+    cm.harmonic_ratio = (cm.subbands_J[1] - cm.subbands_J[0]) / s0.hbar_omega_y_J;
     if (std::abs(*cm.harmonic_ratio - 1.0) > 0.3)
       cm.warnings.push_back(
           "the transverse subband spacing differs from the harmonic estimate by more than 30 %: the "
@@ -363,48 +324,62 @@ void transverse_subbands(const GapModel& g, const DensityMap& m, const Saddle& s
   }
 }
 
-// Transmission against the constriction's gate voltage (both sides together), from v_hi to v_lo,
-// each solve started from the last.
-void transmission_curve(const GapModel& g, double v_hi, double v_lo, DensityMap& last, ConstrictionModel& cm) {
+// Largest change of any channel's transmission between two samples (1 when only one has a model).
+double jump(const ConstrictionModel::Sample& a, const ConstrictionModel::Sample& b) {
+  if (a.transmission.empty() || b.transmission.empty()) return a.transmission.empty() == b.transmission.empty() ? 0 : 1;
+  double j = 0.0;
+  for (std::size_t c = 0; c < a.transmission.size() && c < b.transmission.size(); ++c)
+    j = std::max(j, std::abs(a.transmission[c] - b.transmission[c]));
+  return j;
+}
+
+// Transmission against the constriction's gate voltage (both sides together), from v_hi to v_lo:
+// curve_points equally spaced samples, then halving every interval across which a transmission changes
+// by more than 0.02 (down to 0.5 mV, at most 8 curve_points samples in all), so that the straight
+// lines between samples follow the model's steps; each solve starts from the last.
+void transmission_curve(const GapModel& g, double v_hi, double v_lo, std::optional<DensityMap>& last,
+                        ConstrictionModel& cm) {
   const int points = g.s.opt.curve_points;
-  for (int i = 0; i < points; ++i) {
-    const double v = v_hi + (v_lo - v_hi) * i / (points - 1);
-    std::vector<double> volts = g.s.design_volts;
-    if (g.ga >= 0) volts[static_cast<std::size_t>(g.ga)] = v;
-    if (g.gb >= 0) volts[static_cast<std::size_t>(g.gb)] = v;
-    last = g.problem.Solve(volts, &last);
-    ConstrictionModel::Sample sample{v, {}};
-    if (last.stats.converged) {
-      const Saddle s = saddle_of(g, last);
-      if (s.ok) sample.transmission = s.t;
+  auto sample = [&](double v) {
+    const SaddleModel m = g.model.At(g.model.WithSides(v), &last);
+    return ConstrictionModel::Sample{v, m.ok ? m.transmission : std::vector<double>{}};
+  };
+  for (int i = 0; i < points; ++i) cm.curve.push_back(sample(v_hi + (v_lo - v_hi) * i / (points - 1)));
+  const std::size_t budget = 8 * static_cast<std::size_t>(points);
+  for (bool refined = true; refined && cm.curve.size() < budget;) {
+    refined = false;
+    std::vector<ConstrictionModel::Sample> next{cm.curve.front()};
+    for (std::size_t i = 1; i < cm.curve.size(); ++i) {
+      const auto& a = cm.curve[i - 1];
+      const auto& b = cm.curve[i];
+      if (jump(a, b) > 0.02 && std::abs(b.voltage_V - a.voltage_V) > 1e-3 && next.size() + cm.curve.size() - i < budget) {
+        next.push_back(sample(0.5 * (a.voltage_V + b.voltage_V)));
+        refined = true;
+      }
+      next.push_back(b);
     }
-    cm.curve.push_back(sample);
+    cm.curve = std::move(next);
   }
 }
 
 // The gate voltage at which each channel reaches the design (or target) transmission, with warnings
 // where it is not reached or lies past the gate-voltage limit.
-void voltages_for_target(const GapModel& g, double v_hi, double v_lo, ConstrictionModel& cm) {
+void voltages_for_target(const GapModel& g, ConstrictionModel& cm) {
   const Design& d = g.s.d;
   const PathOptions& opt = g.s.opt;
   for (std::size_t c = 0; c < d.channels.size(); ++c) {
-    std::optional<double> at;
-    // A design value of exactly 1 or 0 is searched as 0.99 or 0.01 (where the channel starts to close).
-    const double target = std::clamp(opt.target_transmission.value_or(g.k.transmission[c]), 0.01, 0.99);
-    for (std::size_t i = 0; i + 1 < cm.curve.size() && !at; ++i) {
-      const auto& a = cm.curve[i];
-      const auto& b = cm.curve[i + 1];
-      if (a.transmission.empty() || b.transmission.empty() || std::isnan(a.transmission[c])) continue;
-      const double ta = a.transmission[c], tb = b.transmission[c];
-      if ((ta - target) * (tb - target) <= 0.0 && ta != tb)
-        at = a.voltage_V + (target - ta) / (tb - ta) * (b.voltage_V - a.voltage_V);
-    }
+    // A design value of exactly 1 or 0 is searched as 0.99 or 0.01 (where the channel starts to close);
+    // the same search as `hallway check`'s gate settings (saddle_model.hpp).
+    const double declared = g.k.transmission_from_gates ? 0.5 : g.k.transmission[c];
+    const double target = std::clamp(opt.target_transmission.value_or(declared), 0.01, 0.99);
+    const double floor = GateSearchFloor_V(d, g.index);
+    const std::optional<double> at = VoltageForTransmission(g.model, c, target, 0.0, floor);
     cm.voltage_for_target_V.push_back(at);
     const std::string ch = "channel " + std::to_string(c + 1);
     if (!d.channels[c].conductance.is_integer()) continue;
     if (!at)
       cm.warnings.push_back(ch + ": the design transmission is not reached between " +
-                            std::to_string(v_hi).substr(0, 5) + " and " + std::to_string(v_lo).substr(0, 5) +
+                            std::string("0 V and ") + std::to_string(floor).substr(0, 5) +
                             " V (beyond pinch-off or the sweep)");
     else if (*at < opt.gate_voltage_limit_V.value_or(d.conditions.gate_voltage_min_V))
       cm.warnings.push_back(
@@ -423,43 +398,33 @@ std::optional<ConstrictionModel> model_constriction(const ModelSetting& s, std::
   const Constriction& k = d.constrictions[ki];
   ConstrictionModel cm;
   cm.constriction = static_cast<int>(ki);
-  const auto gap = FindGap(d, k, nullptr);
-  if (!gap) return std::nullopt;
-  const Point mid = gap->midpoint();
-  const Point u{(gap->on_b.x - gap->on_a.x) / gap->distance_m, (gap->on_b.y - gap->on_a.y) / gap->distance_m};
-  const Point nrm{-u.y, u.x};
-  const double half = 0.5 * gap->distance_m + 12.0 * s.depth;
   ElectrostaticsOptions lo;
   lo.max_memory_bytes = s.opt.max_memory_bytes;
-  lo.grid_m = ConstrictionWindowCell_m(s.depth, gap->distance_m, half);
-  const ElectrostaticProblem problem(d, lo, ElectrostaticWindow{mid, half, half});
-  const SaddleStrip strip = SaddleStrip::For(d, k, *gap, 0.5 * problem.cell_m());
-  GapModel g{s, k, *gap, u, nrm, problem, strip, -1, -1};
-  for (std::size_t i = 0; i < d.gates.size(); ++i) {
-    if (d.gates[i].name == k.first) g.ga = static_cast<int>(i);
-    if (d.gates[i].name == k.second) g.gb = static_cast<int>(i);
-  }
-  DensityMap last = problem.Solve(s.design_volts);
-  if (!last.stats.converged) {
+  const ConstrictionSaddleModel model(d, ki, SaddlePotential::kSelfConsistentWindow, lo);
+  if (!model.has_gap()) return std::nullopt;
+  const GapModel g{s, k, ki, model};
+  std::optional<DensityMap> last;
+  bool converged = true;
+  const SaddleModel s0 = model.At(s.design_volts, &last, &converged);
+  if (!converged) {
     cm.warnings.push_back("the electrostatic solve did not converge; no constriction model");
     return cm;
   }
-  const Saddle s0 = saddle_of(g, last);
   cm.saddle_found = s0.ok;
-  cm.saddle = s0.at;
-  cm.barrier_J = s0.barrier;
-  cm.hbar_omega_x_J = s0.hx;
-  cm.hbar_omega_y_J = s0.hy;
-  cm.transmission = s0.t;
+  cm.saddle = s0.saddle;
+  cm.barrier_J = s0.barrier_J;
+  cm.hbar_omega_x_J = s0.hbar_omega_x_J;
+  cm.hbar_omega_y_J = s0.hbar_omega_y_J;
+  cm.transmission = s0.transmission;
   if (!s0.ok)
     cm.warnings.push_back(
-        "no saddle in the self-consistent potential at the design voltages: the saddle-point model does not apply");
-  if (s0.ok) transverse_subbands(g, last, s0, lo.grid_m, cm);
-  const double v0 =
-      g.ga >= 0 ? d.gates[static_cast<std::size_t>(g.ga)].voltage_V : d.gates[static_cast<std::size_t>(g.gb)].voltage_V;
+        "no saddle in the self-consistent potential at the design voltages: the saddle-point model does not apply "
+        "(each channel taken open or closed by the local filling at the narrowest point)");
+  if (s0.ok) transverse_subbands(g, *last, s0, cm);
+  const double v0 = model.design_side_voltage_V();
   const double v_hi = std::min(0.0, v0 + 0.5), v_lo = v0 - 1.0;
   transmission_curve(g, v_hi, v_lo, last, cm);
-  voltages_for_target(g, v_hi, v_lo, cm);
+  voltages_for_target(g, cm);
   return cm;
 }
 

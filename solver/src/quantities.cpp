@@ -2,6 +2,7 @@
 #include "hallway/quantities.hpp"
 
 #include <algorithm>
+#include <cmath>
 #include <stdexcept>
 
 #include "hallway/gap.hpp"
@@ -123,6 +124,22 @@ Values saddle_values(const PointResults& r) {
   return v;
 }
 
+// The transmission each constriction uses for each channel: the design's, or the saddle-point model's
+// at the point's gate voltages for `transmission: from-gates` (saddle_model.hpp).
+Columns transmission_columns(const Design& d) {
+  Columns c;
+  for (const Constriction& k : d.constrictions)
+    for (std::size_t ch = 0; ch < d.channels.size(); ++ch)
+      c.push_back("transmission_" + k.name + "_ch" + std::to_string(ch + 1));
+  return c;
+}
+Values transmission_values(const PointResults& r) {
+  Values v;
+  for (const Constriction& k : r.design->constrictions)
+    for (double t : k.transmission) v.push_back(std::isfinite(t) ? std::optional<double>(t) : std::nullopt);
+  return v;
+}
+
 // The voltage where the density at the saddle reaches zero (both sides swept together), from the
 // pinch-off search of `hallway map`; empty when the channel is still open at the search limit.
 Columns pinchoff_columns(const Design& d) {
@@ -154,6 +171,8 @@ const std::vector<QuantityGroup>& QuantityGroups() {
       {"snr", "signal-to-noise ratio of every amplifier", true, QuantityNeeds::kNoise, snr_columns, snr_values},
       {"fano", "collider Fano factors P at T = 0 and at the design temperature", true, QuantityNeeds::kNoise,
        fano_columns, fano_values},
+      {"transmission", "transmission each constriction uses per channel (from the gates under `from-gates`)", true,
+       QuantityNeeds::kTransport, transmission_columns, transmission_values},
       {"saddle", "density at each constriction's saddle", true, QuantityNeeds::kTransport, saddle_columns,
        saddle_values},
       {"pinchoff", "voltage where each constriction's saddle density reaches zero", false,

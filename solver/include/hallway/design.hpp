@@ -107,7 +107,11 @@ inline constexpr const char* kMesaName = "mesa";
 struct Constriction {
   std::string name;
   std::string first, second;         // gate names, or kMesaName for one of them
-  std::vector<double> transmission;  // per channel, outermost first, each in [0, 1]
+  // Per channel, outermost first, each in [0, 1]. With `transmission: from-gates` the loader leaves
+  // NaN here and ResolveGateTransmissions (saddle_model.hpp) writes the saddle-point model's values at
+  // the design voltages; Device does this before anything uses them.
+  std::vector<double> transmission;
+  bool transmission_from_gates = false;
   std::optional<Regime> regime;
   SourceLocation where;
 };

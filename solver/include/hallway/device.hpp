@@ -18,6 +18,7 @@
 #include "hallway/network.hpp"
 #include "hallway/noise.hpp"
 #include "hallway/paths.hpp"
+#include "hallway/saddle_model.hpp"
 #include "hallway/transport.hpp"
 
 namespace hallway {
@@ -28,6 +29,9 @@ struct DeviceOptions {
   bool bare_estimate = false;
   ElectrostaticsOptions electrostatics;
   NetworkOptions network;  // its density is set by the device
+  // Model also the constrictions whose transmissions the design declares, and warn where the gates
+  // contradict them (saddle_model.hpp); `transmission: from-gates` constrictions are always modelled.
+  bool check_declared_transmissions = true;
   // Where the self-consistent solve starts (a nearby solution of the same grid); null: from scratch.
   const DensityMap* start = nullptr;
   bool IsValid(std::string* why) const;
@@ -42,7 +46,11 @@ struct DeviceSummary {
   bool warm_started = false;      // the self-consistent solve started from DeviceOptions::start
   std::string boundary_model;     // how the channel boundaries were found (ChannelGeometry::model)
   std::optional<ElectrostaticsStats> electrostatics;  // absent under the bare estimate
-  std::vector<Finding> findings;  // design checks, electrostatics, channel geometry, in that order
+  // Per constriction: the transmissions used and where they came from (the design, or the gates
+  // through the saddle-point model on the window potential, or the bare one under the bare estimate).
+  std::vector<ConstrictionTransmission> transmissions;
+  // design checks, electrostatics, transmissions from the gates, channel geometry, in that order
+  std::vector<Finding> findings;
 };
 
 // The caches make a const Device unsafe to share between threads without a lock; give each thread
@@ -73,6 +81,7 @@ class Device {
 
  private:
   void require_usable() const;
+  bool resolve_transmissions();  // false on an error finding
   Design design_;
   DeviceOptions options_;
   CheckResult check_;
