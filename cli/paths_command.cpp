@@ -82,7 +82,16 @@ json PathsJson(const Design& d, const EdgeNetwork& net, const PathResult& r) {
                        {"from", d.constrictions[static_cast<std::size_t>(s.source)].name},
                        {"to", d.constrictions[static_cast<std::size_t>(s.target)].name},
                        {"distance_m", s.distance_m},
-                       {"beyond_relaxation_length", s.beyond_relaxation}});
+                       {"time_of_flight_s", s.time_of_flight_s},
+                       {"thermal_length_m", s.thermal_length_m},
+                       {"relaxation_length_m", s.relaxation_length_m},
+                       {"beyond_relaxation_length", s.beyond_relaxation},
+                       {"interferometer_arm", s.loop.has_value()},
+                       {"loop", s.loop ? json(*s.loop + 1) : json(nullptr)},
+                       {"path_difference_m", s.loop ? json(s.path_difference_m) : json(nullptr)},
+                       {"path_thermal_length_m", s.loop ? json(s.path_thermal_length_m) : json(nullptr)},
+                       {"thermal_visibility", s.loop ? json(s.visibility) : json(nullptr)},
+                       {"beyond_thermal_length", s.beyond_thermal_length}});
   json floats = json::array();
   for (const FloatHeating& f : r.floats)
     floats.push_back({{"contact", d.contacts[static_cast<std::size_t>(f.contact)].name},
@@ -92,6 +101,7 @@ json PathsJson(const Design& d, const EdgeNetwork& net, const PathResult& r) {
           {"loops", loops},
           {"constriction_models", models},
           {"source_paths", sources},
+          {"relaxation_rule", r.relaxation_rule},
           {"floating_contacts", floats},
           {"velocity_model", r.velocity_model}};
 }
@@ -116,6 +126,26 @@ bool ParsePathOptions(const PathsArgs& args, std::size_t max_memory, PathOptions
     return false;
   }
   return true;
+}
+
+// One source path: distance, time of flight and thermal length; against the relaxation rule of thumb,
+// or for an interferometer arm against the thermal length with its visibility factor.
+std::string SourcePathLine(const Design& d, const PathResult& r, const SourcePath& s) {
+  std::string out = fmt::format("  channel {}: {} -> {}: {}, flight {}, hbar v/kT {}", s.channel + 1,
+                                d.constrictions[static_cast<std::size_t>(s.source)].name,
+                                d.constrictions[static_cast<std::size_t>(s.target)].name, FormatSI(s.distance_m, "m"),
+                                FormatSI(s.time_of_flight_s, "s"), FormatSI(s.thermal_length_m, "m"));
+  if (!s.loop)
+    return out + (s.beyond_relaxation ? "  (beyond the relaxation length, a rule of thumb)\n"
+                                      : "  (within the relaxation length, a rule of thumb)\n");
+  std::string qs;
+  for (int q : r.loops[static_cast<std::size_t>(*s.loop)].constrictions)
+    qs += (qs.empty() ? "" : ", ") + d.constrictions[static_cast<std::size_t>(q)].name;
+  return out + fmt::format(
+                   "\n    interferometer arm of the loop through {}: no relaxation check; path difference {} {} "
+                   "the thermal length {}, visibility factor X/sinh X = {:.3g}\n",
+                   qs, FormatSI(s.path_difference_m, "m"), s.beyond_thermal_length ? "exceeds" : "is within",
+                   FormatSI(s.path_thermal_length_m, "m"), s.visibility);
 }
 
 std::string PathsText(const Design& d, const ChannelGeometry& geometry, const std::string& es_note,
@@ -157,12 +187,8 @@ std::string PathsText(const Design& d, const ChannelGeometry& geometry, const st
         "docs/models.md \"Aharonov-Bohm period and charging\")\n";
   }
   if (!r.source_paths.empty()) {
-    out += "\nSource constriction to splitter or collider\n";
-    for (const SourcePath& s : r.source_paths)
-      out += fmt::format("  channel {}: {} -> {}: {}{}\n", s.channel + 1,
-                         d.constrictions[static_cast<std::size_t>(s.source)].name,
-                         d.constrictions[static_cast<std::size_t>(s.target)].name, FormatSI(s.distance_m, "m"),
-                         s.beyond_relaxation ? "  (beyond the relaxation length)" : "");
+    out += "\nSource constriction to splitter or collider\n  " + r.relaxation_rule + "\n";
+    for (const SourcePath& s : r.source_paths) out += SourcePathLine(d, r, s);
   }
   if (!r.floats.empty()) {
     out += "\nFloating contacts (Joule heating at the design bias, phonon cooling neglected)\n";

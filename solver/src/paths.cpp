@@ -6,6 +6,7 @@
 #include <Eigen/Sparse>
 #include <algorithm>
 #include <cmath>
+#include <cstdio>
 #include <numbers>
 #include <stdexcept>
 
@@ -52,6 +53,10 @@ double SaddleTransmission(double energy, double x, double y, double c, int n) {
   SaddleEnergies(x, y, c, &e1, &e2);
   const double eps = (energy - e2 * (n + 0.5)) / e1;
   return 1.0 / (1.0 + std::exp(-std::numbers::pi * eps));
+}
+
+double RelaxationRuleOfThumb_m(const Fraction& filling) {
+  return filling.is_integer() && filling.num >= 2 ? 1e-6 : 3e-6;
 }
 
 double ThermalVisibility(double dl, double v, double temperature) {
@@ -106,10 +111,6 @@ std::vector<double> TransverseLevels_J(const std::vector<double>& u_J, double dx
 }
 
 namespace {
-
-double default_relaxation(const Design& d) {
-  return d.conditions.filling.is_integer() && d.conditions.filling.num >= 2 ? 1e-6 : 3e-6;
-}
 
 // |grad U| / (e |B|) at p from the map (U = E_F0 * energy_over_fermi).
 double drift_at(const DensityMap& m, double ef0, double field, Point p) {
@@ -233,27 +234,104 @@ void measure_loops(PathsContext& ctx) {
   }
 }
 
-// Source constriction -> splitter or collider paths, with a warning beyond the relaxation length.
+// The loop (index in r.loops) a piece is an arm of: it lies on the loop, or joins two of its
+// constrictions (e.g. the two constrictions of a Fabry-Perot cavity).
+std::optional<int> arm_of(const PathResult& r, const EdgePiece& e, int piece) {
+  for (std::size_t i = 0; i < r.loops.size(); ++i) {
+    const LoopMetrics& l = r.loops[i];
+    if (l.closed_edge || l.channel != e.channel) continue;
+    const auto has = [&](int q) {
+      return std::find(l.constrictions.begin(), l.constrictions.end(), q) != l.constrictions.end();
+    };
+    const bool on_loop = std::find(l.pieces.begin(), l.pieces.end(), piece) != l.pieces.end();
+    if (on_loop || (has(e.from.index) && has(e.to.index))) return static_cast<int>(i);
+  }
+  return std::nullopt;
+}
+
+// An interferometer arm: the path difference (the loop's round trip when the piece lies on it), the
+// thermal length at the mean velocity over it, the visibility X / sinh X, and a warning beyond it.
+void judge_arm(PathsContext& ctx, SourcePath& sp) {
+  const Design& d = ctx.d;
+  const LoopMetrics& l = ctx.r.loops[static_cast<std::size_t>(*sp.loop)];
+  const PieceMetrics& pm = ctx.r.pieces[static_cast<std::size_t>(sp.piece)];
+  const bool on_loop = std::find(l.pieces.begin(), l.pieces.end(), sp.piece) != l.pieces.end();
+  double length = pm.length_m, tof = pm.time_of_flight_s;
+  if (on_loop) {
+    length = l.length_m;
+    tof = 0.0;
+    for (int p : l.pieces) tof += ctx.r.pieces[static_cast<std::size_t>(p)].time_of_flight_s;
+  }
+  // The loop's round trip at the loop's mean velocity: the same v as measure_loops, so the visibility
+  // is the loop's own number.
+  const double v = tof > 0.0 ? length / tof : ctx.opt.default_velocity_m_per_s;
+  sp.path_difference_m = length;
+  sp.path_thermal_length_m = kHbar_Js * v / (kBoltzmann_J_per_K * d.conditions.temperature_K);
+  sp.visibility = on_loop ? l.visibility : ThermalVisibility(length, v, d.conditions.temperature_K);
+  sp.beyond_thermal_length = length > sp.path_thermal_length_m;
+  if (!sp.beyond_thermal_length) return;
+  const auto g4 = [](double x, const char* f) {
+    char b[32];
+    std::snprintf(b, sizeof b, f, x);
+    return std::string(b);
+  };
+  const auto um = [&](double x) { return g4(x * 1e6, "%.4g"); };
+  ctx.r.findings.push_back(
+      {Severity::kWarning, "arm-thermal",
+       "the interferometer arm from constriction " + d.constrictions[static_cast<std::size_t>(sp.source)].name +
+           " to " + d.constrictions[static_cast<std::size_t>(sp.target)].name + " (channel " +
+           std::to_string(sp.channel + 1) + ", " + um(sp.distance_m) + " um) has a path difference of " + um(length) +
+           " um, beyond the thermal length hbar v / k_B T = " + um(sp.path_thermal_length_m) +
+           " um: thermal smearing alone leaves the visibility factor X / sinh X = " + g4(sp.visibility, "%.3g") +
+           " (docs/models.md \"Edge velocity and lengths\")",
+       d.constrictions[static_cast<std::size_t>(sp.target)].where});
+}
+
+// Source constriction -> splitter or collider paths: time of flight and thermal length beside each
+// distance; a warning beyond the relaxation rule of thumb, or for an interferometer arm beyond the
+// thermal length instead.
 void find_source_paths(PathsContext& ctx) {
   const Design& d = ctx.d;
   const PathOptions& opt = ctx.opt;
-  const double relax = opt.relaxation_length_m > 0.0 ? opt.relaxation_length_m : default_relaxation(d);
-  for (const EdgePiece& e : ctx.net.pieces) {
+  const double relax =
+      opt.relaxation_length_m > 0.0 ? opt.relaxation_length_m : RelaxationRuleOfThumb_m(d.conditions.filling);
+  ctx.r.relaxation_length_m = relax;
+  ctx.r.relaxation_rule =
+      "relaxation length " + std::to_string(relax * 1e6).substr(0, 4) + " um, a rule of thumb (common practice" +
+      (opt.relaxation_length_m > 0.0 ? ", set by the user" : ": 1 um at integer fillings >= 2, 3 um otherwise") +
+      "): energy relaxation by neutral modes or edge reconstruction over a few micrometres, no published distance "
+      "law for this model; interferometer arms are compared with the thermal length instead (docs/models.md "
+      "\"Edge velocity and lengths\")";
+  for (std::size_t p = 0; p < ctx.net.pieces.size(); ++p) {
+    const EdgePiece& e = ctx.net.pieces[p];
     if (e.from.kind != EdgeEnd::Kind::kConstriction || e.to.kind != EdgeEnd::Kind::kConstriction ||
         e.from.index == e.to.index)
       continue;
     const double t =
         d.constrictions[static_cast<std::size_t>(e.to.index)].transmission[static_cast<std::size_t>(e.channel)];
     if (!(t > 0.0 && t < 1.0)) continue;
-    SourcePath sp{e.channel, e.from.index, e.to.index, e.length_m, e.length_m > relax};
-    if (sp.beyond_relaxation)
+    const PieceMetrics& pm = ctx.r.pieces[p];
+    SourcePath sp;
+    sp.channel = e.channel;
+    sp.source = e.from.index;
+    sp.target = e.to.index;
+    sp.piece = static_cast<int>(p);
+    sp.distance_m = e.length_m;
+    sp.time_of_flight_s = pm.time_of_flight_s;
+    sp.thermal_length_m = pm.thermal_length_m;
+    sp.relaxation_length_m = relax;
+    sp.loop = arm_of(ctx.r, e, sp.piece);
+    if (sp.loop) {
+      judge_arm(ctx, sp);
+    } else if ((sp.beyond_relaxation = e.length_m > relax)) {
       ctx.r.findings.push_back(
           {Severity::kWarning, "path-long",
            "the edge from constriction " + d.constrictions[static_cast<std::size_t>(sp.source)].name + " to " +
                d.constrictions[static_cast<std::size_t>(sp.target)].name + " (channel " +
                std::to_string(e.channel + 1) + ") is " + std::to_string(e.length_m * 1e6).substr(0, 5) +
-               " um long, beyond the relaxation length of " + std::to_string(relax * 1e6).substr(0, 4) + " um",
+               " um long, beyond the " + ctx.r.relaxation_rule,
            d.constrictions[static_cast<std::size_t>(sp.target)].where});
+    }
     ctx.r.source_paths.push_back(sp);
   }
 }

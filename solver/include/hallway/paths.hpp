@@ -9,7 +9,12 @@
 // when a gate covers most of it; docs/models.md, Aharonov-Bohm period and charging) against k_B T, and
 // the thermal visibility factor X / sinh X, X = pi k_B T dL / (hbar v), for the round trip dL = loop
 // length (docs/models.md, Edge velocity and lengths).
-// Source constriction -> collider/splitter: the distance along the edge, against a relaxation length.
+// Source constriction -> collider/splitter: the distance along the edge with its time of flight and
+// thermal length, against a relaxation length that is a rule of thumb (common practice: energy
+// relaxation by neutral modes or edge reconstruction over a few micrometres; no published distance law
+// for the model in use). A path that is an arm of an interferometer loop is compared instead with the
+// thermal length, through the visibility factor X / sinh X of its path difference (docs/models.md,
+// Edge velocity and lengths).
 // Floating contacts: Joule power (e^2/2h) sum g (mu_in - V_f)^2 and the electron temperature from
 // P = N_out (pi^2 k_B^2 / 6h)(T_f^2 - T^2), phonons neglected (docs/models.md, Floating contacts;
 // Jezouin et al., Science 342, 601 (2013)).
@@ -35,9 +40,12 @@ struct PathOptions {
   // Used without a density map: within the 1e4-1e5 m/s of GaAs edges (docs/models.md, Edge velocity and
   // lengths; from memory).
   double default_velocity_m_per_s = 2e4;
-  // Source-to-splitter distance beyond which the non-equilibrium distribution relaxes: 1 um for
-  // integer fillings >= 2 (judgement on le Sueur et al., Phys. Rev. Lett. 105, 056803 (2010)), 3 um
-  // otherwise (judgement, docs/models.md, Edge velocity and lengths); 0: these defaults.
+  // Rule of thumb (common practice, not a published distance law): a source-to-splitter distance beyond
+  // which the non-equilibrium distribution sent out by a source constriction is taken to have relaxed,
+  // by energy exchange with neutral modes or a reconstructed edge over a few micrometres. Default
+  // (RelaxationRuleOfThumb_m): 1 um for integer fillings >= 2 (a conservative reading of le Sueur et
+  // al., Phys. Rev. Lett. 105, 056803 (2010)), 3 um otherwise; 0: that default. Never applied to an arm
+  // of an interferometer loop (docs/models.md, Edge velocity and lengths).
   double relaxation_length_m = 0.0;
   // Most negative gate voltage to suggest; nothing: the design's conditions.gate_voltage_min_V (design.hpp).
   std::optional<double> gate_voltage_limit_V;
@@ -74,8 +82,21 @@ struct LoopMetrics {
 struct SourcePath {
   int channel = 0;
   int source = 0, target = 0;  // constrictions
+  int piece = 0;               // the edge piece (PathResult::pieces)
   double distance_m = 0.0;
-  bool beyond_relaxation = false;
+  double time_of_flight_s = 0.0;     // of the piece (PieceMetrics)
+  double thermal_length_m = 0.0;     // hbar v / k_B T of the piece (PieceMetrics)
+  double relaxation_length_m = 0.0;  // the rule of thumb compared with (PathResult::relaxation_length_m)
+  bool beyond_relaxation = false;    // distance > relaxation length; never on an interferometer arm
+  // Interferometer arm: the loop (PathResult::loops) the piece lies on, or whose constrictions it joins.
+  std::optional<int> loop;
+  // Arm only: the path difference of the interference term (the loop's length when the piece lies on
+  // the loop, else the arm's own length), the thermal length hbar v / k_B T at the velocity over that
+  // path, and X / sinh X (ThermalVisibility) for it.
+  double path_difference_m = 0.0;
+  double path_thermal_length_m = 0.0;
+  double visibility = 1.0;
+  bool beyond_thermal_length = false;  // arm: path difference > path_thermal_length_m
 };
 
 struct FloatHeating {
@@ -110,11 +131,16 @@ struct PathResult {
   std::vector<FloatHeating> floats;
   std::vector<ConstrictionModel> constrictions;
   std::string velocity_model;
+  double relaxation_length_m = 0.0;  // the rule of thumb in use (PathOptions::relaxation_length_m)
+  std::string relaxation_rule;       // what it is and why (printed by every output)
   std::vector<Finding> findings;
 };
 
 // Saddle-point transmission of subband n with spin sign s (+1, -1) at E - V0 = energy_J (Büttiker 1990).
 double SaddleTransmission(double energy_J, double hbar_omega_x_J, double hbar_omega_y_J, double hbar_omega_c_J, int n);
+// The default relaxation length, a rule of thumb (common practice; PathOptions::relaxation_length_m):
+// 1 um at integer fillings >= 2, 3 um otherwise.
+double RelaxationRuleOfThumb_m(const Fraction& filling);
 // X / sinh X with X = pi k_B T dL / (hbar v) (docs/models.md, Edge velocity and lengths).
 double ThermalVisibility(double path_difference_m, double velocity_m_per_s, double temperature_K);
 // Self-capacitance of an island of area A: the plate eps_r eps_0 A / d under a gate, otherwise the
