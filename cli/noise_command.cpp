@@ -21,6 +21,7 @@
 #include "output.hpp"
 #include "transmissions.hpp"
 #include "progress.hpp"
+#include "residue.hpp"
 
 namespace hallway::cli {
 namespace {
@@ -94,19 +95,16 @@ std::string sci(double x) {
   return fmt::format("{:.4e}", x);
 }
 std::string opt_time(const std::optional<double>& t) {
-  if (!t) return "no signal";
-  if (*t < 60) return FormatSI(*t, "s");
-  if (*t < 3600) return fmt::format("{:.3g} min", *t / 60);
-  return fmt::format("{:.3g} h", *t / 3600);
+  return FormatDuration(t);
 }
 
-void print_matrix(std::string& out, const Design& d, const Matrix& m) {
+void print_matrix(std::string& out, const Design& d, const Matrix& m, double scale) {
   out += fmt::format("    {:>8}", "");
   for (const Contact& c : d.contacts) out += fmt::format(" {:>11}", c.name);
   out += "\n";
   for (std::size_t i = 0; i < m.size(); ++i) {
     out += fmt::format("    {:>8}", d.contacts[i].name);
-    for (double x : m[i]) out += fmt::format(" {:>11.3e}", std::abs(x) < 1e-45 ? 0.0 : x);
+    for (double x : m[i]) out += fmt::format(" {:>11.3e}", WithoutResidue(x, scale));
     out += "\n";
   }
 }
@@ -156,10 +154,11 @@ std::string ColliderText(const Design& d, const ColliderPrediction& c) {
 
 std::string print_noise(const Design& d, const NoiseResult& n) {
   std::string out = fmt::format("\nAt B = {:+.4g} T\n", n.field_T);
+  const double scale = MatrixScale(n.total_A2_per_Hz);  // residue.hpp: below 1e-10 of it is 0
   out += "  excess current noise S_exc (A^2/Hz; total minus zero bias at the same temperature)\n";
-  print_matrix(out, d, n.excess_A2_per_Hz);
+  print_matrix(out, d, n.excess_A2_per_Hz, scale);
   out += "  total current noise (A^2/Hz)\n";
-  print_matrix(out, d, n.total_A2_per_Hz);
+  print_matrix(out, d, n.total_A2_per_Hz, scale);
   for (const CoherentLoop& l : n.loops) {
     std::string qs;
     for (int q : l.constrictions) qs += (qs.empty() ? "" : ", ") + d.constrictions[static_cast<std::size_t>(q)].name;
@@ -171,11 +170,14 @@ std::string print_noise(const Design& d, const NoiseResult& n) {
     out += fmt::format("    {:<8} {:>11} {:>11} {:>12} {:>12} {:>12} {:>9} {:>14}\n", "contact", "R sample", "R eff",
                        "S_exc A2/Hz", "signal V2/Hz", "floor V2/Hz", "SNR", "time for target");
     for (const AmplifierNoise& a : n.amplifiers)
-      out += fmt::format("    {:<8} {:>11} {:>11} {:>12} {:>12} {:>12} {:>9.3g} {:>14}\n",
+      out += fmt::format("    {:<8} {:>11} {:>11} {:>12} {:>12} {:>12} {:>9} {:>14}\n",
                          d.contacts[static_cast<std::size_t>(a.contact)].name,
                          std::isfinite(a.sample_resistance_Ohm) ? FormatSI(a.sample_resistance_Ohm, "Ohm") : "open",
-                         FormatSI(a.effective_resistance_Ohm, "Ohm"), sci(a.excess_current_A2_per_Hz),
-                         sci(a.signal_V2_per_Hz), sci(a.floor_V2_per_Hz), a.snr, opt_time(a.time_for_target_s));
+                         FormatSI(a.effective_resistance_Ohm, "Ohm"),
+                         sci(WithoutResidue(a.excess_current_A2_per_Hz, scale)),
+                         sci(WithoutResidueOf(a.signal_V2_per_Hz, a.excess_current_A2_per_Hz, scale)),
+                         sci(a.floor_V2_per_Hz), FormatSnr(a.snr, a.excess_current_A2_per_Hz, scale),
+                         FormatSignalTime(a.time_for_target_s, a.excess_current_A2_per_Hz, scale));
     for (const AmplifierNoise& a : n.amplifiers)
       out +=
           fmt::format("    {}: load at {}{}{}\n", d.contacts[static_cast<std::size_t>(a.contact)].name,
@@ -184,10 +186,13 @@ std::string print_noise(const Design& d, const NoiseResult& n) {
                                                      : " (amplifier.load_temperature)",
                       a.reference_subtraction ? "; on/off reference subtraction: twice the variance" : "");
     for (const CrossNoise& c : n.cross)
-      out += fmt::format("    cross {}-{}: S_exc {} A^2/Hz, signal {} V^2/Hz, SNR {:.3g}, time for target {}\n",
+      out += fmt::format("    cross {}-{}: S_exc {} A^2/Hz, signal {} V^2/Hz, SNR {}, time for target {}\n",
                          d.contacts[static_cast<std::size_t>(c.first)].name,
-                         d.contacts[static_cast<std::size_t>(c.second)].name, sci(c.excess_current_A2_per_Hz),
-                         sci(c.signal_V2_per_Hz), c.snr, opt_time(c.time_for_target_s));
+                         d.contacts[static_cast<std::size_t>(c.second)].name,
+                         sci(WithoutResidue(c.excess_current_A2_per_Hz, scale)),
+                         sci(WithoutResidueOf(c.signal_V2_per_Hz, c.excess_current_A2_per_Hz, scale)),
+                         FormatSnr(c.snr, c.excess_current_A2_per_Hz, scale),
+                         FormatSignalTime(c.time_for_target_s, c.excess_current_A2_per_Hz, scale));
   }
   for (const ColliderPrediction& c : n.colliders) out += ColliderText(d, c);
   return out;
@@ -292,7 +297,8 @@ std::string sweep_csv(const Device& device, FieldSign sign, const NoiseOptions& 
   const Progress progress("noise sweep", sweep.points, quiet);
   for (int k = 0; k < sweep.points; ++k) {
     progress.Step(k, "bias point");
-    const double x = sweep.points == 1 ? sweep.from : sweep.from + (sweep.to - sweep.from) * k / (sweep.points - 1);
+    const double x = RoundGridValue(sweep.points == 1 ? sweep.from
+                                                      : sweep.from + (sweep.to - sweep.from) * k / (sweep.points - 1));
     std::vector<double> biases;
     for (double r : sweep.ratio) biases.push_back(x * r);
     const BiasPoint point = SolveAtBias(device, sign, sweep.contacts, biases, noise ? &opt : nullptr);

@@ -17,6 +17,7 @@
 #include "hallway/wiring.hpp"
 #include "json_parts.hpp"
 #include "output.hpp"
+#include "residue.hpp"
 #include "transmissions.hpp"
 
 namespace hallway::cli {
@@ -155,9 +156,13 @@ void print_channels(std::string& out, const Design& d, const ChannelGeometry& ge
                        cr.channel + 1, d.channels[static_cast<std::size_t>(cr.channel)].conductance.ToString(), refl,
                        pass, cr.region.Area() * 1e12);
   }
+  const double vdep =
+      DeriveFigures(d.heterostructure, d.conditions.field_T, d.conditions.temperature_K).depletion_voltage_V;
   for (std::size_t i = 0; i < d.gates.size(); ++i)
     out += fmt::format("  gate {}: bare lateral depletion estimate {}, local filling under it {:.3g}\n",
-                       d.gates[i].name, FormatSI(geometry.lateral_depletion_m[i], "m"), geometry.local_filling[i]);
+                       d.gates[i].name,
+                       FormatLateralDepletion(geometry.lateral_depletion_m[i], d.gates[i].voltage_V <= vdep),
+                       geometry.local_filling[i]);
 }
 
 void print_changes(std::string& out, const Design& d, const TransportResult& a, const TransportResult& b) {
