@@ -514,13 +514,14 @@ WiringVerdict bare_verdict(const Design& d, const CheckResult& r) {
 
 // Transmissions from the gates (written into the design) and the gate settings for the declared ones;
 // their findings join the checks'.
-GateView gate_view(Design* d, CheckResult* r) {
+GateView gate_view(Design* d, CheckResult* r, bool settings) {
   GateView g;
   if (!r->ok() || d->constrictions.empty()) return g;
   try {
     GateTransmissionOptions go;
     g.transmissions = ResolveGateTransmissions(d, go, &r->findings);
-    if (r->ok()) g.settings = GateSettings(*d, SaddlePotential::kSelfConsistentWindow, go.electrostatics);
+    if (r->ok() && settings)
+      g.settings = GateSettings(*d, SaddlePotential::kSelfConsistentWindow, go.electrostatics);
   } catch (const GridTooLarge& e) {
     g.not_modelled = std::string("not computed (") + e.what() + ")";
     g.transmissions.clear();
@@ -537,16 +538,28 @@ GateView gate_view(Design* d, CheckResult* r) {
 
 }  // namespace
 
+CheckRun RunCheckOn(Design* d, bool gate_settings) {
+  CheckRun run;
+  run.result = CheckDesign(*d);
+  const GateView gv = gate_view(d, &run.result, gate_settings);
+  const WiringVerdict v = bare_verdict(*d, run.result);
+  run.text = render_text(*d, run.result, &v, &gv);
+  if (!gate_settings && run.result.ok() && !d->constrictions.empty())
+    run.text += "\n(`hallway check --gate-settings` adds the gate voltage each constriction needs for its declared "
+                "transmissions)\n";
+  run.json = render_json(*d, run.result, &v, &gv);
+  return run;
+}
+
 int RunCheck(const CheckArgs& args) {
   Design d;
   if (int code = 0; !LoadOrReport(args.design_path, &d, &code)) return code;
-  CheckResult r = CheckDesign(d);
-  const GateView gv = gate_view(&d, &r);
-  const WiringVerdict v = bare_verdict(d, r);
-  std::cout << render_text(d, r, &v, &gv);
+  const CheckRun run = RunCheckOn(&d, args.gate_settings);
+  const CheckResult& r = run.result;
+  std::cout << run.text;
   if (!args.json_path.empty()) {
     try {
-      WriteFileAtomically(args.json_path, render_json(d, r, &v, &gv), {args.design_path});
+      WriteFileAtomically(args.json_path, run.json, {args.design_path});
     } catch (const OutputError& e) {
       std::cerr << "hallway: output error: " << e.what() << "\n";
       return kExitOutputError;

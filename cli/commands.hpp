@@ -9,6 +9,7 @@ namespace hallway::cli {
 struct CheckArgs {
   std::string design_path;
   std::string json_path;  // empty: no JSON
+  bool gate_settings = false;  // the gate voltages for the declared transmissions
 };
 
 // Loads and checks a design, prints the summary on stdout and findings, returns an exit code.

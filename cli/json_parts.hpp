@@ -17,6 +17,15 @@ namespace hallway::cli {
 nlohmann::json PathsJson(const Design& design, const EdgeNetwork& network, const PathResult& paths);
 // What `hallway check --json` writes.
 std::string CheckJsonText(const Design& design, const CheckResult& check);
+// `hallway check` on a loaded design: the checks, the transmissions from the gates (written into the
+// design; their findings join the checks'), with gate_settings the gate voltage each constriction needs
+// for its declared transmissions (a bisection of window solves per channel), the wiring on the bare
+// edges; the text it prints and the JSON it writes. Shared by the CLI and the Python module.
+struct CheckRun {
+  CheckResult result;
+  std::string text, json;
+};
+CheckRun RunCheckOn(Design* design, bool gate_settings);
 // One field direction of `hallway solve --json`.
 nlohmann::json TransportJson(const Design& design, const EdgeNetwork& network, const TransportResult& transport);
 // The body of `hallway noise --json`.

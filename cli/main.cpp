@@ -23,6 +23,9 @@ void AddCheck(CLI::App& app, CheckArgs& a) {
   CLI::App* c = app.add_subcommand("check", "Read a design, derive the wafer figures and check layout and wiring");
   c->add_option("design", a.design_path, "Design file (YAML)")->required();
   c->add_option("--json", a.json_path, kJsonHelp);
+  c->add_flag("--gate-settings", a.gate_settings,
+              "Also the gate voltage each constriction needs for its declared transmissions (saddle-point model on "
+              "the self-consistent window potential; a few seconds per constriction)");
 }
 
 void AddSolve(CLI::App& app, SolveArgs& a) {
@@ -72,7 +75,9 @@ void AddPaths(CLI::App& app, PathsArgs& a) {
   pa->add_flag("--fast", a.fast, "Bare-potential channel boundaries and a fixed drift velocity");
   pa->add_option("--target", a.target,
                  "Transmission to reach at every constriction, instead of the design's (0..1)");
-  pa->add_option("--gate-limit", a.gate_limit, "Most negative gate voltage to allow, e.g. '-1.5 V' (default -2 V)");
+  pa->add_option("--gate-limit", a.gate_limit,
+                 "Most negative gate voltage to suggest, e.g. '-1.5 V' (default: the design's "
+                 "conditions.gate_voltage_min, -2 V unless it says otherwise)");
   pa->add_option("--relaxation-length", a.relaxation_length,
                  "Source-to-splitter length that relaxes the beam, e.g. '1 um'");
 }

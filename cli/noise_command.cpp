@@ -410,13 +410,13 @@ int RunNoise(const NoiseArgs& args) {
   for (const auto& s : warnings) w.push_back(s);
   j["warnings"] = w;
   j["wiring_verdict"] = WiringVerdictJson(d, verdict);
+  j["constrictions"] = TransmissionsJson(d, device->summary().transmissions);
   if (!RequireFiniteJson(j, "the noise results")) return kExitInternal;
   std::cout << out;
 
   try {
     if (!args.csv_path.empty()) WriteFileAtomically(args.csv_path, csv, {args.design_path});
     if (!args.json_path.empty()) WriteFileAtomically(args.json_path, j.dump(2) + "\n", {args.design_path});
-  j["constrictions"] = TransmissionsJson(d, device->summary().transmissions);
   } catch (const OutputError& e) {
     std::cerr << "hallway: output error: " << e.what() << "\n";
     return kExitOutputError;

@@ -50,46 +50,6 @@ bool LoadOrReport(const std::string& path, Design* design, int* exit_code) {
   }
 }
 
-bool BuildGeometry(const Design& design, bool fast, ChannelGeometry* geometry, std::string* note, int* exit_code,
-                   DensityMap* map_out, std::size_t max_memory_bytes) {
-  if (fast) {
-    *geometry = BuildChannelGeometry(design);
-    *note += "  (--fast: bare-potential channel boundaries, no whole-mesa electrostatic solve)\n";
-    return true;
-  }
-  try {
-    const Progress progress("hallway", 1, false);
-    progress.Step(0, "self-consistent electrostatics");
-    ElectrostaticsOptions eo;
-    eo.max_memory_bytes = max_memory_bytes;
-    const ElectrostaticProblem problem(design, eo);
-    std::vector<double> volts;
-    for (const Gate& g : design.gates) volts.push_back(g.voltage_V);
-    const DensityMap map = problem.Solve(volts);
-    char buf[256];
-    std::snprintf(buf, sizeof buf,
-                  "  electrostatics: %d x %d cells of %.3g nm, %d operator applications, residual %.1e, %s, %.2g s\n",
-                  map.nx, map.ny, map.cell_m * 1e9, map.stats.operator_applications, map.stats.residual,
-                  map.stats.converged ? "converged" : "NOT converged", map.stats.seconds);
-    *note += buf;
-    if (!map.stats.converged) {
-      std::cerr << "hallway: resource limit: the electrostatic solve did not converge within "
-                << map.stats.operator_applications << " operator applications (residual " << map.stats.residual
-                << " of the ungated density); use --fast for the bare estimate\n";
-      *exit_code = kExitResourceLimit;
-      return false;
-    }
-    NetworkOptions options;
-    options.density = &map;
-    *geometry = BuildChannelGeometry(design, options);
-    if (map_out) *map_out = map;
-    return true;
-  } catch (const GridTooLarge& e) {
-    *exit_code = ReportGridTooLarge(e, GridAdvice::kFastOption);
-    return false;
-  }
-}
-
 bool BuildDevice(Design design, bool fast, std::size_t max_memory_bytes, std::optional<Device>* device,
                  std::string* note, int* exit_code) {
   DeviceOptions options;

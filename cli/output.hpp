@@ -35,15 +35,9 @@ class OutputError : public std::runtime_error {
 bool LoadOrReport(const std::string& path, Design* design, int* exit_code);
 // Prints the errors among `findings` as design errors; returns how many there were.
 int ReportErrors(const std::vector<Finding>& findings);
-// The channel regions for solve and noise: from the self-consistent density unless `fast`, in which
-// case the bare-potential estimate. Appends a line about the electrostatic solve to *note. Returns
-// false (with *exit_code) when the electrostatic solve fails or does not converge.
-bool BuildGeometry(const Design& design, bool fast, ChannelGeometry* geometry, std::string* note, int* exit_code,
-                   DensityMap* map_out = nullptr, std::size_t max_memory_bytes = kDefaultMaxMemoryBytes);
-
-// The device for solve, noise, paths and report (device.hpp): checks the design and prints its errors,
-// solves the electrostatics unless `fast`, builds the channel geometry, and appends a line about the
-// electrostatic solve to *note (the same line BuildGeometry writes). Returns false (with *exit_code)
+// The device for solve, noise, paths, sweep and report (device.hpp): checks the design and prints its
+// errors, solves the electrostatics unless `fast`, builds the channel geometry, and appends a line about
+// the electrostatic solve and the constrictions' transmissions to *note. Returns false (with *exit_code)
 // when the design fails its checks, the grid is too large or the solve does not converge.
 bool BuildDevice(Design design, bool fast, std::size_t max_memory_bytes, std::optional<Device>* device,
                  std::string* note, int* exit_code);

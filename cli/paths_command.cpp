@@ -175,7 +175,7 @@ std::string PathsText(const Design& d, const ChannelGeometry& geometry, const st
       out += fmt::format(
           "  channel {} {}: length {}, area {:.4g} um^2, AB period h/eA = {}, h/e*A = {}; E_C = {} ({:.3g} k_BT, {} "
           "island); "
-          "thermal visibility {:.3f}\n",
+          "thermal visibility {:.3g}\n",
           l.channel + 1, l.closed_edge ? "closed edge" : "through " + qs, FormatSI(l.length_m, "m"), l.area_m2 * 1e12,
           FormatSI(l.ab_period_T, "T"), FormatSI(l.ab_period_quasiparticle_T, "T"),
           FormatSI(l.charging_energy_J / constants::kElementaryCharge_C, "eV"), l.charging_energy_J / kt,

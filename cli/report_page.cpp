@@ -17,6 +17,7 @@
 #include "output.hpp"
 #include "report.hpp"
 #include "residue.hpp"
+#include "transmissions.hpp"
 
 namespace hallway::cli::report {
 
@@ -614,6 +615,8 @@ std::string channels_html(const ReportData& r) {
 std::string constriction_models_html(const ReportData& r) {
   const Design& d = r.d;
   std::string h = "<h3 id=\"constrictions\">Constriction models</h3>\n";
+  const std::string used = TransmissionsText(d, r.device.summary().transmissions);  // as `solve` prints it
+  if (!used.empty()) h += "<pre>" + esc(used.substr(1)) + "</pre>\n";
   h += model(
       "saddle point of the self-consistent potential in a window around each gap (solved also under --fast), "
       "Büttiker's saddle-point transmission",
@@ -661,11 +664,19 @@ std::string edges_html(const ReportData& r) {
   }
   h += pt.html();
   std::vector<std::string> items;
-  for (const SourcePath& s : r.paths.source_paths)
-    items.push_back(fmt::format("channel {}: {} -> {}: {}{}", s.channel + 1, constriction(d, s.source),
-                                constriction(d, s.target), FormatSI(s.distance_m, "m"),
-                                s.beyond_relaxation ? "  (beyond the relaxation length)" : ""));
-  if (!items.empty()) h += p("Source constriction to splitter or collider:") + list(items);
+  for (const SourcePath& s : r.paths.source_paths) {
+    std::string verdict =
+        s.loop ? fmt::format("interferometer arm: no relaxation check; path difference {} against the thermal "
+                             "length {}, visibility factor X/sinh X = {:.3g}",
+                             FormatSI(s.path_difference_m, "m"), FormatSI(s.path_thermal_length_m, "m"), s.visibility)
+               : fmt::format("against the rule of thumb {}{}", FormatSI(s.relaxation_length_m, "m"),
+                             s.beyond_relaxation ? " (beyond it)" : "");
+    items.push_back(fmt::format("channel {}: {} -> {}: {}, flight {}, hbar v/kT {}; {}", s.channel + 1,
+                                constriction(d, s.source), constriction(d, s.target), FormatSI(s.distance_m, "m"),
+                                FormatSI(s.time_of_flight_s, "s"), FormatSI(s.thermal_length_m, "m"), verdict));
+  }
+  if (!items.empty())
+    h += p("Source constriction to splitter or collider (" + r.paths.relaxation_rule + "):") + list(items);
   items.clear();
   for (const FloatHeating& f : r.paths.floats)
     items.push_back(contact(d, f.contact) + ": " + FormatSI(f.power_W, "W") + " dissipated, electron temperature " +

@@ -17,8 +17,8 @@
 #include "hallway/wiring.hpp"
 #include "json_parts.hpp"
 #include "output.hpp"
-#include "residue.hpp"
 #include "transmissions.hpp"
+#include "residue.hpp"
 
 namespace hallway::cli {
 namespace {
@@ -319,13 +319,13 @@ int RunSolve(const SolveArgs& args) {
     json gw = json::array();
     for (const Finding& f : device->summary().findings)
       gw.push_back({{"code", f.code}, {"severity", ToString(f.severity)}, {"message", f.message}});
+    j["constrictions"] = TransmissionsJson(d, device->summary().transmissions);
     for (auto& w : j["warnings"]) gw.push_back(w);
     j["warnings"] = gw;
     if (solved.size() == 2) j["reversed_field"] = field_json(d, solved[1]);
     j["wiring_verdict"] = WiringVerdictJson(d, verdict);
     // Path metrics and constriction models of the first field solved (hallway paths gives the same).
     PathOptions po;
-    j["constrictions"] = TransmissionsJson(d, device->summary().transmissions);
     po.max_memory_bytes = max_memory;
     PathResult paths =
         ComputePaths(d, solved.front().network, solved.front().transport, device->density(), po);

@@ -173,6 +173,26 @@ bool one_two_five(double step) {
   return false;
 }
 
+// The same for the layout maps of the test designs (the wiring cases: colliders with swapped or
+// floating contacts, a Hall bar, an island), in both field directions.
+TEST(FigureText, NoTextOverlapsTextOrDataInTheLayoutsOfTheTestDesigns) {
+  const fs::path dir = scratch();
+  int drawn = 0;
+  for (const auto& e : fs::directory_iterator(test::SourcePath("tests/data/wiring"))) {
+    if (e.path().extension() != ".yaml") continue;
+    const Design d = LoadDesign(e.path().string());
+    const ChannelGeometry g = BuildChannelGeometry(d);
+    const std::string name = e.path().filename().string();
+    for (double sign : {1.0, -1.0}) {
+      const EdgeNetwork net = TraceEdges(d, g, sign * d.conditions.field_T);
+      expect_clear(figures::DrawLayout(d, net, (dir / "t.png").string(), figures::Format::kPng, "edges"),
+                   name + (sign > 0 ? " layout +B" : " layout -B"));
+    }
+    ++drawn;
+  }
+  EXPECT_GE(drawn, 5);
+}
+
 TEST(FigureText, TicksFallOnOneTwoFiveStepsAndZeroIsWrittenZero) {
   const fs::path dir = scratch();
   // The collider curve's x range is symmetric about 0, where floating-point sums leave 1.11e-16.

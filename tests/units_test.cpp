@@ -19,6 +19,15 @@ TEST(Units, PrefixedLengthsAreConvertedToMetres) {
   EXPECT_TRUE(NearRel(Parse("3 cm", Kind::kLength), 3e-2, 1e-15));
 }
 
+// A prefixed value is the double nearest to the decimal the user wrote (IEEE 754 division by an exact
+// power of ten is correctly rounded), so JSON and CSV print 2e-05, not 1.9999999999999998e-05.
+TEST(Units, PrefixedValuesAreTheDoubleNearestTheDecimal) {
+  EXPECT_EQ(Parse("20 uV", Kind::kVoltage), 2e-05);
+  EXPECT_EQ(Parse("30 uV", Kind::kVoltage), 3e-05);
+  EXPECT_EQ(Parse("95 nm", Kind::kLength), 95e-9);
+  EXPECT_EQ(Parse("15 mK", Kind::kTemperature), 15e-3);
+}
+
 TEST(Units, SheetDensityInInverseSquareCentimetres) {
   // 1 cm^-2 = 1e4 m^-2 (definition of the centimetre).
   EXPECT_TRUE(NearRel(Parse("2.3e11 cm^-2", Kind::kSheetDensity), 2.3e15, 1e-14));

@@ -94,11 +94,15 @@ def parse_quantity(text: str) -> tuple:
     return _core.parse_quantity(text)
 
 
-def check(design: DesignLike) -> Record:
+def check(design: DesignLike, *, gate_settings: bool = False) -> Record:
     """`hallway check --json`: derived wafer figures (derived), channels, mesa, contacts, gates,
-    constrictions (gap_m, pinch_off_bare_V), wiring, errors and warnings (code, message, where), ok,
-    wiring_verdict. A design with errors is reported (ok False), not raised."""
-    return _wrap(_core.check(_design(design)))
+    constrictions (gap_m, pinch_off_bare_V, transmission_used, transmission_source, model,
+    gate_settings), wiring, errors and warnings (code, message, where), ok, wiring_verdict. A design
+    with errors is reported (ok False), not raised.
+
+    gate_settings: also the gate voltage each constriction needs for its declared transmissions
+    (--gate-settings; a few seconds per constriction)."""
+    return _wrap(_core.check(_design(design), gate_settings))
 
 
 def solve(design: DesignLike, *, fast: bool = False, field_reversed: bool = False,

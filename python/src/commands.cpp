@@ -112,63 +112,6 @@ json finding_json(const Finding& f) {
   return {{"code", f.code}, {"severity", ToString(f.severity)}, {"message", f.message}};
 }
 
-// cli/check_command.cpp bare_verdict: the wiring on the bare-potential edges, when the checks pass.
-WiringVerdict bare_verdict(const Design& d, const CheckResult& r) {
-  WiringVerdict v;
-  if (!r.ok()) {
-    v.not_assessed = "the design has errors (see Findings)";
-    return v;
-  }
-  try {
-    return AssessWiring(d, BuildChannelGeometry(d));
-  } catch (const std::runtime_error& e) {
-    v.not_assessed = std::string("the edges could not be traced: ") + e.what();
-    return v;
-  }
-}
-
-// cli/check_command.cpp gate_view: the transmissions from the gates (written into the design) and the
-// gate voltages for the declared transmissions; their findings join the checks'.
-struct GateView {
-  std::vector<ConstrictionTransmission> transmissions;
-  std::vector<GateSetting> settings;
-};
-
-GateView gate_view(Design* d, CheckResult* r) {
-  GateView g;
-  if (!r->ok() || d->constrictions.empty()) return g;
-  try {
-    GateTransmissionOptions go;
-    g.transmissions = ResolveGateTransmissions(d, go, &r->findings);
-    if (r->ok()) g.settings = GateSettings(*d, SaddlePotential::kSelfConsistentWindow, go.electrostatics);
-  } catch (const GridTooLarge& e) {
-    g = GateView{};
-    for (const Constriction& k : d->constrictions)
-      if (k.transmission_from_gates)
-        r->findings.push_back({Severity::kError, "transmission-model-failed",
-                               "constriction " + k.name + ": `transmission: from-gates`, but its window is too large "
-                                                          "to solve within the memory limit",
-                               k.where});
-  }
-  return g;
-}
-
-// cli/check_command.cpp gate_settings_json: each constriction's transmissions used, their source, the
-// model and the gate settings.
-void gate_settings_json(const Design& d, const GateView& g, json& constrictions) {
-  const json used = cli::TransmissionsJson(d, g.transmissions);
-  for (std::size_t i = 0; i < constrictions.size() && i < used.size(); ++i) {
-    json& x = constrictions[i];
-    for (const char* key : {"transmission_used", "transmission_source", "model"}) x[key] = used[i][key];
-    json settings = json::array();
-    for (const GateSetting& s : g.settings)
-      if (s.constriction == static_cast<int>(i))
-        settings.push_back({{"channel", s.channel + 1},
-                            {"transmission", s.target},
-                            {"voltage_V", s.voltage_V ? json(*s.voltage_V) : json(nullptr)}});
-    x["gate_settings"] = settings;
-  }
-}
 
 struct Field {
   const EdgeNetwork* network;
@@ -218,15 +161,9 @@ std::size_t ParseMemory(const std::string& text) {
   return bytes;
 }
 
-json CheckDocument(const Design& design) {
+json CheckDocument(const Design& design, bool gate_settings) {
   Design d = design;
-  CheckResult r = CheckDesign(d);
-  const GateView gv = gate_view(&d, &r);
-  const WiringVerdict verdict = bare_verdict(d, r);
-  json j = json::parse(cli::CheckJsonText(d, r));
-  if (j["constrictions"].is_array()) gate_settings_json(d, gv, j["constrictions"]);
-  j["wiring_verdict"] = cli::WiringVerdictJson(d, verdict);
-  return j;
+  return json::parse(cli::RunCheckOn(&d, gate_settings).json);  // exactly `hallway check --json`
 }
 
 json SolveDocument(const Design& design, const RunOptions& run, bool field_reversed) {

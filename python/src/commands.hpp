@@ -56,7 +56,7 @@ struct RunOptions {
 };
 
 // `hallway check --json`: the checks and the wiring verdict on the bare-potential edges.
-nlohmann::json CheckDocument(const Design& design);
+nlohmann::json CheckDocument(const Design& design, bool gate_settings);
 // `hallway solve --json` (--field-reversed: only the reversed field).
 nlohmann::json SolveDocument(const Design& design, const RunOptions& run, bool field_reversed);
 

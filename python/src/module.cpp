@@ -262,9 +262,9 @@ py::object released(const Work& work) {
 
 void bind_commands(py::module_& m) {
   // Options are parsed and the design copied with the GIL held; the work runs without it.
-  m.def("check", [](const DesignText& d) {
-    return released([design = d.design] { return CheckDocument(design); });
-  }, py::arg("design"));
+  m.def("check", [](const DesignText& d, bool gate_settings) {
+    return released([design = d.design, gate_settings] { return CheckDocument(design, gate_settings); });
+  }, py::arg("design"), py::arg("gate_settings"));
   m.def("solve", [](const DesignText& d, bool fast, bool field_reversed, const std::string& max_memory) {
     return released([run = run_options(fast, max_memory), design = d.design, field_reversed] {
       return SolveDocument(design, run, field_reversed);

@@ -260,7 +260,14 @@ Quantity parse_quantity(std::string_view text, const Dimension* want) {
   while (!rest.empty() && rest.front() == ' ') rest.remove_prefix(1);
   if (rest.empty()) return {value, kNone};
   Quantity u = parse_unit(rest, want, true);
-  const double v = value * u.value_si;
+  // A scale below 1 that is the reciprocal of a whole number (a power of ten such as 1e-6 for uV) is
+  // applied by dividing by that number, exact in floating point, so that "20 uV" is the double nearest
+  // to 2e-05 rather than 20 * 1e-6 = 1.9999999999999998e-05.
+  const double inverse = 1.0 / u.value_si;
+  const double whole = std::round(inverse);
+  const double v = u.value_si < 1.0 && whole >= 1.0 && std::abs(inverse - whole) <= 1e-9 * whole
+                       ? value / whole
+                       : value * u.value_si;
   if (!std::isfinite(v)) fail(text, "the value overflows in SI units");
   return {v, u.dimension};
 }
