@@ -90,7 +90,10 @@ std::string gate_settings_text(const Design& d, const GateView& g) {
                     s.voltage_V ? FormatSI(*s.voltage_V, "V") : "(not reached above " + FormatSI(s.floor_V, "V") + ")",
                     first ? fmt::format(" (design {})", FormatSI(first->voltage_V, "V")) : std::string()));
   }
-  out += "  These are estimates: approach them slowly, and never past the gates' leakage or breakdown onset.\n";
+  out += "  Found to 1 mV. In a strong field the model's steps can be narrower than that (Büttiker's E_1 shrinks as\n"
+         "  hbar w_x w_y / 2 W; measured risers are wider: disorder and the bias are not modelled), so read a value\n"
+         "  as the centre of the step. These are estimates: approach them slowly, and never past the gates'\n"
+         "  leakage or breakdown onset.\n";
   return out;
 }
 
@@ -171,7 +174,8 @@ std::string render_text(const Design& d, const CheckResult& r, const WiringVerdi
                       : std::string("; no bare pinch-off estimate (the gate potential at the saddle does not grow)");
         }
       row(out, k.name + " (" + k.first + " | " + k.second + ")",
-          fmt::format("gap {}{}; transmission [{}]", gap, pinch, t));
+          fmt::format("gap {}{}; transmission [{}]{}", gap, pinch, t,
+                      k.transmission_from_gates ? " (from the gates)" : ""));
     }
   }
 

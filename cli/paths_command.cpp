@@ -212,10 +212,14 @@ std::string PathsText(const Design& d, const ChannelGeometry& geometry, const st
       out += "\n";
       for (std::size_t ch = 0; ch < c.voltage_for_target_V.size(); ++ch) {
         const bool has_t = ch < c.transmission.size() && !std::isnan(c.transmission[ch]);
-        const double target = po.target_transmission.value_or(k.transmission[ch]);
+        // A from-gates constriction is searched at half transmission (saddle_model.hpp).
+        const double target = po.target_transmission.value_or(k.transmission_from_gates ? 0.5 : k.transmission[ch]);
         out += fmt::format("    channel {}: model transmission at the design voltages {}; {} {:.3g}{} reached at {}\n",
                            ch + 1, has_t ? fmt::format("{:.3f}", c.transmission[ch]) : std::string("n/a (fractional)"),
-                           po.target_transmission ? "target" : "design value", target,
+                           po.target_transmission        ? "target"
+                           : k.transmission_from_gates ? "half transmission"
+                                                       : "design value",
+                           target,
                            target > 0.99 ? " (searched as 0.99)" : target < 0.01 ? " (searched as 0.01)" : "",
                            c.voltage_for_target_V[ch] ? FormatSI(*c.voltage_for_target_V[ch], "V") : std::string("-"));
       }

@@ -630,7 +630,9 @@ std::string constriction_models_html(const ReportData& r) {
     std::string t, v;
     for (std::size_t ch = 0; ch < c.voltage_for_target_V.size(); ++ch) {
       const bool has_t = ch < c.transmission.size() && !std::isnan(c.transmission[ch]);
-      const double target = r.path_options.target_transmission.value_or(k.transmission[ch]);
+      // As paths searches it: a from-gates constriction at half transmission (saddle_model.hpp).
+      const double target =
+          r.path_options.target_transmission.value_or(k.transmission_from_gates ? 0.5 : k.transmission[ch]);
       t += (t.empty() ? "" : ", ") + (has_t ? fmt::format("{:.3f}", c.transmission[ch]) : "n/a (fractional)");
       v += (v.empty() ? "" : ", ") +
            fmt::format("{:.3g}{} at {}", target,

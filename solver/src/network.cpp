@@ -258,11 +258,15 @@ void CutConstrictions(GeometryBuild& b, std::size_t ch, double c, double level, 
     };
     const bool side_a = side_reflects(b.gate_index(k.first)), side_b = side_reflects(b.gate_index(k.second));
     const std::string chname = "channel " + std::to_string(ch + 1);
+    // Who set the transmission: the design, or the saddle-point model of its gates (saddle_model.hpp).
+    const std::string gives =
+        k.transmission_from_gates ? "the saddle-point model of its gates gives" : "the design gives";
+    const std::string used = k.transmission_from_gates ? "that value is used" : "the design's value is used";
     if (!side_a && !side_b) {
       if (t < 1.0)
         b.warn("constriction-passed-under",
                "constriction " + k.name + ": " + chname + " passes under both its gates (their local filling is above " +
-                   fmt_g(c) + "), but the design gives transmission " + fmt_g(t) + "; this channel ignores the constriction",
+                   fmt_g(c) + "), but " + gives + " transmission " + fmt_g(t) + "; this channel ignores the constriction",
                k.where);
       continue;
     }
@@ -274,13 +278,13 @@ void CutConstrictions(GeometryBuild& b, std::size_t ch, double c, double level, 
     if (!open && t > 0.0)
       b.warn("estimate-closes",
              "constriction " + k.name + ": " + model + " closes the gap for " + chname +
-                 " at the design voltages, but the design gives transmission " + fmt_g(t) +
-                 "; the design's value is used (the channel is let through the gap)",
+                 " at the design voltages, but " + gives + " transmission " + fmt_g(t) + "; " + used +
+                 " (the channel is let through the gap)",
              k.where);
     if (open && t == 0.0)
       b.warn("estimate-opens",
              "constriction " + k.name + ": " + model + " leaves the gap open for " + chname +
-                 ", but the design gives transmission 0; the design's value is used",
+                 ", but " + gives + " transmission 0; " + used,
              k.where);
     r = r.Union(Corridor(s, bare).Intersection(b.mesa)).Difference(Region(SlitOutline(s)));
     cr.slit_constrictions.push_back(static_cast<int>(ki));
