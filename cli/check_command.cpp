@@ -45,7 +45,7 @@ std::string optional_text(const std::optional<double>& x, const char* unit) {
 
 std::string describe_wiring(const Wiring& w) {
   switch (w.role) {
-    case Role::kSource: return "source, " + FormatSI(w.bias, w.bias_is_current ? "A" : "V");
+    case Role::kSource: return "source, " + (w.current_source ? FormatSI(w.bias_A, "A") : FormatSI(w.bias_V, "V"));
     case Role::kGround: return "cold ground";
     case Role::kFloat: return "floating ohmic (no net current)";
     case Role::kAmplifier: {
@@ -113,7 +113,7 @@ void gate_settings_json(const Design& d, const GateView& g, nlohmann::json& cons
 }
 
 std::string render_text(const Design& d, const CheckResult& r, const WiringVerdict* v, const GateView* gv) {
-  const auto& f = r.figures;
+  const auto& f = r.wafer;
   const auto& h = d.heterostructure;
   std::string out;
   out += fmt::format("hallway check  {}\n", d.path);
@@ -215,7 +215,7 @@ nlohmann::json polygon_json(const geometry::Polygon& p) {
 
 std::string render_json(const Design& d, const CheckResult& r, const WiringVerdict* v, const GateView* gv) {
   using nlohmann::json;
-  const auto& f = r.figures;
+  const auto& f = r.wafer;
   json j;
   j["hallway_check"] = 1;
   j["design"] = {{"path", d.path}, {"name", d.name}, {"format", d.format_version}};
@@ -289,7 +289,7 @@ std::string render_json(const Design& d, const CheckResult& r, const WiringVerdi
   json wiring = json::object();
   for (const Wiring& w : d.wiring) {
     json x = {{"role", ToString(w.role)}};
-    if (w.role == Role::kSource) x[w.bias_is_current ? "bias_A" : "bias_V"] = w.bias;
+    if (w.role == Role::kSource) x[w.current_source ? "bias_A" : "bias_V"] = w.bias_own_unit();
     if (w.amplifier)
       x["amplifier"] = {{"load_Ohm", w.amplifier->load_Ohm},
                         {"voltage_noise_V_per_rtHz", w.amplifier->voltage_noise_V_per_rtHz},
@@ -486,7 +486,8 @@ nlohmann::json WiringVerdictJson(const Design& d, const WiringVerdict& v) {
               {"purpose", r.purpose},
               {"current_A", r.current_A}};
     x["voltage_V"] = r.voltage_V ? json(*r.voltage_V) : json(nullptr);
-    if (r.bias) x[r.bias_is_current ? "bias_A" : "bias_V"] = *r.bias;
+    if (r.bias_V) x["bias_V"] = *r.bias_V;
+    if (r.bias_A) x["bias_A"] = *r.bias_A;
     card.push_back(x);
   }
   j["card"] = card;

@@ -53,8 +53,8 @@ std::string parse_sweep(const Design& d, const std::string& spec, const std::str
     const Wiring* w = d.FindWiring(name);
     if (!w) return "--sweep: no contact named '" + name + "'";
     if (w->role != Role::kSource) return "--sweep: contact " + name + " is not a source";
-    if (!sw->contacts.empty() && w->bias_is_current != is_current) return "--sweep: mix of voltage and current sources";
-    is_current = w->bias_is_current;
+    if (!sw->contacts.empty() && w->current_source != is_current) return "--sweep: mix of voltage and current sources";
+    is_current = w->current_source;
     sw->contacts.push_back(static_cast<int>(w - d.wiring.data()));
   }
   const auto parts = split(spec.substr(eq + 1), ':');
@@ -288,7 +288,7 @@ std::string sweep_csv(const Device& device, FieldSign sign, const NoiseOptions& 
   std::string csv = "point";
   for (int c : sweep.contacts)
     csv += fmt::format(",bias_{}_{}", d.contacts[static_cast<std::size_t>(c)].name,
-                       d.wiring[static_cast<std::size_t>(c)].bias_is_current ? "A" : "V");
+                       d.wiring[static_cast<std::size_t>(c)].current_source ? "A" : "V");
   for (const QuantityGroup* g : groups)
     for (const std::string& c : g->columns(d)) csv += "," + c;
   csv += "\n";

@@ -132,7 +132,7 @@ BiasScan bias_scan(const Device& device, const NoiseResult& design_noise, const 
     PointResults point{&d, &device.transport(), &design_noise, device.density(), nullptr};
     if (scale != 1.0) {
       std::vector<double> biases;
-      for (int s : sources) biases.push_back(d.wiring[static_cast<std::size_t>(s)].bias * scale);
+      for (int s : sources) biases.push_back(d.wiring[static_cast<std::size_t>(s)].bias_own_unit() * scale);
       at = SolveAtBias(device, FieldSign::kDesign, sources, biases, &options);
       point = at->Results(device);
     }
@@ -162,13 +162,13 @@ figures::Series scan_series(const BiasScan& scan, const std::string& column, con
 std::string scan_csv(const Design& d, const BiasScan& scan) {
   std::string csv = "bias_scale";
   for (const Wiring& w : d.wiring)
-    if (w.role == Role::kSource) csv += ",bias_" + w.contact + (w.bias_is_current ? "_A" : "_V");
+    if (w.role == Role::kSource) csv += ",bias_" + w.contact + (w.current_source ? "_A" : "_V");
   for (const auto& c : scan.columns) csv += "," + c;
   csv += "\n";
   for (std::size_t k = 0; k < scan.scale.size(); ++k) {
     csv += fmt::format("{}", scan.scale[k]);
     for (const Wiring& w : d.wiring)
-      if (w.role == Role::kSource) csv += fmt::format(",{}", RoundGridValue(w.bias * scan.scale[k]));
+      if (w.role == Role::kSource) csv += fmt::format(",{}", RoundGridValue(w.bias_own_unit() * scan.scale[k]));
     for (const auto& v : scan.rows[k]) csv += v ? fmt::format(",{}", *v) : std::string(",");
     csv += "\n";
   }

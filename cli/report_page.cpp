@@ -156,7 +156,7 @@ Table CardTable(const Design& d, const WiringVerdict& v) {
       {}};
   for (const CardRow& r : v.card)
     t.rows.push_back({contact(d, r.contact), ToString(r.role), r.connect,
-                      r.bias ? FormatSI(*r.bias, r.bias_is_current ? "A" : "V") : std::string("-"),
+                      r.bias_V ? FormatSI(*r.bias_V, "V") : r.bias_A ? FormatSI(*r.bias_A, "A") : std::string("-"),
                       FormatSI(r.current_A, "A"), r.voltage_V ? FormatSI(*r.voltage_V, "V") : "undetermined",
                       r.purpose});
   for (const VoltagePair& vp : v.voltage_pairs)
@@ -412,7 +412,7 @@ std::string noise_html(const ReportData& r) {
 // `check`'s wafer and field rows.
 std::string heterostructure_html(const ReportData& r) {
   const Design& d = r.d;
-  const auto& f = r.device.check().figures;
+  const auto& f = r.device.check().wafer;
   const auto& hs = d.heterostructure;
   const double mev = 1e-3 * constants::kElementaryCharge_C;
   auto opt = [](const std::optional<double>& x, const char* unit) {
@@ -446,7 +446,7 @@ std::string heterostructure_html(const ReportData& r) {
   h += model(
       "figures of a two-dimensional electron gas in a quantizing field; the gate as a plate capacitor in series "
       "with the quantum capacitance",
-      {"Wafer and field figures", "Depletion under a wide gate"});
+      {"Wafer and field quantities", "Depletion under a wide gate"});
   return h + t.html();
 }
 
@@ -461,7 +461,9 @@ Table wiring_table(const Design& d) {
   for (const Wiring& w : d.wiring) {
     std::string x = "?";
     switch (w.role) {
-      case Role::kSource: x = "source, " + FormatSI(w.bias, w.bias_is_current ? "A" : "V"); break;
+      case Role::kSource:
+        x = "source, " + (w.current_source ? FormatSI(w.bias_A, "A") : FormatSI(w.bias_V, "V"));
+        break;
       case Role::kGround: x = "cold ground"; break;
       case Role::kFloat: x = "floating ohmic (no net current)"; break;
       case Role::kAmplifier: {
@@ -603,7 +605,7 @@ std::string channels_html(const ReportData& r) {
                        fmt::format("{:.4g} um^2", cr.region.Area() * 1e12)});
   }
   const double vdep =
-      DeriveFigures(d.heterostructure, d.conditions.field_T, d.conditions.temperature_K).depletion_voltage_V;
+      DeriveWaferQuantities(d.heterostructure, d.conditions.field_T, d.conditions.temperature_K).depletion_voltage_V;
   Table gt{{"gate", "bare lateral depletion estimate", "local filling under it"}, {}};
   for (std::size_t i = 0; i < d.gates.size(); ++i)
     gt.rows.push_back({d.gates[i].name, FormatLateralDepletion(g.lateral_depletion_m[i], d.gates[i].voltage_V <= vdep),

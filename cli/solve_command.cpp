@@ -157,7 +157,7 @@ void print_channels(std::string& out, const Design& d, const ChannelGeometry& ge
                        pass, cr.region.Area() * 1e12);
   }
   const double vdep =
-      DeriveFigures(d.heterostructure, d.conditions.field_T, d.conditions.temperature_K).depletion_voltage_V;
+      DeriveWaferQuantities(d.heterostructure, d.conditions.field_T, d.conditions.temperature_K).depletion_voltage_V;
   for (std::size_t i = 0; i < d.gates.size(); ++i)
     out += fmt::format("  gate {}: bare lateral depletion estimate {}, local filling under it {:.3g}\n",
                        d.gates[i].name,

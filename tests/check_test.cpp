@@ -42,7 +42,7 @@ TEST(Check, BaseDesignPassesAndMeasuresTheGap) {
   // QL tip (10.5, -0.15) um and QR tip (10.5, 0.15) um: 300 nm apart.
   EXPECT_NEAR(r.constrictions[0].gap_m, 300e-9, 1e-15);
   ASSERT_TRUE(r.constrictions[0].bare_pinch_off_V);
-  EXPECT_LT(*r.constrictions[0].bare_pinch_off_V, r.figures.depletion_voltage_V);
+  EXPECT_LT(*r.constrictions[0].bare_pinch_off_V, r.wafer.depletion_voltage_V);
 }
 
 TEST(Check, OverlappingGatesAreAShort) {
@@ -111,7 +111,7 @@ TEST(Check, ConstrictionBetweenAGateAndTheMesaEdge) {
   const double qr = GatePotentialPerVolt(d.gates[1].outline, s, 95e-9);
   const double ql = GatePotentialPerVolt(d.gates[0].outline, s, 95e-9);
   EXPECT_TRUE(
-      test::NearRel(*r.constrictions[0].bare_pinch_off_V, (r.figures.depletion_voltage_V + 0.9 * ql) / qr, 1e-9));
+      test::NearRel(*r.constrictions[0].bare_pinch_off_V, (r.wafer.depletion_voltage_V + 0.9 * ql) / qr, 1e-9));
   EXPECT_NE(find(r, "constriction-wide"), nullptr);
 }
 

@@ -218,7 +218,7 @@ TEST(Electrostatics, LinearScreeningMatchesThomasFermiDielectricFunction) {
   // Strip of width w, long in y: phi_g(q) = V e^{-|q| d} 2 sin(q w/2) / q (the half-space kernel of
   // docs/models.md, Bare gate potential, in Fourier space),
   // U_ext = -e phi_g, U = U_ext / eps_TF(q), delta n(q) = -D U(q), delta n(0) = (1/pi) int_0^inf delta n(q) dq.
-  const HeterostructureFigures f = DeriveFigures(d.heterostructure, 1.0, 0.02);
+  const WaferQuantities f = DeriveWaferQuantities(d.heterostructure, 1.0, 0.02);
   const double qtf = constants::kElementaryCharge_C * constants::kElementaryCharge_C * f.density_of_states_per_J_m2 /
                      (2 * 12.9 * constants::kVacuumPermittivity_F_per_m);
   struct Par {

@@ -92,7 +92,7 @@ ExactResult exact(const Design& d, const EdgeNetwork& net) {
   std::vector<std::size_t> unknown;
   for (std::size_t i = 0; i < nc; ++i) {
     const Wiring& w = d.wiring[i];
-    if (w.role == Role::kSource) v[i] = rational(w.bias);
+    if (w.role == Role::kSource) v[i] = rational(w.bias_V);
     if (w.role == Role::kFloat) unknown.push_back(i);
   }
   QMatrix a(unknown.size(), std::vector<Q>(unknown.size(), Q(0))), b(unknown.size(), std::vector<Q>(1, Q(0)));

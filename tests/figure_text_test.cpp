@@ -106,7 +106,7 @@ std::vector<std::pair<std::string, Drawing>> plots(const Design& d, const EdgeNe
     for (int k = 0; k <= 10; ++k) {
       Design dk = d;
       for (Wiring& w : dk.wiring)
-        if (w.role == Role::kSource) w.bias *= 0.2 * k;
+        if (w.role == Role::kSource) w.bias_own_unit() *= 0.2 * k;
       s.x.push_back(0.2 * k);
       s.y.push_back(SolveTransport(dk, plus).current_A[contact] * 1e12);
     }

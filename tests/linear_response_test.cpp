@@ -214,7 +214,7 @@ TEST(Electrostatics, SmallGateVoltageResponseEqualsContinuumThomasFermiLinearRes
   gsl_set_error_handler_off();  // statuses are checked; GSL's default handler would abort the run
   const Design design = LoadDesignFromString(layout_yaml(), "linear_response.yaml");
   ASSERT_DOUBLE_EQ(design.heterostructure.depth_m, kDepth_m);
-  const HeterostructureFigures f = DeriveFigures(design.heterostructure, design.conditions.field_T, 0.02);
+  const WaferQuantities f = DeriveWaferQuantities(design.heterostructure, design.conditions.field_T, 0.02);
   const double e = constants::kElementaryCharge_C;
   const double dos = f.density_of_states_per_J_m2;
   const double eps = design.heterostructure.permittivity * constants::kVacuumPermittivity_F_per_m;

@@ -53,8 +53,8 @@ TEST(Loader, ValidDesignIsConvertedToSI) {
   EXPECT_EQ(d.constrictions[0].transmission, (std::vector<double>{1.0, 0.4}));
   ASSERT_EQ(d.wiring.size(), 2u);
   EXPECT_EQ(d.wiring[0].role, Role::kSource);
-  EXPECT_DOUBLE_EQ(d.wiring[0].bias, 1e-5);
-  EXPECT_FALSE(d.wiring[0].bias_is_current);
+  EXPECT_DOUBLE_EQ(d.wiring[0].bias_V, 1e-5);
+  EXPECT_FALSE(d.wiring[0].current_source);
   ASSERT_TRUE(d.wiring[1].amplifier);
   EXPECT_DOUBLE_EQ(d.wiring[1].amplifier->integration_s, 1200.0);
   EXPECT_EQ(d.channels.size(), 2u);
@@ -82,8 +82,8 @@ TEST(Loader, FractionalFillingWithCurrentSource) {
   EXPECT_EQ(d.conditions.filling, MakeFraction(1, 3));
   EXPECT_EQ(d.channels.size(), 1u);
   EXPECT_EQ(*d.constrictions[0].regime, Regime::kWeak);
-  EXPECT_TRUE(d.wiring[0].bias_is_current);
-  EXPECT_DOUBLE_EQ(d.wiring[0].bias, 2e-9);
+  EXPECT_TRUE(d.wiring[0].current_source);
+  EXPECT_DOUBLE_EQ(d.wiring[0].bias_A, 2e-9);
 }
 
 TEST(Loader, ChannelsOverrideMustAddUpToTheFilling) {

@@ -555,8 +555,8 @@ TEST(NoiseSweep, BiasScanReusesTheDeviceAndRespondsLinearly) {
   for (std::size_t i = 0; i < d.wiring.size(); ++i)
     if (d.wiring[i].role == Role::kSource) {
       sources.push_back(static_cast<int>(i));
-      same.push_back(d.wiring[i].bias);
-      twice.push_back(2 * d.wiring[i].bias);
+      same.push_back(d.wiring[i].bias_own_unit());
+      twice.push_back(2 * d.wiring[i].bias_own_unit());
     }
   ASSERT_EQ(sources.size(), 2u);  // SA and SB
   const BiasPoint at_design = SolveAtBias(device, FieldSign::kDesign, sources, same, nullptr);

@@ -35,7 +35,7 @@ TEST(Robustness, CoarseCellsKeepTheWideGateLaw) {
   ElectrostaticsOptions o;
   o.grid_m = 800e-9;
   const ElectrostaticProblem p(d, o);
-  const double vdep = DeriveFigures(d.heterostructure, 1.0, 0.02).depletion_voltage_V;
+  const double vdep = DeriveWaferQuantities(d.heterostructure, 1.0, 0.02).depletion_voltage_V;
   for (double v : {0.0, -0.15}) {
     const DensityMap m = p.Solve({v});
     ASSERT_TRUE(m.stats.converged);

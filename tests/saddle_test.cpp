@@ -86,7 +86,7 @@ TEST(ConstrictionSaddle, BarePinchOffOfSquareFingersUsesTheirActualPotentialAtTh
   // A rectangle L <= x <= R, B <= y <= T seen from (0, 0): f(-L, -B) + f(-L, T) + f(R, -B) + f(R, T).
   auto rect = [&](double l, double b, double r, double t) { return f(-l, -b) + f(-l, t) + f(r, -b) + f(r, t); };
   const double per_volt = rect(-100e-9, -3100e-9, 100e-9, -150e-9) + rect(-100e-9, 150e-9, 100e-9, 3100e-9);
-  const double vdep = DeriveFigures(d.heterostructure, 1.0, 0.02).depletion_voltage_V;
+  const double vdep = DeriveWaferQuantities(d.heterostructure, 1.0, 0.02).depletion_voltage_V;
   EXPECT_NEAR(bare->saddle.x, 0.0, 2e-9);
   EXPECT_NEAR(bare->saddle.y, 0.0, 2e-9);
   EXPECT_TRUE(NearRel(bare->voltage_V, vdep / per_volt, 2e-3));
@@ -150,7 +150,7 @@ TEST(ConstrictionSaddle, LargeGateDepletesAtTheWideGateValueWhateverTheWindow) {
       "contacts:\n  - {name: W, outline: [[-11,-1],[-9.5,-1],[-9.5,1],[-11,1]]}\n"
       "gates:\n  - {name: G, voltage: -0.1 V, outline: [[-6,-6],[6,-6],[6,6],[-6,6]]}\nwiring:\n  W: ground\n";
   const Design d = LoadDesignFromString(text, "large.yaml");
-  const double wide = DeriveFigures(d.heterostructure, 1.0, 0.02).depletion_voltage_V;
+  const double wide = DeriveWaferQuantities(d.heterostructure, 1.0, 0.02).depletion_voltage_V;
   EXPECT_TRUE(NearRel(wide, -0.324545, 1e-5));
   std::vector<double> v;
   for (double half : {0.0, 2.0 * 15.0 * 90e-9}) {

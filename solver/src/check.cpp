@@ -101,13 +101,13 @@ void warn_islands(const Design& d, double depletion_voltage_V, Add&& add) {
   std::vector<char> has_return(pieces.size(), 0);
   for (const Wiring& w : d.wiring) {
     const bool returns =
-        w.role == Role::kGround || w.role == Role::kAmplifier || (w.role == Role::kSource && !w.bias_is_current);
+        w.role == Role::kGround || w.role == Role::kAmplifier || (w.role == Role::kSource && !w.current_source);
     const std::size_t c = contact_index(w.contact);
     if (returns && c < d.contacts.size())
       for (std::size_t p : reaches[c]) has_return[root(p)] = 1;
   }
   for (const Wiring& w : d.wiring) {
-    if (w.role != Role::kSource || !w.bias_is_current) continue;
+    if (w.role != Role::kSource || !w.current_source) continue;
     const std::size_t c = contact_index(w.contact);
     if (c >= d.contacts.size() || reaches[c].empty()) continue;
     if (!std::any_of(reaches[c].begin(), reaches[c].end(), [&](std::size_t p) { return has_return[root(p)] != 0; }))
@@ -272,7 +272,7 @@ void check_constriction(Checking& ctx, std::size_t i) {
   const CheckOptions& opt = ctx.opt;
   CheckResult& r = ctx.r;
   const Polygon& mesa = d.mesa.outline;
-  const double vdep = ctx.r.figures.depletion_voltage_V;
+  const double vdep = ctx.r.wafer.depletion_voltage_V;
   const Constriction& k = d.constrictions[i];
   // Two constrictions on the same pair of sides: they measure the same gap, so the network would
   // cut two slits through one beam splitter. An error even when the transmissions agree: the
@@ -348,18 +348,18 @@ void check_wiring(Checking& ctx) {
   const CheckOptions& opt = ctx.opt;
   CheckResult& r = ctx.r;
   int sources = 0, current_sources = 0, returns = 0, floats = 0;
-  const double cyclotron_V = r.figures.cyclotron_energy_J / constants::kElementaryCharge_C;
+  const double cyclotron_V = r.wafer.cyclotron_energy_J / constants::kElementaryCharge_C;
   for (const Wiring& w : d.wiring) {
     switch (w.role) {
       case Role::kSource:
         ++sources;
-        if (w.bias_is_current)
+        if (w.current_source)
           ++current_sources;
         else
           ++returns;  // a voltage source holds its contact against the cold ground
-        if (!w.bias_is_current && std::abs(w.bias) > opt.bias_fraction_of_cyclotron_gap * cyclotron_V)
+        if (!w.current_source && std::abs(w.bias_V) > opt.bias_fraction_of_cyclotron_gap * cyclotron_V)
           ctx.add(Severity::kWarning, "bias-high",
-                  "source " + w.contact + " at " + units::FormatSI(w.bias, "V") + " exceeds " +
+                  "source " + w.contact + " at " + units::FormatSI(w.bias_V, "V") + " exceeds " +
                       units::FormatSI(opt.bias_fraction_of_cyclotron_gap * cyclotron_V, "V") +
                       " (a tenth of the cyclotron energy over e): the quantum Hall state may break down",
                   w.where);
@@ -378,7 +378,7 @@ void check_wiring(Checking& ctx) {
             "a current source needs a return path, but no contact is grounded, an amplifier or a voltage source",
             wiring_where);
   if (current_sources > 0 && returns > 0)
-    warn_islands(d, ctx.r.figures.depletion_voltage_V,
+    warn_islands(d, ctx.r.wafer.depletion_voltage_V,
                  [&ctx](auto&&... a) { ctx.add(std::forward<decltype(a)>(a)...); });
   if (floats == static_cast<int>(d.wiring.size()))
     ctx.add(Severity::kWarning, "all-floating", "every contact floats: the device is not connected to anything",
@@ -392,7 +392,7 @@ CheckResult CheckDesign(const Design& d, const CheckOptions& opt) {
   if (!opt.IsValid(&why)) throw std::invalid_argument("CheckOptions: " + why);
   Checking ctx{d, opt, {}};
   CheckResult& r = ctx.r;
-  r.figures = DeriveFigures(d.heterostructure, d.conditions.field_T, d.conditions.temperature_K);
+  r.wafer = DeriveWaferQuantities(d.heterostructure, d.conditions.field_T, d.conditions.temperature_K);
   check_contacts(ctx);
   check_gates(ctx);
   check_etch_depletion(ctx);
@@ -400,7 +400,7 @@ CheckResult CheckDesign(const Design& d, const CheckOptions& opt) {
   check_wiring(ctx);
 
   // Conditions.
-  if (r.figures.thermal_energy_J > 0.1 * r.figures.cyclotron_energy_J)
+  if (r.wafer.thermal_energy_J > 0.1 * r.wafer.cyclotron_energy_J)
     ctx.add(Severity::kWarning, "hot",
             "k_B T is more than a tenth of the cyclotron energy: integer plateaus will be poorly developed",
             SourceLocation{d.path, 0, 0, "conditions.temperature"});

@@ -490,23 +490,23 @@ Wiring read_wiring(const Reader& r, const std::string& contact, const Value& v,
       r.fail(*bias_value, e.what());
     }
     if (q.dimension == units::DimensionOf(Kind::kVoltage)) {
-      w.bias = q.value_si;
-      w.bias_is_current = false;
-      if (!(std::abs(w.bias) <= 0.1))
+      w.bias_V = q.value_si;
+      w.current_source = false;
+      if (!(std::abs(w.bias_V) <= 0.1))
         r.fail(*bias_value, "a source bias beyond 100 mV is outside the quantum Hall regime");
       // Zero, or at least 1 fV: smaller biases are below any measurable signal (common practice).
-      if (w.bias != 0.0 && std::abs(w.bias) < 1e-15)
+      if (w.bias_V != 0.0 && std::abs(w.bias_V) < 1e-15)
         r.fail(*bias_value,
-               "a source bias must be 0 or at least 1 fV in magnitude; got " + units::FormatSI(w.bias, "V", 6));
+               "a source bias must be 0 or at least 1 fV in magnitude; got " + units::FormatSI(w.bias_V, "V", 6));
     } else if (q.dimension == units::DimensionOf(Kind::kCurrent)) {
-      w.bias = q.value_si;
-      w.bias_is_current = true;
-      if (!(std::abs(w.bias) <= 1e-6))
+      w.bias_A = q.value_si;
+      w.current_source = true;
+      if (!(std::abs(w.bias_A) <= 1e-6))
         r.fail(*bias_value, "a source current beyond 1 uA is outside the quantum Hall regime");
       // Zero, or at least 1 aA: a few electrons a second (common practice).
-      if (w.bias != 0.0 && std::abs(w.bias) < 1e-18)
+      if (w.bias_A != 0.0 && std::abs(w.bias_A) < 1e-18)
         r.fail(*bias_value,
-               "a source current must be 0 or at least 1 aA in magnitude; got " + units::FormatSI(w.bias, "A", 6));
+               "a source current must be 0 or at least 1 aA in magnitude; got " + units::FormatSI(w.bias_A, "A", 6));
     } else {
       r.fail(*bias_value, "a source bias is a voltage ('10 uV') or a current ('2 nA'), got '" + bias_text + "'");
     }

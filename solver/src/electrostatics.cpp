@@ -441,7 +441,7 @@ ElectrostaticProblem::ElectrostaticProblem(const Design& d, const Electrostatics
   const auto& hs = d.heterostructure;
   const double depth = hs.depth_m;
   const double eps = hs.permittivity * constants::kVacuumPermittivity_F_per_m;
-  const HeterostructureFigures fig = DeriveFigures(hs, d.conditions.field_T, d.conditions.temperature_K);
+  const WaferQuantities fig = DeriveWaferQuantities(hs, d.conditions.field_T, d.conditions.temperature_K);
   m.ns = hs.density_per_m2;
   m.ef0 = fig.fermi_energy_J;
   m.beta = constants::kElementaryCharge_C * constants::kElementaryCharge_C * fig.density_of_states_per_J_m2;
@@ -495,7 +495,7 @@ void ElectrostaticProblem::BuildExterior(const Design& d, const ElectrostaticWin
   const double depth = d.heterostructure.depth_m;
   const double eps = d.heterostructure.permittivity * constants::kVacuumPermittivity_F_per_m;
   auto e = std::make_unique<Exterior>();
-  e->vdep = DeriveFigures(d.heterostructure, d.conditions.field_T, d.conditions.temperature_K).depletion_voltage_V;
+  e->vdep = DeriveWaferQuantities(d.heterostructure, d.conditions.field_T, d.conditions.temperature_K).depletion_voltage_V;
   // Coarse cells of about a depth (the exterior acts from at least a window's half size away), a whole
   // number of them across the window, and at most about 1.5e5 cells (or 1e7 cell-gates), over the mesa
   // within max(10 um, 16 half sizes) of the window. Farther out the held 2DEG is neutral except under

@@ -1,4 +1,4 @@
-// Derived wafer and field figures; formulas in heterostructure.hpp.
+// Derived wafer and field quantities; formulas in heterostructure.hpp.
 #include "hallway/heterostructure.hpp"
 
 #include <cmath>
@@ -10,8 +10,8 @@ namespace hallway {
 
 using namespace constants;
 
-HeterostructureFigures DeriveFigures(const Heterostructure& h, double field_T, double temperature_K) {
-  HeterostructureFigures f;
+WaferQuantities DeriveWaferQuantities(const Heterostructure& h, double field_T, double temperature_K) {
+  WaferQuantities f;
   const double m = h.effective_mass * kElectronMass_kg;
   const double n = h.density_per_m2;
   f.density_of_states_per_J_m2 = m / (std::numbers::pi * kHbar_Js * kHbar_Js);

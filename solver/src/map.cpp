@@ -88,7 +88,7 @@ std::optional<ConstrictionMap> MapConstriction(const Design& d, const Constricti
   const double depth = d.heterostructure.depth_m;
   const double ns = d.heterostructure.density_per_m2;
   const double vdep =
-      DeriveFigures(d.heterostructure, d.conditions.field_T, d.conditions.temperature_K).depletion_voltage_V;
+      DeriveWaferQuantities(d.heterostructure, d.conditions.field_T, d.conditions.temperature_K).depletion_voltage_V;
   ConstrictionMap cm;
   cm.name = k.name;
   cm.gap_m = gap->distance_m;
@@ -130,7 +130,7 @@ std::optional<ConstrictionMap> MapConstriction(const Design& d, const Constricti
 // deepest point (where its own potential per volt is largest, over the mesa) reaches the empty level,
 // on a local window; none when the search does not get there or a solve does not converge.
 std::optional<double> GateDepletion(const Design& d, std::size_t gi, const MapOptions& opt,
-                                    const HeterostructureFigures& fig, double empty,
+                                    const WaferQuantities& fig, double empty,
                                     const std::function<void(const DensityMap&)>& note) {
   const Gate& g = d.gates[gi];
   const double depth = d.heterostructure.depth_m;
@@ -175,7 +175,7 @@ std::optional<double> GateDepletion(const Design& d, std::size_t gi, const MapOp
 
 // Lateral depletion and edge drift velocity of gate gi from the whole-mesa map: march out along the
 // normals of the gate's long edges to where the density returns; the medians over the edges.
-void LateralDepletion(const Design& d, std::size_t gi, const DensityMap& map, const HeterostructureFigures& fig,
+void LateralDepletion(const Design& d, std::size_t gi, const DensityMap& map, const WaferQuantities& fig,
                       double empty, GateMap* out) {
   const Gate& g = d.gates[gi];
   const double depth = d.heterostructure.depth_m;
@@ -232,7 +232,7 @@ MapResult ComputeMap(const Design& d, const MapOptions& opt) {
   if (!opt.IsValid(&why)) throw std::invalid_argument("MapOptions: " + why);
   const Clock clock;
   MapResult r;
-  const HeterostructureFigures fig = DeriveFigures(d.heterostructure, d.conditions.field_T, d.conditions.temperature_K);
+  const WaferQuantities fig = DeriveWaferQuantities(d.heterostructure, d.conditions.field_T, d.conditions.temperature_K);
   const double ns = d.heterostructure.density_per_m2;
   const double empty = opt.empty_fraction * ns;
   std::vector<double> design_volts;

@@ -298,7 +298,7 @@ ChannelGeometry BuildChannelGeometry(const Design& d, const NetworkOptions& opt)
   if (!opt.IsValid(&why)) throw std::invalid_argument("NetworkOptions: " + why);
   ChannelGeometry g;
   GeometryBuild b{d, opt, g};
-  b.vdep = DeriveFigures(d.heterostructure, d.conditions.field_T, d.conditions.temperature_K).depletion_voltage_V;
+  b.vdep = DeriveWaferQuantities(d.heterostructure, d.conditions.field_T, d.conditions.temperature_K).depletion_voltage_V;
   b.nu = d.conditions.filling.value();
   DepleteGates(b);
   if (opt.density) SelfConsistentFilling(b);

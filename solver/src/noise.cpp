@@ -662,7 +662,7 @@ FloatingContribution floating_contact_map(const NoiseSolving& ctx) {
   std::vector<int> held, fixed;
   for (int i = 0; i < nc; ++i) {
     const Wiring& w = ctx.d.wiring[static_cast<std::size_t>(i)];
-    const bool floating = w.role == Role::kFloat || (w.role == Role::kSource && w.bias_is_current);
+    const bool floating = w.role == Role::kFloat || (w.role == Role::kSource && w.current_source);
     (floating && ctx.tr.voltage_V[static_cast<std::size_t>(i)] ? held : fixed).push_back(i);
   }
   FloatingContribution c{!held.empty(), Mat::Identity(nc, nc)};

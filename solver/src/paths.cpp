@@ -135,7 +135,7 @@ struct PathsContext {
   const Design& d;
   const EdgeNetwork& net;
   const PathOptions& opt;
-  HeterostructureFigures fig;
+  WaferQuantities fig;
   PathResult& r;
 };
 
@@ -513,7 +513,7 @@ PathResult ComputePaths(const Design& d, const EdgeNetwork& net, const Transport
   std::string why;
   if (!opt.IsValid(&why)) throw std::invalid_argument("PathOptions: " + why);
   PathResult r;
-  PathsContext ctx{d, net, opt, DeriveFigures(d.heterostructure, d.conditions.field_T, d.conditions.temperature_K), r};
+  PathsContext ctx{d, net, opt, DeriveWaferQuantities(d.heterostructure, d.conditions.field_T, d.conditions.temperature_K), r};
   r.velocity_model = map ? "E x B drift v = |grad U| / (e |B|) of the self-consistent potential along the edge "
                            "(docs/models.md \"Edge velocity and lengths\")"
                          : "a fixed drift velocity of " +
@@ -529,7 +529,7 @@ PathResult ComputePaths(const Design& d, const EdgeNetwork& net, const Transport
 void ComputeConstrictionModels(const Design& d, const PathOptions& opt, PathResult* result) {
   std::string why;
   if (!opt.IsValid(&why)) throw std::invalid_argument("PathOptions: " + why);
-  const HeterostructureFigures fig = DeriveFigures(d.heterostructure, d.conditions.field_T, d.conditions.temperature_K);
+  const WaferQuantities fig = DeriveWaferQuantities(d.heterostructure, d.conditions.field_T, d.conditions.temperature_K);
   ModelSetting s{d,
                  opt,
                  d.heterostructure.depth_m,

@@ -195,7 +195,7 @@ BiasPoint SolveAtBias(const Device& device, FieldSign sign, const std::vector<in
     if (contacts[i] < 0 || static_cast<std::size_t>(contacts[i]) >= point.design.wiring.size() ||
         point.design.wiring[static_cast<std::size_t>(contacts[i])].role != Role::kSource)
       throw std::invalid_argument("SolveAtBias: contact " + std::to_string(contacts[i]) + " is not a source");
-    point.design.wiring[static_cast<std::size_t>(contacts[i])].bias = biases[i];
+    point.design.wiring[static_cast<std::size_t>(contacts[i])].bias_own_unit() = biases[i];
   }
   const EdgeNetwork& edges = device.edges(sign);
   point.transport = SolveTransport(point.design, edges);

@@ -126,7 +126,7 @@ Saddle BareSaddle(const Design& d, const SaddleStrip& strip, const std::vector<d
 std::optional<BarePinchOff> FindBarePinchOff(const Design& d, const Constriction& k, const geometry::ClosestPair& gap) {
   const double depth = d.heterostructure.depth_m;
   const double vdep =
-      DeriveFigures(d.heterostructure, d.conditions.field_T, d.conditions.temperature_K).depletion_voltage_V;
+      DeriveWaferQuantities(d.heterostructure, d.conditions.field_T, d.conditions.temperature_K).depletion_voltage_V;
   std::vector<int> sides;
   for (std::size_t g = 0; g < d.gates.size(); ++g)
     if (d.gates[g].name == k.first || d.gates[g].name == k.second) sides.push_back(static_cast<int>(g));

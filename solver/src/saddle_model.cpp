@@ -47,7 +47,7 @@ ConstrictionSaddleModel::ConstrictionSaddleModel(const Design& d, std::size_t ki
                                                  double window_cell_m)
     : d_(d), ki_(ki), potential_(potential) {
   const Constriction& k = d.constrictions.at(ki);
-  const HeterostructureFigures fig = DeriveFigures(d.heterostructure, d.conditions.field_T, d.conditions.temperature_K);
+  const WaferQuantities fig = DeriveWaferQuantities(d.heterostructure, d.conditions.field_T, d.conditions.temperature_K);
   ef0_J_ = fig.fermi_energy_J;
   cyclotron_J_ = fig.cyclotron_energy_J;
   depletion_V_ = fig.depletion_voltage_V;

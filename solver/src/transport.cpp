@@ -191,13 +191,13 @@ void set_up_contacts(Solving& ctx) {
   sys.i_fixed.assign(static_cast<std::size_t>(nc), 0.0);
   for (int j = 0; j < nc; ++j) {
     const Wiring& w = d.wiring[static_cast<std::size_t>(j)];
-    if (w.role == Role::kSource && !w.bias_is_current) {
+    if (w.role == Role::kSource && !w.current_source) {
       sys.known[static_cast<std::size_t>(j)] = 1;
-      sys.v[static_cast<std::size_t>(j)] = w.bias;
+      sys.v[static_cast<std::size_t>(j)] = w.bias_V;
     } else if (w.role == Role::kGround || w.role == Role::kAmplifier) {
       sys.known[static_cast<std::size_t>(j)] = 1;
     } else if (w.role == Role::kSource) {
-      sys.i_fixed[static_cast<std::size_t>(j)] = w.bias;
+      sys.i_fixed[static_cast<std::size_t>(j)] = w.bias_A;
     }
   }
   sys.determined = determined_contacts(sys.known, G);
@@ -257,7 +257,10 @@ void solve_voltages_and_currents(Solving& ctx) {
     if (wj.role != Role::kSource) continue;
     TransportResult::SourceResistance s{j, std::nullopt};
     std::vector<double> vj(static_cast<std::size_t>(nc), 0.0), ij(static_cast<std::size_t>(nc), 0.0);
-    (wj.bias_is_current ? ij : vj)[static_cast<std::size_t>(j)] = wj.bias;
+    if (wj.current_source)
+      ij[static_cast<std::size_t>(j)] = wj.bias_A;
+    else
+      vj[static_cast<std::size_t>(j)] = wj.bias_V;
     sys.solve_unknown(G, vj, ij);
     double i = 0.0;
     for (int b = 0; b < nc; ++b)

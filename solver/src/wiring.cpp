@@ -491,8 +491,8 @@ std::string Connect(const Design& d, int c) {
   const Wiring& w = d.wiring[static_cast<std::size_t>(c)];
   switch (w.role) {
     case Role::kSource:
-      return w.bias_is_current ? "current source, " + FormatSI(w.bias, "A") + " into the device"
-                               : "voltage source, " + FormatSI(w.bias, "V") + " against the cold ground";
+      return w.current_source ? "current source, " + FormatSI(w.bias_A, "A") + " into the device"
+                              : "voltage source, " + FormatSI(w.bias_V, "V") + " against the cold ground";
     case Role::kGround: return "cold ground";
     case Role::kAmplifier:
       return "amplifier input, DC-grounded through its " + FormatSI(w.amplifier ? w.amplifier->load_Ohm : 0.0, "Ohm") +
@@ -511,8 +511,7 @@ std::vector<CardRow> Card(const FieldData& f, const FieldAssessment& a) {
     r.role = w.role;
     r.connect = Connect(f.d, c);
     r.purpose = Purpose(f, a, c);
-    if (w.role == Role::kSource) r.bias = w.bias;
-    r.bias_is_current = w.bias_is_current;
+    if (w.role == Role::kSource) (w.current_source ? r.bias_A : r.bias_V) = w.bias_own_unit();
     r.voltage_V = f.tr.voltage_V[static_cast<std::size_t>(c)];
     r.current_A = f.tr.current_A[static_cast<std::size_t>(c)];
     card.push_back(r);
@@ -547,8 +546,9 @@ bool WorksSwapped(const Design& d, const EdgeNetwork& net, int a, int b, const s
     Wiring& wa = w[static_cast<std::size_t>(a)];
     Wiring& wb = w[static_cast<std::size_t>(b)];
     std::swap(wa.role, wb.role);
-    std::swap(wa.bias, wb.bias);
-    std::swap(wa.bias_is_current, wb.bias_is_current);
+    std::swap(wa.bias_V, wb.bias_V);
+    std::swap(wa.bias_A, wb.bias_A);
+    std::swap(wa.current_source, wb.current_source);
     std::swap(wa.amplifier, wb.amplifier);
   });
 }

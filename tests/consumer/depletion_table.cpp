@@ -14,7 +14,7 @@ int main(int argc, char** argv) {
   try {
     const hallway::Design d = hallway::LoadDesign(argv[1]);
     const hallway::CheckResult r = hallway::CheckDesign(d);
-    std::printf("depletion_voltage_V %.6f\n", r.figures.depletion_voltage_V);
+    std::printf("depletion_voltage_V %.6f\n", r.wafer.depletion_voltage_V);
     for (const auto& g : r.constrictions) std::printf("gap_nm %s %.1f\n", g.name.c_str(), g.gap_m * 1e9);
     return r.ok() ? 0 : 1;
   } catch (const hallway::DesignError& e) {

@@ -40,7 +40,7 @@ struct CheckOptions {
 };
 
 struct CheckResult {
-  HeterostructureFigures figures;
+  WaferQuantities wafer;
   std::vector<ConstrictionGap> constrictions;
   std::vector<Finding> findings;  // errors first, then warnings, each in design order
   bool ok() const;                // no errors

@@ -138,9 +138,14 @@ struct Amplifier {
 struct Wiring {
   std::string contact;
   Role role = Role::kGround;
-  // Sources only: a voltage (bias_is_current false, volts) or a current (amperes, into the device).
-  double bias = 0.0;
-  bool bias_is_current = false;
+  // Sources only: a voltage source holds its contact at bias_V; a current source (current_source true)
+  // drives bias_A into the device. The other of the two stays 0.
+  double bias_V = 0.0;
+  double bias_A = 0.0;
+  bool current_source = false;
+  // The bias in its own unit (volts, or amperes for a current source): for code that scales biases.
+  double bias_own_unit() const { return current_source ? bias_A : bias_V; }
+  double& bias_own_unit() { return current_source ? bias_A : bias_V; }
   std::optional<Amplifier> amplifier;  // amplifier contacts: the shared block with overrides applied
   SourceLocation where;
 };

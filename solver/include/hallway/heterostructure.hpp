@@ -1,4 +1,4 @@
-// hallway/heterostructure.hpp: figures a designer derives from the wafer and the field.
+// hallway/heterostructure.hpp: quantities a designer derives from the wafer and the field.
 //
 //   D     = m* / (pi hbar^2)                 spin-degenerate 2-D density of states
 //   E_F   = n_s / D,  k_F = sqrt(2 pi n_s),  lambda_F = 2 pi / k_F
@@ -20,7 +20,7 @@
 
 namespace hallway {
 
-struct HeterostructureFigures {
+struct WaferQuantities {
   double density_of_states_per_J_m2 = 0.0;
   double fermi_energy_J = 0.0;
   double fermi_wavevector_per_m = 0.0;
@@ -39,7 +39,7 @@ struct HeterostructureFigures {
   double depletion_voltage_V = 0.0;           // with the quantum capacitance
 };
 
-HeterostructureFigures DeriveFigures(const Heterostructure& h, double field_T, double temperature_K);
+WaferQuantities DeriveWaferQuantities(const Heterostructure& h, double field_T, double temperature_K);
 
 // Bare-potential split-gate pinch-off for infinitely long fingers with gap w (docs/models.md, Pinch-off:
 // three figures with three meanings, "bare"):

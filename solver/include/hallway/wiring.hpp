@@ -103,8 +103,8 @@ struct CardRow {
   Role role = Role::kGround;
   std::string connect;         // what to connect at the cryostat
   std::string purpose;         // what it is placed to see or do
-  std::optional<double> bias;  // sources: volts, or amperes when bias_is_current
-  bool bias_is_current = false;
+  std::optional<double> bias_V;  // voltage sources
+  std::optional<double> bias_A;  // current sources, into the device
   std::optional<double> voltage_V;  // expected DC potential (TransportResult::voltage_V)
   double current_A = 0.0;           // expected DC current into the device (TransportResult::current_A)
 };

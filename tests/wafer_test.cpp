@@ -42,32 +42,32 @@ TEST(Constants, VonKlitzingConstantIsExactInThe2019SI) {
   EXPECT_TRUE(NearRel(constants::kConductanceQuantum_S, 3.874045865e-5, 1e-9));
 }
 
-TEST(Figures, MagneticLengthIs25point66NanometresAtOneTesla) {
+TEST(Wafer, MagneticLengthIs25point66NanometresAtOneTesla) {
   // l_B = sqrt(hbar / eB) = 25.656 nm / sqrt(B[T]) (Davies, The Physics of Low-Dimensional
   // Semiconductors, CUP 1998, from memory), evaluated here with the exact SI hbar and e.
   const double l1 = std::sqrt(1.054571817e-34 / 1.602176634e-19);
-  const auto f = DeriveFigures(gaas(2.5e15, 90e-9), 1.0, 0.02);
+  const auto f = DeriveWaferQuantities(gaas(2.5e15, 90e-9), 1.0, 0.02);
   EXPECT_TRUE(NearRel(f.magnetic_length_m, l1, 1e-4));
-  const auto f4 = DeriveFigures(gaas(2.5e15, 90e-9), -4.0, 0.02);  // sign of B does not matter
+  const auto f4 = DeriveWaferQuantities(gaas(2.5e15, 90e-9), -4.0, 0.02);  // sign of B does not matter
   EXPECT_TRUE(NearRel(f4.magnetic_length_m, l1 / 2.0, 1e-4));
 }
 
-TEST(Figures, GaAsCyclotronEnergyIs1point728MilliElectronVoltPerTesla) {
+TEST(Wafer, GaAsCyclotronEnergyIs1point728MilliElectronVoltPerTesla) {
   // hbar w_c = hbar e B / m* (Davies 1998, from memory) with the GaAs band-edge mass m* = 0.067 m_e
   // (Vurgaftman, Meyer & Ram-Mohan, J. Appl. Phys. 89, 5815 (2001), from memory): 1.7279 meV/T.
   const double hbar_wc = 1.054571817e-34 * 1.602176634e-19 / (0.067 * 9.1093837015e-31);
-  const auto f = DeriveFigures(gaas(2.5e15, 90e-9), 1.0, 0.02);
+  const auto f = DeriveWaferQuantities(gaas(2.5e15, 90e-9), 1.0, 0.02);
   EXPECT_TRUE(NearRel(f.cyclotron_energy_J / kMeV, hbar_wc / kMeV, 1e-4));
 }
 
-TEST(Figures, FermiEnergyFromTwoDimensionalDensityOfStates) {
+TEST(Wafer, FermiEnergyFromTwoDimensionalDensityOfStates) {
   // D = m*/(pi hbar^2) (spin-degenerate; Ando, Fowler & Stern, Rev. Mod. Phys. 54, 437 (1982), from
   // memory), E_F = n_s / D, k_F = sqrt(2 pi n_s), lambda_F = 2 pi / k_F, evaluated here with
   // m* = 0.067 m_e: D = 1.746874e36 J^-1 m^-2 = 2.7988e10 cm^-2 meV^-1, E_F = 8.9324 meV,
   // k_F = 1.2533e8 m^-1, lambda_F = 50.13 nm at n_s = 2.5e15 m^-2.
   const double hbar = 1.054571817e-34, mass = 0.067 * 9.1093837015e-31, n = 2.5e15;
   const double dos = mass / (std::numbers::pi * hbar * hbar), kf = std::sqrt(2 * std::numbers::pi * n);
-  const auto f = DeriveFigures(gaas(2.5e15, 90e-9), 1.0, 0.02);
+  const auto f = DeriveWaferQuantities(gaas(2.5e15, 90e-9), 1.0, 0.02);
   EXPECT_TRUE(NearRel(f.density_of_states_per_J_m2, dos, 1e-6));
   EXPECT_TRUE(NearRel(f.density_of_states_per_J_m2 * 1e-4 * kMeV, dos * 1e-4 * kMeV, 1e-4));
   EXPECT_TRUE(NearRel(f.fermi_energy_J / kMeV, n / dos / kMeV, 1e-4));
@@ -81,21 +81,21 @@ TEST(Figures, FermiEnergyFromTwoDimensionalDensityOfStates) {
               1e-12));
 }
 
-TEST(Figures, MeanFreePathFromDrudeMobility) {
+TEST(Wafer, MeanFreePathFromDrudeMobility) {
   // l = hbar k_F mu / e (Drude; Ando, Fowler & Stern 1982, from memory). For n = 3e11 cm^-2 and
   // mu = 1e6 cm^2/Vs: k_F = sqrt(2 pi 3e15) = 1.37294e8 m^-1, l = 9.0368 um (computed independently in Python).
   Heterostructure h = gaas(3e15, 90e-9);
   h.mobility_m2_per_Vs = 100.0;
-  const auto f = DeriveFigures(h, 1.0, 0.02);
+  const auto f = DeriveWaferQuantities(h, 1.0, 0.02);
   ASSERT_TRUE(f.mean_free_path_m);
   EXPECT_TRUE(NearRel(
       *f.mean_free_path_m,
       constants::kHbar_Js * std::sqrt(2 * std::numbers::pi * 3e15) * 100.0 / constants::kElementaryCharge_C, 1e-12));
   EXPECT_TRUE(NearRel(*f.mean_free_path_m, 9.0368e-6, 1e-4));
-  EXPECT_FALSE(DeriveFigures(gaas(3e15, 90e-9), 1.0, 0.02).mean_free_path_m);
+  EXPECT_FALSE(DeriveWaferQuantities(gaas(3e15, 90e-9), 1.0, 0.02).mean_free_path_m);
 }
 
-TEST(Figures, WideGateDepletionVoltagePlateAndQuantumCapacitance) {
+TEST(Wafer, WideGateDepletionVoltagePlateAndQuantumCapacitance) {
   // Plate capacitor C = eps_r eps_0 / d and V_dep = -e n_s / C; in series with the quantum capacitance
   // e^2 D, V_dep = -e n_s (d / eps_r eps_0 + 1 / e^2 D) (Luryi, Appl. Phys. Lett. 52, 501 (1988);
   // docs/models.md, Depletion under a wide gate), evaluated here at n_s = 2.5e15 m^-2, d = 90 nm,
@@ -103,7 +103,7 @@ TEST(Figures, WideGateDepletionVoltagePlateAndQuantumCapacitance) {
   const double e = 1.602176634e-19, n = 2.5e15, d = 90e-9, eps = 12.9 * 8.8541878128e-12;
   const double hbar = 1.054571817e-34, dos = 0.067 * 9.1093837015e-31 / (std::numbers::pi * hbar * hbar);
   const double v_plate = -e * n * d / eps, v_dep = -e * n * (d / eps + 1 / (e * e * dos));
-  const auto f = DeriveFigures(gaas(2.5e15, 90e-9), 1.0, 0.02);
+  const auto f = DeriveWaferQuantities(gaas(2.5e15, 90e-9), 1.0, 0.02);
   EXPECT_TRUE(NearRel(f.depletion_voltage_plate_V, v_plate, 2e-6));
   EXPECT_TRUE(NearRel(f.depletion_voltage_V, v_dep, 2e-6));
   EXPECT_TRUE(NearRel(f.gate_capacitance_F_per_m2, eps / d, 1e-4));
@@ -111,17 +111,17 @@ TEST(Figures, WideGateDepletionVoltagePlateAndQuantumCapacitance) {
   EXPECT_TRUE(NearRel(f.density_per_gate_volt_per_m2, n / std::abs(v_dep), 1e-5));
 }
 
-TEST(Figures, FieldsForFillingTwoAndOneThird) {
+TEST(Wafer, FieldsForFillingTwoAndOneThird) {
   // nu = n_s h / (e B) (common practice): at n_s = 2.5e15 m^-2, nu = 2 at B = 5.170 T and nu = 1/3 at
   // 31.02 T (hand arithmetic, from memory).
   const double b2 = 2.5e15 * constants::kPlanck_Js / (constants::kElementaryCharge_C * 2.0);
   EXPECT_TRUE(NearRel(b2, 5.170, 1e-3));
-  const auto f = DeriveFigures(gaas(2.5e15, 90e-9), b2, 0.02);
+  const auto f = DeriveWaferQuantities(gaas(2.5e15, 90e-9), b2, 0.02);
   EXPECT_TRUE(NearRel(f.filling, 2.0, 1e-12));
   EXPECT_TRUE(NearRel(2.5e15 * constants::kPlanck_Js / (constants::kElementaryCharge_C / 3.0), 31.02, 1e-3));
 }
 
-TEST(Figures, BareSplitGatePinchOffOfLongFingers) {
+TEST(Wafer, BareSplitGatePinchOffOfLongFingers) {
   // The bare potential at the centre of a gap w between two half-plane gates at V is
   // V [1 - (2/pi) arctan(w / 2d)] (Davies, Larkin & Sukhorukov, J. Appl. Phys. 77, 4504 (1995)), so the
   // 2DEG there empties at V_dep / [1 - (2/pi) arctan(w / 2d)] (docs/models.md, Pinch-off: three figures
