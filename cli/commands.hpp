@@ -120,3 +120,23 @@ struct SweepArgs {
 int RunSweep(const SweepArgs& args, int argc, char** argv);
 
 }  // namespace hallway::cli
+
+namespace hallway::cli {
+
+struct FringesArgs {
+  std::string design_path;
+  std::string json_path;
+  std::string csv_path;    // the map G(Phi, V) and the excess noise
+  std::string plunger;     // gate swept in the map; empty: the library's choice
+  std::string gate_step;   // "20 mV"; empty: the default
+  int flux_points = 25;
+  int plunger_points = 13;
+  bool no_map = false;
+  bool fast = false;
+  std::string max_memory;  // --max-memory, e.g. "8GiB"; empty: 4 GiB
+};
+
+// Interferometers: kinds, periods, visibility, regime and the G(Phi, V) map.
+int RunFringes(const FringesArgs& args);
+
+}  // namespace hallway::cli

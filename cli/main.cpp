@@ -94,6 +94,21 @@ void AddReport(CLI::App& app, ReportArgs& a) {
   rp->add_flag("--quiet", a.quiet, "No progress line on standard error");
 }
 
+void AddFringes(CLI::App& app, FringesArgs& a) {
+  CLI::App* f = app.add_subcommand(
+      "fringes", "Interferometers: kind, flux, field and gate periods, visibility, regime and a G(flux, plunger) map");
+  f->add_option("design", a.design_path, "Design file (YAML)")->required();
+  f->add_option("--max-memory", a.max_memory, "Largest electrostatic grid to allocate, e.g. 8GiB (default 4GiB)");
+  f->add_option("--json", a.json_path, kJsonHelp);
+  f->add_option("--csv", a.csv_path, "Write the map G(flux, plunger) and the excess noise as CSV to this file" + kPathNote);
+  f->add_flag("--fast", a.fast, "Bare-potential channel boundaries and a fixed drift velocity");
+  f->add_option("--plunger", a.plunger, "Gate swept in the map (default: the gate with the shortest period that forms no constriction)");
+  f->add_option("--gate-step", a.gate_step, "Step of each gate in the differences dA/dV, e.g. '20 mV' (default 20 mV)");
+  f->add_option("--flux-points", a.flux_points, "Flux points of the map (default 25)");
+  f->add_option("--plunger-points", a.plunger_points, "Plunger points of the map (default 13)");
+  f->add_flag("--no-map", a.no_map, "Periods, visibility and regime only");
+}
+
 // The --quantities help, from the quantity table (quantities.hpp).
 std::string QuantityHelp() {
   std::string all, off;
@@ -157,6 +172,7 @@ struct Commands {
   PathsArgs paths;
   ReportArgs report;
   SweepArgs sweep;
+  FringesArgs fringes;
 };
 
 int Dispatch(CLI::App& app, Commands& a, int argc, char** argv) {
@@ -167,6 +183,7 @@ int Dispatch(CLI::App& app, Commands& a, int argc, char** argv) {
     if (app.got_subcommand("paths")) return RunPaths(a.paths);
     if (app.got_subcommand("report")) return RunReport(a.report);
     if (app.got_subcommand("sweep")) return RunSweep(a.sweep, argc, argv);
+    if (app.got_subcommand("fringes")) return RunFringes(a.fringes);
     if (app.got_subcommand("noise")) {
       a.noise.phase_given = app.get_subcommand("noise")->get_option("--phase")->count() > 0;
       return RunNoise(a.noise);
@@ -198,6 +215,7 @@ int main(int argc, char** argv) {
   AddPaths(app, a.paths);
   AddReport(app, a.report);
   AddSweep(app, a.sweep);
+  AddFringes(app, a.fringes);
   try {
     app.parse(argc, argv);
   } catch (const CLI::CallForHelp& e) {

@@ -205,6 +205,7 @@ json noise_json(const Design& d, const NoiseResult& n) {
   j["noise_total_A2_per_Hz"] = n.total_A2_per_Hz;
   j["phase_averaged"] = n.phase_averaged;
   j["phase_samples"] = n.phase_samples;
+  j["energy_points"] = n.energy_points;  // a fixed loop phase: nodes of its energy average (0: closed form)
   j["unitarity_error"] = n.unitarity_error;
   j["equilibrium_identity_error"] = n.equilibrium_identity_error;
   json amps = json::object();

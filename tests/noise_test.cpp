@@ -179,11 +179,18 @@ TEST(Noise, PhasesDropOutOfALoopFreeNetwork) {
 
 TEST(Noise, FabryPerotLoopIsFoundAndItsNoiseDependsOnThePhase) {
   // A symmetric cavity (t1 = t2 = 0.5) transmits perfectly on resonance, so the partition noise
-  // vanishes there (Blanter & Büttiker 2000, double barrier); off resonance it does not.
+  // vanishes there (Blanter & Büttiker 2000, double barrier); off resonance it does not. Instantaneous
+  // edges (every time of flight 0) keep the loop phase the same at every energy, so the resonance is
+  // sharp at any temperature (docs/models.md "Thermal average at a fixed loop phase").
   const std::string text = read("designs/03_fabry_perot.yaml");
+  const Design design = LoadDesignFromString(text, "test.yaml");
+  const std::size_t pieces =
+      TraceEdges(design, BuildChannelGeometry(design), std::abs(design.conditions.field_T)).pieces.size();
   NoiseOptions on, off;
   on.loop_phase_rad = 0.0;
   off.loop_phase_rad = std::numbers::pi;
+  on.piece_time_of_flight_s.assign(pieces, 0.0);
+  off.piece_time_of_flight_s.assign(pieces, 0.0);
   const Solved avg = run(text), res = run(text, on), anti = run(text, off);
   ASSERT_EQ(avg.n.loops.size(), 1u);
   EXPECT_EQ(avg.n.loops[0].constrictions.size(), 2u);

@@ -109,7 +109,15 @@ const TransportResult& Device::transport(FieldSign sign) const {
 }
 
 NoiseResult Device::noise(const NoiseOptions& options, FieldSign sign) const {
-  return SolveNoise(design_, edges(sign), transport(sign), options);
+  if (!options.loop_phase_rad || !options.piece_time_of_flight_s.empty())
+    return SolveNoise(design_, edges(sign), transport(sign), options);
+  // A fixed loop phase is averaged over energy with each piece's time of flight: the edge velocities of
+  // this device's electrostatics (the paths' E x B drift; the fixed velocity under the bare estimate).
+  NoiseOptions timed = options;
+  const PathResult paths = ComputePaths(design_, edges(sign), transport(sign), density());
+  timed.piece_time_of_flight_s.assign(edges(sign).pieces.size(), 0.0);
+  for (const PieceMetrics& m : paths.pieces) timed.piece_time_of_flight_s[static_cast<std::size_t>(m.piece)] = m.time_of_flight_s;
+  return SolveNoise(design_, edges(sign), transport(sign), timed);
 }
 
 PathResult Device::paths(const PathOptions& options) const {

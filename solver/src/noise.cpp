@@ -2,6 +2,7 @@
 #include "hallway/noise.hpp"
 
 #include <Eigen/Dense>
+#include <algorithm>
 #include <cmath>
 #include <complex>
 #include <functional>
@@ -10,12 +11,14 @@
 
 #include "hallway/collider.hpp"
 #include "hallway/constants.hpp"
+#include "hallway/paths.hpp"
 
 namespace hallway {
 
 using constants::kBoltzmann_J_per_K;
 using constants::kConductanceQuantum_S;
 using constants::kElementaryCharge_C;
+using constants::kHbar_Js;
 using cd = std::complex<double>;
 
 bool NoiseOptions::IsValid(std::string* why) const {
@@ -134,8 +137,21 @@ struct CoherentNetwork {
     return s;
   }
 
-  // Büttiker's formula for contact voltages v (J per e: energies e V), temperature T.
+  // Büttiker's formula for contact voltages v, temperature T, with the energy integrals in closed form:
+  // F_cd = e V_cd coth(e V_cd / 2 k_B T).
   Mat Noise(const CMat& s, const std::vector<double>& v, double temperature_K) const {
+    const int nc = static_cast<int>(d.contacts.size());
+    Mat F(nc, nc);
+    for (int a = 0; a < nc; ++a)
+      for (int b = 0; b < nc; ++b)
+        F(a, b) = ThermalShotFactor_J(
+            kElementaryCharge_C * (v[static_cast<std::size_t>(a)] - v[static_cast<std::size_t>(b)]), temperature_K);
+    return Noise(s, F);
+  }
+
+  // Büttiker's formula with the occupation factors F_cd (J): the energy integral of
+  // f_c (1 - f_d) + f_d (1 - f_c) over the range that s stands for.
+  Mat Noise(const CMat& s, const Mat& F) const {
     const int nc = static_cast<int>(d.contacts.size());
     const int nin = static_cast<int>(in_pieces.size());
     std::vector<CMat> B(static_cast<std::size_t>(nc), CMat::Zero(nin, nin));
@@ -143,11 +159,6 @@ struct CoherentNetwork {
       const auto row = s.row(static_cast<int>(o));
       B[static_cast<std::size_t>(out_contact[o])] += row.adjoint() * row;
     }
-    Mat F(nc, nc);
-    for (int a = 0; a < nc; ++a)
-      for (int b = 0; b < nc; ++b)
-        F(a, b) = ThermalShotFactor_J(
-            kElementaryCharge_C * (v[static_cast<std::size_t>(a)] - v[static_cast<std::size_t>(b)]), temperature_K);
     std::vector<int> n_in(static_cast<std::size_t>(nc), 0);
     for (int c : in_contact) ++n_in[static_cast<std::size_t>(c)];
     Mat S = Mat::Zero(nc, nc);
@@ -519,11 +530,14 @@ std::vector<CoherentLoop> coherent_loops(const NoiseSolving& ctx, const Coherent
 
 // Phase configuration k: every piece gets phase 2 pi frac(k alpha_p), alpha_p = frac(p sqrt 2 +
 // (p + 1) sqrt 3) (a Weyl sequence, equidistributed); with a fixed loop phase, one piece of each
-// loop carries the phase and every other piece zero.
-std::vector<double> piece_phases(const NoiseSolving& ctx, const std::vector<CoherentLoop>& loops, int k) {
+// loop carries the phase and every piece adds its dynamical phase E tau_p / hbar at energy E (J, from
+// the Fermi level; `tof` empty: none).
+std::vector<double> piece_phases(const NoiseSolving& ctx, const std::vector<CoherentLoop>& loops, int k,
+                                 double energy_J = 0.0, const std::vector<double>& tof = {}) {
   std::vector<double> phase(ctx.net.pieces.size(), 0.0);
   if (ctx.opt.loop_phase_rad) {
     for (const CoherentLoop& loop : loops) phase[static_cast<std::size_t>(loop.pieces.front())] = *ctx.opt.loop_phase_rad;
+    for (std::size_t p = 0; p < tof.size() && p < phase.size(); ++p) phase[p] += energy_J * tof[p] / kHbar_Js;
   } else if (!loops.empty()) {
     for (std::size_t p = 0; p < phase.size(); ++p) {
       const double alpha = std::fmod(
@@ -534,10 +548,8 @@ std::vector<double> piece_phases(const NoiseSolving& ctx, const std::vector<Cohe
   return phase;
 }
 
-// The identity S_eq = 2 k_B T (G + G^T) holds for each phase configuration with that configuration's
-// own conductances G_ab = (e^2/h) (M_a d_ab - sum |s_ab|^2): its relative error for scattering matrix s.
-double equilibrium_identity_error(const NoiseSolving& ctx, const CoherentNetwork& coherent, const CMat& s,
-                                  const Mat& se) {
+// The linear-response conductance of scattering matrix s: G_ab = (e^2/h) (M_a d_ab - sum |s_ab|^2).
+Mat scattering_conductance(const NoiseSolving& ctx, const CoherentNetwork& coherent, const CMat& s) {
   Mat g_s = Mat::Zero(ctx.nc, ctx.nc);
   for (std::size_t j = 0; j < coherent.in_pieces.size(); ++j) {
     g_s(coherent.in_contact[j], coherent.in_contact[j]) += kConductanceQuantum_S;
@@ -545,6 +557,12 @@ double equilibrium_identity_error(const NoiseSolving& ctx, const CoherentNetwork
       g_s(coherent.out_contact[o], coherent.in_contact[j]) -=
           kConductanceQuantum_S * std::norm(s(static_cast<int>(o), static_cast<int>(j)));
   }
+  return g_s;
+}
+
+// The identity S_eq = 2 k_B T (G + G^T) holds for each phase configuration (and each energy) with that
+// configuration's own conductances g_s: its relative error for the equilibrium noise se.
+double equilibrium_identity_error(const NoiseSolving& ctx, const Mat& g_s, const Mat& se) {
   const Mat eq_sample = 2.0 * ctx.kt * (g_s + g_s.transpose());
   const double scale = std::max(1e-300, eq_sample.cwiseAbs().maxCoeff());
   return (se - eq_sample).cwiseAbs().maxCoeff() / scale;
@@ -552,16 +570,100 @@ double equilibrium_identity_error(const NoiseSolving& ctx, const CoherentNetwork
 
 // ---- The noise models as units: each returns its contribution; the table at the end composes them ----
 
-// Integer channels: coherent scattering, averaged over the loops' phases (or at the fixed loop phase).
+// Integer channels: coherent scattering, averaged over the loops' phases (or over energy at the fixed
+// loop phase).
 struct CoherentContribution {
   bool used = false;  // the design has integer channels that a contact feeds
   Mat excess;         // biased minus equilibrium noise, every contact voltage fixed, A^2/Hz
+  Mat conductance;    // linear response of the coherent scattering, S
   std::vector<CoherentLoop> loops;
   bool phase_averaged = false;
   int phase_samples = 1;
+  int energy_points = 0;
   double unitarity_error = 0.0, equilibrium_identity_error = 0.0;
   std::vector<Finding> findings;
 };
+
+double unitarity_error_of(const CMat& s) {
+  if (s.rows() != s.cols()) return 1.0;
+  return (s.adjoint() * s - CMat::Identity(s.rows(), s.cols())).cwiseAbs().maxCoeff();
+}
+
+// Each piece's time of flight: the options' (EdgeNetwork order) or length / the fixed path velocity.
+std::vector<double> piece_times(const NoiseSolving& ctx) {
+  const std::vector<double>& given = ctx.opt.piece_time_of_flight_s;
+  if (!given.empty()) {
+    if (given.size() != ctx.net.pieces.size())
+      throw std::invalid_argument("NoiseOptions: piece_time_of_flight_s has " + std::to_string(given.size()) +
+                                  " entries; the edge network has " + std::to_string(ctx.net.pieces.size()) + " pieces");
+    for (double t : given)
+      if (!(t >= 0.0 && std::isfinite(t)))
+        throw std::invalid_argument("NoiseOptions: piece_time_of_flight_s must be finite and >= 0; got " +
+                                    std::to_string(t));
+    return given;
+  }
+  std::vector<double> out;
+  const double v = PathOptions{}.default_velocity_m_per_s;
+  for (const EdgePiece& p : ctx.net.pieces) out.push_back(p.length_m / v);
+  return out;
+}
+
+// Fermi function of energy e relative to mu at k_B T = kt.
+double fermi(double e_J, double mu_J, double kt) {
+  const double x = std::clamp((e_J - mu_J) / kt, -700.0, 700.0);
+  return 1.0 / (1.0 + std::exp(x));
+}
+
+// The fixed loop phase: s(E) with each piece's phase E tau / hbar, Büttiker's formula with the
+// occupation factors at each energy node (uniform step; the window is the bias window widened by
+// 36 k_B T each side, where the integrands are below e^-36 of their peak), and the conductance with
+// -df/dE = f (1 - f) / k_B T.
+void energy_averaged_noise(const NoiseSolving& ctx, const CoherentNetwork& coherent, CoherentContribution& c) {
+  const int nc = ctx.nc;
+  const std::vector<double> tof = piece_times(ctx);
+  double slowest = 0.0;
+  for (const CoherentLoop& loop : c.loops) {
+    double t = 0.0;
+    for (int p : loop.pieces) t += tof[static_cast<std::size_t>(p)];
+    slowest = std::max(slowest, t);
+  }
+  std::vector<double> mu(static_cast<std::size_t>(nc));
+  double lo = 0.0, hi = 0.0;
+  for (int a = 0; a < nc; ++a) {
+    mu[static_cast<std::size_t>(a)] = -kElementaryCharge_C * ctx.v[static_cast<std::size_t>(a)];  // electrons: -e V
+    lo = std::min(lo, mu[static_cast<std::size_t>(a)]);
+    hi = std::max(hi, mu[static_cast<std::size_t>(a)]);
+  }
+  lo -= 36.0 * ctx.kt;
+  hi += 36.0 * ctx.kt;
+  double step = 0.5 * ctx.kt;
+  if (slowest > 0.0) step = std::min(step, 0.3 * kHbar_Js / slowest);
+  const int n = ctx.opt.energy_points > 0 ? ctx.opt.energy_points
+                                          : static_cast<int>(std::clamp(std::ceil((hi - lo) / step) + 1.0, 65.0, 200001.0));
+  step = (hi - lo) / (n - 1);
+  c.energy_points = n;
+  Mat s_bias = Mat::Zero(nc, nc), s_eq = Mat::Zero(nc, nc);
+  c.conductance = Mat::Zero(nc, nc);
+  Mat fb(nc, nc), fe(nc, nc);
+  for (int k = 0; k < n; ++k) {
+    const double e = lo + step * k;
+    const CMat s = coherent.Solve(piece_phases(ctx, c.loops, 0, e, tof));
+    c.unitarity_error = std::max(c.unitarity_error, unitarity_error_of(s));
+    const double f0 = fermi(e, 0.0, ctx.kt);
+    for (int a = 0; a < nc; ++a)
+      for (int b = 0; b < nc; ++b) {
+        const double fa = fermi(e, mu[static_cast<std::size_t>(a)], ctx.kt);
+        const double fbb = fermi(e, mu[static_cast<std::size_t>(b)], ctx.kt);
+        fb(a, b) = step * (fa * (1.0 - fbb) + fbb * (1.0 - fa));
+        fe(a, b) = step * 2.0 * f0 * (1.0 - f0);
+      }
+    s_bias += coherent.Noise(s, fb);
+    s_eq += coherent.Noise(s, fe);
+    c.conductance += (step * f0 * (1.0 - f0) / ctx.kt) * scattering_conductance(ctx, coherent, s);
+  }
+  c.excess = s_bias - s_eq;
+  c.equilibrium_identity_error = equilibrium_identity_error(ctx, c.conductance, s_eq);
+}
 
 CoherentContribution coherent_noise(const NoiseSolving& ctx) {
   const NoiseOptions& opt = ctx.opt;
@@ -572,25 +674,27 @@ CoherentContribution coherent_noise(const NoiseSolving& ctx) {
   if (coherent.channels.empty() || coherent.in_pieces.empty()) return c;
   c.used = true;
   c.loops = coherent_loops(ctx, coherent);
-  const int samples = c.loops.empty() ? 1 : (opt.loop_phase_rad ? 1 : opt.phase_samples);
-  c.phase_averaged = !c.loops.empty() && !opt.loop_phase_rad;
-  c.phase_samples = samples;
-  Mat s_bias = Mat::Zero(nc, nc), s_eq = Mat::Zero(nc, nc);
-  for (int k = 0; k < samples; ++k) {
-    const CMat s = coherent.Solve(piece_phases(ctx, c.loops, k));
-    if (s.rows() == s.cols())
-      c.unitarity_error =
-          std::max(c.unitarity_error, (s.adjoint() * s - CMat::Identity(s.rows(), s.cols())).cwiseAbs().maxCoeff());
-    else
-      c.unitarity_error = std::max(c.unitarity_error, 1.0);
-    const Mat sb = coherent.Noise(s, ctx.v, ctx.temperature);
-    const Mat se = coherent.Noise(s, std::vector<double>(static_cast<std::size_t>(nc), 0.0), ctx.temperature);
-    s_bias += sb / samples;
-    s_eq += se / samples;
-    c.equilibrium_identity_error =
-        std::max(c.equilibrium_identity_error, equilibrium_identity_error(ctx, coherent, s, se));
+  if (!c.loops.empty() && opt.loop_phase_rad) {
+    energy_averaged_noise(ctx, coherent, c);
+  } else {
+    const int samples = c.loops.empty() ? 1 : opt.phase_samples;
+    c.phase_averaged = !c.loops.empty();
+    c.phase_samples = samples;
+    Mat s_bias = Mat::Zero(nc, nc), s_eq = Mat::Zero(nc, nc);
+    c.conductance = Mat::Zero(nc, nc);
+    for (int k = 0; k < samples; ++k) {
+      const CMat s = coherent.Solve(piece_phases(ctx, c.loops, k));
+      c.unitarity_error = std::max(c.unitarity_error, unitarity_error_of(s));
+      const Mat sb = coherent.Noise(s, ctx.v, ctx.temperature);
+      const Mat se = coherent.Noise(s, std::vector<double>(static_cast<std::size_t>(nc), 0.0), ctx.temperature);
+      const Mat g_s = scattering_conductance(ctx, coherent, s);
+      s_bias += sb / samples;
+      s_eq += se / samples;
+      c.conductance += g_s / samples;
+      c.equilibrium_identity_error = std::max(c.equilibrium_identity_error, equilibrium_identity_error(ctx, g_s, se));
+    }
+    c.excess = s_bias - s_eq;
   }
-  c.excess = s_bias - s_eq;
   if (c.unitarity_error > 1e-9)
     c.findings.push_back({Severity::kError, "not-unitary",
                           "the composed scattering matrix is not unitary (error " + std::to_string(c.unitarity_error) +
@@ -609,6 +713,8 @@ std::optional<std::string> apply_coherent(NoiseSolving& ctx) {
   r.phase_samples = c.phase_samples;
   r.unitarity_error = c.unitarity_error;
   r.equilibrium_identity_error = c.equilibrium_identity_error;
+  r.energy_points = c.energy_points;
+  r.coherent_conductance_S = from_eigen(c.conductance);
   r.findings.insert(r.findings.end(), c.findings.begin(), c.findings.end());
   return std::string(
              "integer channels: coherent scattering matrix with Büttiker's multi-terminal formula at finite "
@@ -616,7 +722,11 @@ std::optional<std::string> apply_coherent(NoiseSolving& ctx) {
              "channels\"); ") +
          (r.loops.empty()    ? "the network has no loop, so the phases drop out"
           : r.phase_averaged ? "averaged over " + std::to_string(r.phase_samples) + " phase configurations of its loop(s)"
-                             : "with the loop phase fixed at " + std::to_string(*ctx.opt.loop_phase_rad) + " rad");
+                             : "with the loop phase fixed at " + std::to_string(*ctx.opt.loop_phase_rad) +
+                                   " rad at the Fermi level, each edge piece adding E tau / hbar at energy E, "
+                                   "averaged over " + std::to_string(r.energy_points) +
+                                   " energies at the design temperature (docs/models.md \"Thermal average at a "
+                                   "fixed loop phase\")");
 }
 
 // Fractional channels: colliders first (they decide how their inputs' noise is carried), then the

@@ -74,6 +74,8 @@ class Device {
   // Computed on first use for each sign and kept; std::logic_error on a device that is not usable.
   const EdgeNetwork& edges(FieldSign sign = FieldSign::kDesign) const;
   const TransportResult& transport(FieldSign sign = FieldSign::kDesign) const;
+  // With a fixed loop phase and no piece times given, the times of flight come from this device's edge
+  // velocities (ComputePaths), so that the energy average of the loop phase uses the same edges.
   NoiseResult noise(const NoiseOptions& options = {}, FieldSign sign = FieldSign::kDesign) const;
   // Path metrics and constriction models in the design field, with the device's density (or the
   // fixed drift velocity under the bare estimate).

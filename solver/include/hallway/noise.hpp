@@ -46,6 +46,15 @@ std::optional<ColliderModel> ColliderModelFromString(const std::string& s);
 struct NoiseOptions {
   int phase_samples = 256;                 // phase configurations averaged when the network has loops
   std::optional<double> loop_phase_rad;    // fix the phase of every loop instead of averaging
+  // With loop_phase_rad: the time of flight tau of every edge piece (EdgeNetwork::pieces order), which
+  // makes each piece's phase energy dependent, E tau / hbar, so that the coherent scattering is averaged
+  // over energy at the design temperature (docs/models.md "Thermal average at a fixed loop phase").
+  // Empty: each piece's length over PathOptions::default_velocity_m_per_s (Device::noise fills it from
+  // the edge velocities of its own electrostatics).
+  std::vector<double> piece_time_of_flight_s;
+  // Nodes of that energy average; 0: chosen from k_B T, the bias window and the slowest loop (a step
+  // of at most k_B T / 2 and 0.3 hbar / tau_loop, over the bias window widened by 36 k_B T each side).
+  int energy_points = 0;
   double target_sigmas = 10.0;             // signal-to-noise asked of every correlation
   double collider_fano_uncertainty = 0.1;  // +- on P
   // A collider input is dilute when its stream carries at most this fraction of the bias of the hot
@@ -162,6 +171,14 @@ struct NoiseResult {
   std::vector<CoherentLoop> loops;
   bool phase_averaged = false;
   int phase_samples = 1;
+  // Nodes of the energy average at a fixed loop phase (NoiseOptions::piece_time_of_flight_s); 0 when the
+  // energy integrals are taken in closed form (no fixed phase, or no loop).
+  int energy_points = 0;
+  // The integer channels' linear-response conductance of the coherent scattering matrix, contact order,
+  // before floating contacts are eliminated, averaged as the noise is (over the loop phases, or over
+  // energy with -df/dE at a fixed loop phase): G_ab = (e^2/h) <M_a d_ab - sum |s_ab|^2>. Empty when no
+  // integer channel is fed by a contact.
+  Matrix coherent_conductance_S;
   double unitarity_error = 0.0;             // max |s^+ s - 1| over channels and phases
   double equilibrium_identity_error = 0.0;  // max |S_eq - 2 k_B T (G + G^T)| / max |2 k_B T G| (integer part)
   std::vector<AmplifierNoise> amplifiers;
