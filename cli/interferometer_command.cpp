@@ -13,6 +13,7 @@
 #include "hallway/units.hpp"
 #include "json_parts.hpp"
 #include "output.hpp"
+#include "report.hpp"
 
 namespace hallway::cli {
 
@@ -197,6 +198,16 @@ std::string map_text(const Design& d, const InterferometerResult& r, const std::
 
 }  // namespace
 
+std::string FringesText(const Design& d, const EdgeNetwork& net, const InterferometerResult& r) {
+  std::string out = "gate periods: " + r.gate_model + "\n";
+  if (r.interferometers.empty()) out += "\nNo interferometer: no loop through a constriction, no pair of arms.\n";
+  for (std::size_t i = 0; i < r.interferometers.size(); ++i)
+    out += interferometer_text(d, net, r.interferometers[i], static_cast<int>(i));
+  return out + map_text(d, r, "");
+}
+
+std::string FringesCsv(const InterferenceMap& m) { return map_csv(m); }
+
 nlohmann::json FringesJson(const Design& d, const EdgeNetwork& net, const InterferometerResult& r) {
   json list = json::array();
   for (const Interferometer& f : r.interferometers) list.push_back(interferometer_json(d, net, f));
@@ -272,7 +283,7 @@ int RunFringes(const FringesArgs& args) {
   if (r.interferometers.empty()) out += "\nNo interferometer: no loop through a constriction, no pair of arms.\n";
   for (std::size_t i = 0; i < r.interferometers.size(); ++i)
     out += interferometer_text(d, net, r.interferometers[i], static_cast<int>(i));
-  const std::string csv = r.map ? map_csv(*r.map) : std::string();
+  const std::string csv = r.map ? FringesCsv(*r.map) : std::string();
   out += map_text(d, r, args.csv_path);
   std::vector<std::string> warnings;
   for (const Finding& f : device->summary().findings) warnings.push_back(f.message);

@@ -10,10 +10,23 @@
 #include <utility>
 #include <vector>
 
+#include <nlohmann/json.hpp>
+
 #include "hallway/device.hpp"
+#include "hallway/interferometer.hpp"
 #include "hallway/map.hpp"
 #include "hallway/quantities.hpp"
 #include "hallway/wiring.hpp"
+
+namespace hallway::cli {
+
+// What `hallway fringes` prints and writes (interferometer_command.cpp), shared with the report: the
+// interferometer sections and the map summary, the map as CSV, and the JSON object.
+std::string FringesText(const Design& d, const EdgeNetwork& net, const InterferometerResult& r);
+std::string FringesCsv(const InterferenceMap& m);
+nlohmann::json FringesJson(const Design& d, const EdgeNetwork& net, const InterferometerResult& r);
+
+}  // namespace hallway::cli
 
 namespace hallway::cli::report {
 
@@ -50,6 +63,7 @@ struct ReportData {
   const std::optional<MapResult>& map;  // `hallway map`'s search; absent under --fast
   const WiringVerdict& verdict;
   const BiasScan& scan;
+  const std::optional<InterferometerResult>& fringes;  // `hallway fringes`; absent without a loop
 };
 
 // The wiring card as a table (page and wiring_card.csv): the rows of `hallway check`.

@@ -3,6 +3,7 @@
 #include <fmt/core.h>
 #include <unistd.h>
 
+#include <algorithm>
 #include <cmath>
 #include <filesystem>
 #include <fstream>
@@ -225,6 +226,29 @@ void draw_transmission_plots(const ReportData& r, const fs::path& dir,
   }
 }
 
+// The interference map of `hallway fringes`: G(flux, plunger) in units of e^2/h.
+void draw_interference_map(const ReportData& r, const fs::path& dir,
+                           std::vector<std::pair<fs::path, std::string>>* pictures) {
+  if (!r.fringes || !r.fringes->map) return;
+  const InterferenceMap& m = *r.fringes->map;
+  const std::string gate = r.d.gates[static_cast<std::size_t>(m.plunger)].name;
+  figures::GridMap g;
+  g.x = m.flux_quanta;
+  g.y = m.plunger_V;
+  for (double s : m.conductance_S) g.z.push_back(s / constants::kConductanceQuantum_S);
+  g.x_label = "flux added to the loop (h/e)";
+  g.y_label = "gate " + gate + " (V)";
+  g.z_label = "G (e^2/h)";
+  g.title = "interference: G = |dI/dV| from " + r.d.contacts[static_cast<std::size_t>(m.source)].name + " to " +
+            r.d.contacts[static_cast<std::size_t>(m.amplifier)].name + ", energy-averaged at the design temperature";
+  for (auto f : {figures::Format::kPng, figures::Format::kSvg})
+    figures::DrawGridMap(g, (dir / ("interference_map." + figures::ToString(f))).string(), f);
+  pictures->push_back({dir / "interference_map.png",
+                       "Conductance against flux and gate " + gate +
+                           " (Aharonov-Bohm phase, arbitrary origin; docs/models.md \"Thermal average at a fixed loop "
+                           "phase\")"});
+}
+
 // Draws every figure into `dir`; returns the pictures for the page with their captions. Throws on failure.
 std::vector<std::pair<fs::path, std::string>> draw_figures(const ReportData& r, const fs::path& dir) {
   std::vector<std::pair<fs::path, std::string>> pictures;
@@ -245,6 +269,7 @@ std::vector<std::pair<fs::path, std::string>> draw_figures(const ReportData& r, 
   }
   draw_transmission_plots(r, dir, &pictures);
   draw_bias_plots(r, dir, &pictures);
+  draw_interference_map(r, dir, &pictures);
   for (const ColliderPrediction& c : r.noise.colliders) {
     if (!(c.exchange_pi > 0 && c.exchange_pi < 0.5 && c.scaling > 0 && c.scaling < 0.5)) continue;
     figures::Series s{"P(I-/I+)", {}, {}};
@@ -296,6 +321,7 @@ json result_json(const ReportData& r, const std::vector<std::string>& warnings) 
   for (const char* key : {"paths", "loops", "constriction_models", "source_paths", "floating_contacts"})
     result[key] = pj[key];
   result["map"] = r.map ? map_json(*r.map) : json(nullptr);
+  result["fringes"] = r.fringes ? FringesJson(d, r.plus, *r.fringes) : json(nullptr);
   json columns = json::array({"bias_scale"}), rows = json::array();
   for (const auto& c : r.scan.columns) columns.push_back(c);
   for (std::size_t k = 0; k < r.scan.scale.size(); ++k) {
@@ -335,6 +361,8 @@ int write_files(const ReportData& r, const fs::path& dir, const std::string& des
     WriteFileAtomically((dir / "amplifiers.csv").string(), AmplifierTable(r).csv(), {design_path});
     WriteFileAtomically((dir / "wiring_card.csv").string(), CardTable(r.d, r.verdict).csv(), {design_path});
     WriteFileAtomically((dir / "bias_scan.csv").string(), scan_csv(r.d, r.scan), {design_path});
+    if (r.fringes && r.fringes->map)
+      WriteFileAtomically((dir / "interference_map.csv").string(), FringesCsv(*r.fringes->map), {design_path});
     WriteFileAtomically((dir / "result.json").string(), result.dump(2) + "\n", {design_path});
     WriteFileAtomically((dir / "report.html").string(), h, {design_path});
   } catch (const OutputError& e) {
@@ -414,7 +442,7 @@ int RunReport(const ReportArgs& args) {
   std::optional<Device> device;
   std::string es_note;
   if (int code = 0; !BuildDevice(std::move(design), args.fast, max_memory, &device, &es_note, &code)) return code;
-  const Progress progress("report", 6, args.quiet);
+  const Progress progress("report", 7, args.quiet);
   const Design& d = device->design();
   progress.Step(0, "edge network, both field directions");
   const EdgeNetwork &plus = device->edges(FieldSign::kDesign), &minus = device->edges(FieldSign::kReversed);
@@ -434,15 +462,28 @@ int RunReport(const ReportArgs& args) {
   if (int code = 0; !args.fast && !run_map(d, max_memory, &map, &code)) return code;
   progress.Step(4, "bias scan");
   const BiasScan scan = bias_scan(*device, noise, noise_options);
-  const ReportData r{*device, d, args.fast, es_note, plus, minus, tp, tm, noise, paths, po, map, verdict, scan};
+  progress.Step(5, "interferometers");
+  std::optional<InterferometerResult> fringes;
+  if (std::any_of(paths.loops.begin(), paths.loops.end(), [](const LoopMetrics& l) { return !l.closed_edge; })) {
+    DeviceOptions dopt;  // as BuildDevice made the device
+    dopt.bare_estimate = args.fast;
+    dopt.electrostatics.max_memory_bytes = max_memory;
+    InterferometerOptions io;  // a coarser map than `hallway fringes`' default: the report's figure needs no more
+    io.flux_points = 17;
+    io.plunger_points = 9;
+    fringes = AnalyseInterferometers(*device, dopt, io);
+  }
+  const ReportData r{*device, d,  args.fast, es_note, plus,  minus,  tp,
+                     tm,      noise, paths,   po,      map,     verdict, scan, fringes};
 
   // Nothing is drawn or written from a result that holds NaN or infinity.
-  if (!RequireFiniteJson(TransportJson(d, plus, tp), "the transport results for +B") ||
+  if ((fringes && !RequireFiniteJson(FringesJson(d, plus, *fringes), "the interferometer results")) ||
+      !RequireFiniteJson(TransportJson(d, plus, tp), "the transport results for +B") ||
       !RequireFiniteJson(TransportJson(d, minus, tm), "the transport results for -B") ||
       !RequireFiniteJson(NoiseJson(d, noise), "the noise results") ||
       !RequireFiniteJson(PathsJson(d, plus, paths), "the path metrics and constriction models"))
     return kExitInternal;
-  progress.Step(5, "figures, tables and page");
+  progress.Step(6, "figures, tables and page");
   std::vector<std::pair<fs::path, std::string>> pictures;
   try {
     pictures = draw_figures(r, dir);

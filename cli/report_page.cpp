@@ -780,13 +780,23 @@ std::vector<std::string> ReportWarnings(const ReportData& r) {
   return w;
 }
 
+// The interferometers, as `hallway fringes` prints them (the same digits).
+std::string fringes_html(const ReportData& r) {
+  if (!r.fringes) return "";
+  std::string h = "<h3 id=\"interferometers\">Interferometers</h3>\n";
+  h += model("kinds, flux, field and gate periods, thermal visibility, coupling energies and regime, and the map of "
+             "G(flux, gate) from the energy-averaged coherent scattering",
+             {"Interferometer kinds and periods", "Coupling energies of a cavity", "Thermal average at a fixed loop phase"});
+  return h + "<pre>" + esc(FringesText(r.d, r.plus, *r.fringes)) + "</pre>\n";
+}
+
 std::string PageHtml(const ReportData& r, const std::vector<std::pair<std::filesystem::path, std::string>>& pictures,
                      const std::vector<std::string>& warnings) {
   std::string h = head_html(r) + verdict_html(r);
   h += "<h2 id=\"signals\">Signals and times</h2>\n" + transport_html(r) + noise_html(r);
   h += "<h2 id=\"physics\">The physics behind them</h2>\n" + heterostructure_html(r) + checks_html(r) +
        electrostatics_html(r) + map_html(r) + channels_html(r) + constriction_models_html(r) + edges_html(r) +
-       loops_html(r);
+       loops_html(r) + fringes_html(r);
   h += "<h2 id=\"figures\">Figures</h2>\n";
   for (const auto& [png, caption] : pictures) h += FigureHtml(png, caption);
   h += "<h2 id=\"warnings\">Warnings (" + std::to_string(warnings.size()) + ")</h2>\n<ul>\n";

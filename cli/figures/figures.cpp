@@ -848,4 +848,75 @@ Drawing DrawPlot(const std::vector<Series>& series, const std::string& xl, const
   return out;
 }
 
+namespace {
+
+// The colour bar of a grid map: zmin (palette start, bottom) to zmax (top), ticks inside the range.
+void grid_bar(cairo_t* cr, const PlotFrame& f, double zmin, double zmax, const std::string& label) {
+  const double cx = f.w - f.r + 22, cy = f.t, ch = f.h - f.t - f.b;
+  for (int k = 0; k < 100; ++k) {
+    set(cr, sequential(1.0 - k / 100.0));
+    cairo_rectangle(cr, cx, cy + k * ch / 100, 16, ch / 100 + 0.5);
+    cairo_fill(cr);
+  }
+  cairo_set_source_rgb(cr, 0.1, 0.1, 0.1);
+  const Ticks t = make_ticks(zmin, zmax, 4);
+  cairo_set_line_width(cr, 1);
+  for (double z : t.values) {
+    const double y = cy + (1.0 - (z - zmin) / (zmax - zmin)) * ch;
+    cairo_move_to(cr, cx + 16, y);
+    cairo_line_to(cr, cx + 20, y);
+    cairo_stroke(cr);
+    text(cr, cx + 22, y + 4, tick_label(z, t), 10);
+  }
+  text(cr, f.w - f.r + 4, cy - 10, axis_title(label, t), 11);
+}
+
+}  // namespace
+
+Drawing DrawGridMap(const GridMap& m, const std::string& path, Format format) {
+  const std::size_t nx = m.x.size(), ny = m.y.size();
+  if (nx < 2 || ny < 2 || m.z.size() != nx * ny)
+    throw std::invalid_argument("DrawGridMap: need at least 2 x 2 points and one z per point");
+  PlotFrame f;
+  f.l = 84;
+  f.r = 150;
+  f.xmin = m.x.front();
+  f.xmax = m.x.back();
+  f.ymin = m.y.front();
+  f.ymax = m.y.back();
+  f.xt = make_ticks(f.xmin, f.xmax, 5);
+  f.yt = make_ticks(f.ymin, f.ymax, 5);
+  const auto [lo, hi] = std::minmax_element(m.z.begin(), m.z.end());
+  double zmin = *lo, zmax = *hi;
+  // A flat map (no visibility left) still gets a bar: a range of one part in 1e6 around its value.
+  if (!(zmax > zmin + 1e-6 * std::abs(zmin))) {
+    const double half = std::max(5e-7 * std::abs(zmin), 1e-300);
+    zmin -= half;
+    zmax += half;
+  }
+  Drawing out;
+  out.width_px = f.w;
+  out.height_px = f.h;
+  render(path, format, f.w, f.h, &out.texts, [&](cairo_t* cr) {
+    const double dx = (f.xmax - f.xmin) / static_cast<double>(nx - 1), dy = (f.ymax - f.ymin) / static_cast<double>(ny - 1);
+    cairo_save(cr);
+    cairo_rectangle(cr, f.l, f.t, f.w - f.l - f.r, f.h - f.t - f.b);
+    cairo_clip(cr);
+    for (std::size_t j = 0; j < ny; ++j)
+      for (std::size_t i = 0; i < nx; ++i) {
+        set(cr, sequential((m.z[j * nx + i] - zmin) / (zmax - zmin)));
+        const double x0 = f.X(m.x[i] - dx / 2), x1 = f.X(m.x[i] + dx / 2);
+        const double y0 = f.Y(m.y[j] + dy / 2), y1 = f.Y(m.y[j] - dy / 2);
+        cairo_rectangle(cr, x0, y0, x1 - x0 + 0.5, y1 - y0 + 0.5);
+        cairo_fill(cr);
+      }
+    cairo_restore(cr);
+    draw_axes(cr, f, m.x_label, m.y_label);
+    grid_bar(cr, f, zmin, zmax, m.z_label);
+    cairo_set_source_rgb(cr, 0.1, 0.1, 0.1);
+    text(cr, 10, 24, m.title, 13);
+  });
+  return out;
+}
+
 }  // namespace hallway::figures

@@ -74,4 +74,13 @@ struct Series {
 Drawing DrawPlot(const std::vector<Series>& series, const std::string& x_label, const std::string& y_label,
                  const std::string& title, const std::string& path, Format format);
 
+// A colour map of z on the regular grid x (columns) by y (rows), z row-major with x fastest, with axes,
+// ticks and a colour bar from the smallest to the largest z (the sequential palette above). Used for
+// the interference map G(flux, plunger) of `hallway report`.
+struct GridMap {
+  std::vector<double> x, y, z;
+  std::string x_label, y_label, z_label, title;
+};
+Drawing DrawGridMap(const GridMap& map, const std::string& path, Format format);
+
 }  // namespace hallway::figures
