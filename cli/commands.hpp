@@ -128,7 +128,7 @@ struct FringesArgs {
   std::string json_path;
   std::string csv_path;    // the map G(Phi, V) and the excess noise
   std::string plunger;     // gate swept in the map; empty: the library's choice
-  std::string gate_step;   // "20 mV"; empty: the default
+  std::string gate_step;   // "5 mV"; empty: the default
   int flux_points = 25;
   int plunger_points = 13;
   bool no_map = false;

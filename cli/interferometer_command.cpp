@@ -110,6 +110,7 @@ json interferometer_json(const Design& d, const EdgeNetwork& net, const Interfer
                      {"loop_time_per_volt_s_per_V", e.time_per_volt_s_per_V},
                      {"visibility_at_minus_step", e.visibility_low},
                      {"visibility_at_plus_step", e.visibility_high},
+                     {"area_linear_over_step", e.linear},
                      {"note", e.note}});
   json inside = json::array();
   for (int c : f.contacts_inside) inside.push_back(d.contacts[static_cast<std::size_t>(c)].name);
@@ -180,7 +181,7 @@ std::string map_text(const Design& d, const InterferometerResult& r, const std::
   const auto [gmin, gmax] = std::minmax_element(m.conductance_S.begin(), m.conductance_S.end());
   const auto [smin, smax] = std::minmax_element(m.excess_A2_per_Hz.begin(), m.excess_A2_per_Hz.end());
   std::string out = fmt::format(
-      "\nMap of G(Phi, V_{}) (interferometer {}): {} x {} points, {} energies per point (docs/models.md \"Thermal "
+      "\nMap of G(Phi, V_{}) (interferometer {}): {} x {} points, up to {} energies per point (docs/models.md \"Thermal "
       "average at a fixed loop phase\")\n",
       d.gates[static_cast<std::size_t>(m.plunger)].name, m.interferometer + 1, m.flux_quanta.size(), m.plunger_V.size(),
       m.energy_points);

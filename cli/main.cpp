@@ -103,7 +103,7 @@ void AddFringes(CLI::App& app, FringesArgs& a) {
   f->add_option("--csv", a.csv_path, "Write the map G(flux, plunger) and the excess noise as CSV to this file" + kPathNote);
   f->add_flag("--fast", a.fast, "Bare-potential channel boundaries and a fixed drift velocity");
   f->add_option("--plunger", a.plunger, "Gate swept in the map (default: the gate with the shortest period that forms no constriction)");
-  f->add_option("--gate-step", a.gate_step, "Step of each gate in the differences dA/dV, e.g. '20 mV' (default 20 mV)");
+  f->add_option("--gate-step", a.gate_step, "Step of each gate in the differences dA/dV, e.g. '5 mV' (default 10 mV)");
   f->add_option("--flux-points", a.flux_points, "Flux points of the map (default 25)");
   f->add_option("--plunger-points", a.plunger_points, "Plunger points of the map (default 13)");
   f->add_flag("--no-map", a.no_map, "Periods, visibility and regime only");

@@ -76,6 +76,7 @@ bool InterferometerOptions::IsValid(std::string* why) const {
 }
 
 double FabryPerotTransmission(double t1, double t2, double theta) {
+  if (t1 <= 0.0 || t2 <= 0.0) return 0.0;  // a closed constriction (the form is 0 / 0 at t1 = t2 = 0, theta = 0)
   const double r = std::sqrt((1.0 - t1) * (1.0 - t2));
   return t1 * t2 / (1.0 + r * r - 2.0 * r * std::cos(theta));
 }
@@ -357,6 +358,9 @@ Interferometer describe(const Design& d, const Shape& s, double field_T) {
   f.visibility = ThermalDamping(s.time_s, temperature);
   if (f.kind == InterferometerKind::kMachZehnder && f.contacts_inside.empty())
     f.notes.push_back("no contact lies inside the two arms: a Mach–Zehnder layout needs its drain there");
+  if (f.kind == InterferometerKind::kMachZehnder)
+    f.notes.push_back("the two arms are not a loop of the edge network: `noise` and the map do not vary their phase "
+                      "difference (the noise takes them in phase); periods and visibility above hold");
   if (f.fractional)
     f.notes.push_back(
         "fractional channel (charge " + std::to_string(f.charge_e).substr(0, 5) +
@@ -433,9 +437,18 @@ GateEffect gate_effect(const Design& d, const MovedShapes& m, int g, double h, c
   const double b = std::abs(d.conditions.field_T);
   // An area change below one part in 1e9 of the area is rounding, not a response.
   e.resolved = std::abs(hi->area_m2 - lo->area_m2) > 1e-9 * target.area_m2 && b > 0.0;
+  const double below = (target.area_m2 - lo->area_m2) / h, above = (hi->area_m2 - target.area_m2) / h;
+  e.linear = std::abs(above - below) <= 0.3 * std::max(std::abs(above), std::abs(below));
   if (e.resolved)
     e.period_V = kFluxQuantum_Wb / (charge_e * b * std::abs(e.area_per_volt_m2_per_V));
-  else
+  if (e.resolved && !e.linear) {
+    char buf[240];
+    std::snprintf(buf, sizeof buf,
+                  "the area is not linear over +-%.3g V (one-sided dA/dV %.4g and %.4g um^2/V): the period is "
+                  "uncertain; try a smaller step",
+                  h, below * 1e12, above * 1e12);
+    e.note = buf;
+  } else if (!e.resolved)
     e.note = "the loop's area does not move within +-" + std::to_string(h).substr(0, 5) + " V: no period";
   const std::string v = visibility_note(e, target, h);
   if (!v.empty()) e.note += (e.note.empty() ? "" : "; ") + v;
@@ -550,12 +563,11 @@ std::optional<InterferenceMap> compute_map(const Device& device, const PathResul
     no.piece_time_of_flight_s = tof;
     const double scale = f.time_s > 0.0 ? std::max(0.0, 1.0 + e->time_per_volt_s_per_V * (v - v0) / f.time_s) : 1.0;
     for (int p : f.arms) no.piece_time_of_flight_s[static_cast<std::size_t>(p)] *= scale;
-    no.energy_points = m.energy_points;
     for (double phi : m.flux_quanta) {
       no.loop_phase_rad = 2.0 * std::numbers::pi * (phi + b * e->area_per_volt_m2_per_V * (v - v0) / kFluxQuantum_Wb);
+      // Each point's energy grid is SolveNoise's own choice for its times, as `noise --phase` makes it.
       const NoiseResult n = SolveNoise(d, net, tr, no);
-      m.energy_points = n.energy_points;
-      no.energy_points = n.energy_points;  // one energy grid for the whole map
+      m.energy_points = std::max(m.energy_points, n.energy_points);
       m.conductance_S.push_back(terminal_conductance(d, tr, n.coherent_conductance_S, m.amplifier, m.source));
       m.excess_A2_per_Hz.push_back(
           n.excess_A2_per_Hz[static_cast<std::size_t>(m.amplifier)][static_cast<std::size_t>(m.amplifier)]);

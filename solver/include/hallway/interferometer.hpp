@@ -43,7 +43,7 @@ std::optional<InterferenceRegime> InterferenceRegimeFromString(const std::string
 struct InterferometerOptions {
   // Step of each gate voltage in the central differences dA/dV (V, > 0 and <= 0.1): small against the
   // voltage over which the edge moves by a cell, large enough that the area change is resolved.
-  double gate_step_V = 0.02;
+  double gate_step_V = 0.01;
   // At most this many gates are differentiated (two electrostatic solves each), in design order.
   int max_gates = 8;
   // Width of the edge strip of the interfering channel in the coupling model (m); 0: the 2DEG depth d.
@@ -74,6 +74,9 @@ struct GateEffect {
   double length_per_volt_m_per_V = 0.0;  // d(round trip or arm difference)/dV
   double time_per_volt_s_per_V = 0.0;    // d tau / dV (the visibility's argument)
   double visibility_low = 0.0, visibility_high = 0.0;  // at V - step and V + step
+  // The one-sided slopes (A(V) - A(V - step)) / step and (A(V + step) - A(V)) / step agree within 30 %;
+  // false: A(V) bends or jumps within the step (an edge moving onto another gate), the period is uncertain.
+  bool linear = true;
   std::string note;  // why unresolved, or what moved the visibility
 };
 
@@ -131,7 +134,7 @@ struct InterferenceMap {
   std::vector<double> plunger_V;      // absolute gate voltages
   std::vector<double> conductance_S;  // |dI_amplifier / dV_source| with floating contacts eliminated
   std::vector<double> excess_A2_per_Hz;
-  int energy_points = 0;
+  int energy_points = 0;  // the most energy nodes any point used
 };
 
 struct InterferometerResult {
