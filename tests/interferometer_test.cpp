@@ -153,6 +153,76 @@ TEST(Interferometer, MachZehnderVisibilityIsXOverSinhX) {
   EXPECT_EQ(ThermalDamping(0.0, 0.02), 1.0);
 }
 
+// A Mach-Zehnder network drawn by hand: contact S feeds splitter A; its two outputs run as arms of
+// lengths l1 (over the top) and l2 (under the bottom) to merger B, around drain D; B feeds X and D.
+struct HandDrawn {
+  Design d;
+  EdgeNetwork net;
+  PathResult paths;
+};
+
+HandDrawn mach_zehnder(double v_m_per_s) {
+  HandDrawn h;
+  const double um = 1e-6;
+  auto box = [&](double x0, double y0, double x1, double y1) {
+    return geometry::Polygon{{{x0 * um, y0 * um}, {x1 * um, y0 * um}, {x1 * um, y1 * um}, {x0 * um, y1 * um}}};
+  };
+  h.d.conditions.temperature_K = 0.02;
+  h.d.conditions.field_T = 5.0;
+  h.d.conditions.filling = MakeFraction(1, 1);
+  h.d.channels = {Channel{MakeFraction(1, 1), 1.0, std::nullopt, std::nullopt, ""}};
+  h.d.contacts = {{"S", box(-9, -1, -7, 1), {}}, {"D", box(-0.5, -1, 0.5, 0), {}}, {"X", box(7, -1, 9, 1), {}}};
+  Constriction a, b;
+  a.name = "A";
+  b.name = "B";
+  a.transmission = b.transmission = {0.5};
+  h.d.constrictions = {a, b};
+  auto end = [](EdgeEnd::Kind k, int index, int face) { return EdgeEnd{k, index, face}; };
+  using K = EdgeEnd::Kind;
+  auto piece = [&](EdgeEnd from, EdgeEnd to, std::vector<geometry::Point> path) {
+    EdgePiece p{0, from, to, 0.0, {}};
+    for (auto& q : path) p.path.push_back({q.x * um, q.y * um});
+    for (std::size_t i = 1; i < p.path.size(); ++i) p.length_m += geometry::distance(p.path[i - 1], p.path[i]);
+    h.net.pieces.push_back(p);
+  };
+  piece(end(K::kContact, 0, 0), end(K::kConstriction, 0, 0), {{-7, 0}, {-2, 0}});
+  piece(end(K::kConstriction, 0, 0), end(K::kConstriction, 1, 0), {{-2, 0}, {-2, 1}, {2, 1}, {2, 0}});    // 6 um
+  piece(end(K::kConstriction, 0, 1), end(K::kConstriction, 1, 1), {{-2, 0}, {-2, -2}, {2, -2}, {2, 0}});  // 8 um
+  piece(end(K::kConstriction, 1, 0), end(K::kContact, 2, 0), {{2, 0}, {7, 0}});
+  piece(end(K::kConstriction, 1, 1), end(K::kContact, 1, 0), {{2, 0}, {0, -0.5}});
+  h.net.field_T = 5.0;
+  for (std::size_t p = 0; p < h.net.pieces.size(); ++p) {
+    PieceMetrics m;
+    m.piece = static_cast<int>(p);
+    m.length_m = h.net.pieces[p].length_m;
+    m.velocity_m_per_s = v_m_per_s;
+    m.time_of_flight_s = m.length_m / v_m_per_s;
+    h.paths.pieces.push_back(m);
+  }
+  return h;
+}
+
+TEST(Interferometer, MachZehnderIsFoundAroundItsDrainWithTheVisibilityOfChungSamuelssonButtiker) {
+  // Two arms from the faces of splitter A to merger B around drain D: a Mach-Zehnder interferometer;
+  // its first harmonic is damped by x / sinh x, x = 2 pi^2 k_B T dL / (h v) (Chung, Samuelsson &
+  // Büttiker, Phys. Rev. B 72, 125320 (2005)), dL = 8 - 6 um; its flux period is h / (e A), A the
+  // 4 um x 3 um rectangle the arms enclose (docs/models.md "Interferometer kinds and periods").
+  const double v = 2.5e4;
+  const HandDrawn h = mach_zehnder(v);
+  const std::vector<Interferometer> found = FindInterferometers(h.d, h.net, h.paths);
+  ASSERT_EQ(found.size(), 1u);
+  const Interferometer& f = found[0];
+  EXPECT_EQ(f.kind, InterferometerKind::kMachZehnder);
+  EXPECT_EQ(f.constrictions, (std::vector<int>{0, 1}));
+  EXPECT_EQ(f.contacts_inside, (std::vector<int>{1}));
+  EXPECT_NEAR(f.length_m, 2e-6, 1e-15);
+  const double x = 2 * std::numbers::pi * std::numbers::pi * kBoltzmann_J_per_K * 0.02 * 2e-6 / (kPlanck_Js * v);
+  EXPECT_TRUE(NearRel(f.thermal_argument, x, 1e-12));
+  EXPECT_TRUE(NearRel(f.visibility, x / std::sinh(x), 1e-12));
+  EXPECT_TRUE(NearRel(f.flux_period_T, kPlanck_Js / (kElementaryCharge_C * 12e-12), 1e-9));
+  EXPECT_FALSE(f.coupling.has_value());
+}
+
 geometry::Polygon disc(double radius_m, int sides) {
   geometry::Polygon p;
   for (int k = 0; k < sides; ++k) {

@@ -611,6 +611,12 @@ void characterise(const Device& device, const DeviceOptions& device_options, con
 
 }  // namespace
 
+std::vector<Interferometer> FindInterferometers(const Design& d, const EdgeNetwork& net, const PathResult& paths) {
+  std::vector<Interferometer> out;
+  for (const Shape& s : shapes_of(d, net, paths)) out.push_back(describe(d, s, d.conditions.field_T));
+  return out;
+}
+
 InterferometerResult AnalyseInterferometers(const Device& device, const DeviceOptions& device_options,
                                             const InterferometerOptions& opt) {
   if (std::string why; !opt.IsValid(&why)) throw std::invalid_argument(why);
@@ -619,7 +625,7 @@ InterferometerResult AnalyseInterferometers(const Device& device, const DeviceOp
   InterferometerResult r;
   const PathResult paths = ComputePaths(d, device.edges(), device.transport(), device.density());
   const std::vector<Shape> shapes = shapes_of(d, device.edges(), paths);
-  for (const Shape& s : shapes) r.interferometers.push_back(describe(d, s, d.conditions.field_T));
+  r.interferometers = FindInterferometers(d, device.edges(), paths);
   r.gate_model =
       device.density()
           ? "central differences of the self-consistent Thomas-Fermi electrostatics, each solve warm-started from the "

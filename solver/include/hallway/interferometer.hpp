@@ -153,6 +153,12 @@ struct InterferometerResult {
 InterferometerResult AnalyseInterferometers(const Device& device, const DeviceOptions& device_options,
                                             const InterferometerOptions& options = {});
 
+// The interferometers of an edge network with its path metrics (ComputePaths): kinds, arms, channels,
+// flux and field periods and thermal visibility, without the gate differences, the coupling energies or
+// the map (which need the device).
+std::vector<Interferometer> FindInterferometers(const Design& design, const EdgeNetwork& network,
+                                                const PathResult& paths);
+
 // The closed Airy form of two constrictions of transmissions t1, t2 in series with round-trip phase
 // theta: T = t1 t2 / (1 + r1 r2 - 2 sqrt(r1 r2) cos theta), r = 1 - t (Datta, Electronic Transport in
 // Mesoscopic Systems, Cambridge 1995, ch. 3; docs/models.md "Thermal average at a fixed loop phase").
