@@ -238,8 +238,8 @@ TEST(Interferometer, CouplingRatioGivesTheRegimesOfHalperinSternNederRosenow) {
   // decouples interior and edge; without screening (d much larger than the cavity) the two regions act
   // as one island.
   const geometry::Polygon cav = disc(1e-6, 64);
-  const CavityCoupling screened = CavityCouplingOf(cav, 100e-9, 10e-9, 12.9, 48, 0.2, 0.8);
-  const CavityCoupling bare = CavityCouplingOf(cav, 100e-9, 1e-3, 12.9, 48, 0.2, 0.8);
+  const CavityCoupling screened = CavityCouplingOf(cav, 100e-9, 10e-9, 12.9, 24, 0.2, 0.8);
+  const CavityCoupling bare = CavityCouplingOf(cav, 100e-9, 1e-3, 12.9, 24, 0.2, 0.8);
   EXPECT_LT(screened.ratio, 0.2);
   EXPECT_EQ(screened.regime, InterferenceRegime::kAharonovBohm);
   EXPECT_GT(bare.ratio, 0.8);
@@ -247,7 +247,7 @@ TEST(Interferometer, CouplingRatioGivesTheRegimesOfHalperinSternNederRosenow) {
   // Positive-definite energy: K_IL^2 < K_I K_L.
   for (const CavityCoupling* c : {&screened, &bare}) EXPECT_LT(c->coupling_J * c->coupling_J, c->interior_J * c->edge_J);
   // The printed sensitivities point the same way: a closer screening plane lowers the ratio.
-  const CavityCoupling mid = CavityCouplingOf(cav, 100e-9, 200e-9, 12.9, 48, 0.2, 0.8);
+  const CavityCoupling mid = CavityCouplingOf(cav, 100e-9, 200e-9, 12.9, 24, 0.2, 0.8);
   EXPECT_LT(mid.ratio_half_depth, mid.ratio);
   EXPECT_GT(mid.ratio, screened.ratio);
   EXPECT_LT(mid.ratio, bare.ratio);
@@ -257,8 +257,8 @@ TEST(Interferometer, LargerCavityHasSmallerInteriorChargingEnergy) {
   // Halperin et al. (2011): K_I is the interior's charging energy, e^2 / C_I, and C_I grows with size;
   // an isolated disc has C = 8 eps r (Jackson, Classical Electrodynamics, 3rd ed. 1999), so K_I falls
   // as 1 / r when the screening plane is far.
-  const CavityCoupling small = CavityCouplingOf(disc(0.5e-6, 64), 50e-9, 1e-3, 12.9, 40, 0.2, 0.8);
-  const CavityCoupling large = CavityCouplingOf(disc(1.0e-6, 64), 50e-9, 1e-3, 12.9, 40, 0.2, 0.8);
+  const CavityCoupling small = CavityCouplingOf(disc(0.4e-6, 64), 100e-9, 1e-3, 12.9, 24, 0.2, 0.8);
+  const CavityCoupling large = CavityCouplingOf(disc(0.8e-6, 64), 100e-9, 1e-3, 12.9, 24, 0.2, 0.8);
   EXPECT_LT(large.interior_J, small.interior_J);
   EXPECT_LT(small.interior_double_size_J, small.interior_J);
   // Same island far from any screen: K_I + 2 K_IL + K_L over 4 is e^2 / C_total; the thin-disc value
@@ -266,7 +266,7 @@ TEST(Interferometer, LargerCavityHasSmallerInteriorChargingEnergy) {
   const double eps = 12.9 * constants::kVacuumPermittivity_F_per_m;
   const double whole = (large.interior_J * large.edge_J - large.coupling_J * large.coupling_J) /
                        (large.interior_J + large.edge_J - 2 * large.coupling_J);
-  EXPECT_TRUE(NearRel(whole, kElementaryCharge_C * kElementaryCharge_C / (8 * eps * 1.0e-6), 0.15));
+  EXPECT_TRUE(NearRel(whole, kElementaryCharge_C * kElementaryCharge_C / (8 * eps * 0.8e-6), 0.15));
 }
 
 TEST(Interferometer, FluxPeriodIsHOverEAOfTheLoopsExactArea) {
@@ -347,6 +347,22 @@ TEST(Interferometer, FringesCommandOnTheFabryPerotDemoAgreesWithNoisePhase) {
   EXPECT_GT(n["energy_points"].get<int>(), 0);
   const double centre = j["map"]["excess_noise_A2_per_Hz"][7].get<double>();
   EXPECT_TRUE(NearRel(centre, n["noise_excess_A2_per_Hz"][e][e].get<double>(), 1e-6));
+  // The report holds the same interferometer numbers, its map as CSV (17 x 9 points) and as a figure.
+  const std::string rep = dir + "/fringes_report";
+  const test::CommandRun report = test::RunHallway(
+      "report '" + test::SourcePath("designs/03_fabry_perot.yaml") + "' --fast --quiet -o '" + rep + "'");
+  ASSERT_EQ(report.exit_code, 0) << report.output;
+  std::ifstream rin(rep + "/result.json");
+  const nlohmann::json rj = nlohmann::json::parse(rin);
+  const nlohmann::json& rf = rj["fringes"]["interferometers"][0];
+  for (const char* key : {"flux_period_T", "area_m2", "thermal_visibility", "slope_ab_V_per_T"})
+    EXPECT_EQ(rf[key].get<double>(), f[key].get<double>()) << key;
+  EXPECT_EQ(rf["coupling"]["mutual_over_interior"].get<double>(), f["coupling"]["mutual_over_interior"].get<double>());
+  std::ifstream rcsv(rep + "/interference_map.csv");
+  rows = -1;
+  while (std::getline(rcsv, line)) ++rows;
+  EXPECT_EQ(rows, 17 * 9);
+  EXPECT_TRUE(std::ifstream(rep + "/interference_map.png").good());
 }
 
 }  // namespace

@@ -119,11 +119,33 @@ CouplingCells cells_of(const geometry::Polygon& loop, double w, int cells) {
 // The interior and the edge strip as two conductors (each an equipotential, as a compressible region
 // is): the cells' potential coefficients p_ij = G(r_ij) (times 4 pi eps; a cell's own is the mean over
 // a uniformly charged square of side h), the capacitance matrix C_ab = sum over i in a, j in b of
-// (p^-1)_ij, and the inverse capacitance matrix P = C^-1; K = e^2 P.
+// (p^-1)_ij, and the inverse capacitance matrix P = C^-1; K = e^2 P. Cells apart are taken as points.
 struct Energies {
   double ki = 0.0, kl = 0.0, kil = 0.0, ai = 0.0, al = 0.0;
   bool ok = false;
 };
+
+// The probability density of the distance s between two points drawn uniformly from the unit square
+// (the standard square line-picking density): 2s (pi - 4s + s^2) for s <= 1, and
+// 2s (4 sqrt(s^2 - 1) - (s^2 + 2 - pi) - 4 arccos(1/s)) up to sqrt 2.
+double square_distance_density(double s) {
+  if (s <= 1.0) return 2.0 * s * (std::numbers::pi - 4.0 * s + s * s);
+  return 2.0 * s * (4.0 * std::sqrt(s * s - 1.0) - (s * s + 2.0 - std::numbers::pi) - 4.0 * std::acos(1.0 / s));
+}
+
+// A cell's own potential coefficient (times 4 pi eps): the mean over the square of side h of the
+// potential of its uniform charge, 1/r, minus that of its image at height 2d, averaged with the
+// distance density (midpoint rule; the image term is smooth for d > 0).
+double cell_self_coefficient(double h, double d) {
+  constexpr int kPoints = 4000;
+  const double top = std::numbers::sqrt2, ds = top / kPoints, a = 2.0 * d / h;
+  double image = 0.0;
+  for (int k = 0; k < kPoints; ++k) {
+    const double s = (k + 0.5) * ds;
+    image += square_distance_density(s) / std::sqrt(s * s + a * a) * ds;
+  }
+  return (kSquareSelf - image) / h;
+}
 
 Energies coupling_energies(const geometry::Polygon& loop, double w, double d, double eps, int cells) {
   const CouplingCells c = cells_of(loop, w, cells);
@@ -132,14 +154,14 @@ Energies coupling_energies(const geometry::Polygon& loop, double w, double d, do
   std::vector<geometry::Point> all = c.interior;
   all.insert(all.end(), c.strip.begin(), c.strip.end());
   const int n = static_cast<int>(all.size()), ni = static_cast<int>(c.interior.size());
-  const double four_d2 = 4.0 * d * d, h = c.cell_m;
+  const double four_d2 = 4.0 * d * d, h = c.cell_m, self = cell_self_coefficient(h, d);
   Eigen::MatrixXd p(n, n);
   for (int i = 0; i < n; ++i)
     for (int j = 0; j < n; ++j) {
       const double dx = all[static_cast<std::size_t>(i)].x - all[static_cast<std::size_t>(j)].x;
       const double dy = all[static_cast<std::size_t>(i)].y - all[static_cast<std::size_t>(j)].y;
       const double r2 = dx * dx + dy * dy;
-      p(i, j) = i == j ? kSquareSelf / h - 1.0 / (2.0 * d) : 1.0 / std::sqrt(r2) - 1.0 / std::sqrt(r2 + four_d2);
+      p(i, j) = i == j ? self : 1.0 / std::sqrt(r2) - 1.0 / std::sqrt(r2 + four_d2);
     }
   Eigen::MatrixXd ind = Eigen::MatrixXd::Zero(n, 2);
   for (int i = 0; i < n; ++i) ind(i, i < ni ? 0 : 1) = 1.0;
@@ -365,7 +387,9 @@ Interferometer describe(const Design& d, const Shape& s, double field_T) {
     f.notes.push_back(
         "fractional channel (charge " + std::to_string(f.charge_e).substr(0, 5) +
         " e): the periods, the gate periods and the regime carry over with e* in place of e; the braiding phase "
-        "(statistical phase jumps when quasiparticles enter the interior) is not computed");
+        "(statistical phase jumps when quasiparticles enter the interior) is not computed, and the thermal "
+        "visibility above is the electron form X/sinh X (quasiparticle tunnelling changes its temperature "
+        "dependence; not computed)");
   if (std::abs(field_T) == 0.0) f.notes.push_back("zero field: no flux or gate period");
   return f;
 }
