@@ -297,6 +297,39 @@ TEST(Interferometer, FluxPeriodIsHOverEAOfTheLoopsExactArea) {
   EXPECT_TRUE(NearRel(f.visibility, ThermalDamping(f.time_s, device.design().conditions.temperature_K), 1e-15));
 }
 
+TEST(Interferometer, ConstantPhaseLinesTiltOppositeWaysInTheTwoRegimes) {
+  // Halperin, Stern, Neder & Rosenow, Phys. Rev. B 83, 155440 (2011): Aharonov-Bohm lines keep B A(V)
+  // fixed, dV/dB = -A / (B dA/dV); Coulomb-dominated lines keep the interior's charge n A - nu_in B A / Phi_0
+  // fixed, dV/dB = nu_in A / (Phi_0 n dA/dV); "slopes of opposite signs". The demo cavity at filling 2,
+  // interfering on channel 2 with channel 1 passing both constrictions (nu_in = 1).
+  std::string text = read("designs/03_fabry_perot.yaml");
+  text = test::replace(text, "field: 8.3 T", "field: 4.15 T");
+  text = test::replace(text, "{name: Q1, gates: [Q1N, Q1S], transmission: 0.5}", "{name: Q1, gates: [Q1N, Q1S], transmission: [1, 0.5]}");
+  text = test::replace(text, "{name: Q2, gates: [Q2N, Q2S], transmission: 0.5}", "{name: Q2, gates: [Q2N, Q2S], transmission: [1, 0.5]}");
+  DeviceOptions dopt;
+  dopt.bare_estimate = true;
+  dopt.check_declared_transmissions = false;
+  const Device device(LoadDesignFromString(text, "nu2.yaml"), dopt);
+  ASSERT_TRUE(device.usable());
+  InterferometerOptions opt;
+  opt.map = false;
+  opt.max_gates = 1;  // Q1N: it moves the bare edge
+  const InterferometerResult r = AnalyseInterferometers(device, dopt, opt);
+  ASSERT_EQ(r.interferometers.size(), 1u);
+  const Interferometer& f = r.interferometers[0];
+  EXPECT_EQ(f.channel, 1);
+  EXPECT_EQ(f.passing_channels, (std::vector<int>{0}));
+  ASSERT_TRUE(f.gates[0].resolved);
+  ASSERT_TRUE(f.ab_slope_V_per_T && f.cd_slope_V_per_T && f.cd_field_period_T);
+  const double b = device.design().conditions.field_T, a = f.area_m2, da = f.gates[0].area_per_volt_m2_per_V;
+  const double phi0 = kPlanck_Js / kElementaryCharge_C, n = device.design().heterostructure.density_per_m2;
+  EXPECT_TRUE(NearRel(*f.ab_slope_V_per_T, -a / (b * da), 1e-12));
+  EXPECT_TRUE(NearRel(*f.cd_slope_V_per_T, a / (phi0 * n * da), 1e-12));
+  EXPECT_LT(*f.ab_slope_V_per_T * *f.cd_slope_V_per_T, 0.0);
+  EXPECT_TRUE(NearRel(*f.cd_field_period_T, f.flux_period_T, 1e-12));  // h / (nu_in e A), nu_in = 1
+  EXPECT_TRUE(NearRel(f.gates[0].period_V, phi0 / (b * std::abs(da)), 1e-12));
+}
+
 TEST(Interferometer, OptionDefaultsAreValidAndBadOnesNamed) {
   std::string why;
   EXPECT_TRUE(InterferometerOptions{}.IsValid(&why)) << why;
