@@ -380,22 +380,6 @@ TEST(Interferometer, FringesCommandOnTheFabryPerotDemoAgreesWithNoisePhase) {
   EXPECT_GT(n["energy_points"].get<int>(), 0);
   const double centre = j["map"]["excess_noise_A2_per_Hz"][7].get<double>();
   EXPECT_TRUE(NearRel(centre, n["noise_excess_A2_per_Hz"][e][e].get<double>(), 1e-6));
-  // The report holds the same interferometer numbers, its map as CSV (17 x 9 points) and as a figure.
-  const std::string rep = dir + "/fringes_report";
-  const test::CommandRun report = test::RunHallway(
-      "report '" + test::SourcePath("designs/03_fabry_perot.yaml") + "' --fast --quiet -o '" + rep + "'");
-  ASSERT_EQ(report.exit_code, 0) << report.output;
-  std::ifstream rin(rep + "/result.json");
-  const nlohmann::json rj = nlohmann::json::parse(rin);
-  const nlohmann::json& rf = rj["fringes"]["interferometers"][0];
-  for (const char* key : {"flux_period_T", "area_m2", "thermal_visibility", "slope_ab_V_per_T"})
-    EXPECT_EQ(rf[key].get<double>(), f[key].get<double>()) << key;
-  EXPECT_EQ(rf["coupling"]["mutual_over_interior"].get<double>(), f["coupling"]["mutual_over_interior"].get<double>());
-  std::ifstream rcsv(rep + "/interference_map.csv");
-  rows = -1;
-  while (std::getline(rcsv, line)) ++rows;
-  EXPECT_EQ(rows, 17 * 9);
-  EXPECT_TRUE(std::ifstream(rep + "/interference_map.png").good());
 }
 
 }  // namespace
