@@ -116,7 +116,78 @@ std::string FeedName(const Design& d, int source, int contact) {
   return "?";
 }
 
-std::string ColliderText(const Design& d, const ColliderPrediction& c) {
+// Filling 2: each input's charge and neutral modes and where its two half pulses stand (docs/models.md
+// "Charge and neutral modes at filling 2").
+std::string PulseLines(const ColliderPrediction& c) {
+  std::string out;
+  for (std::size_t i = 0; i < 2; ++i) {
+    if (!c.pulses[i] || !c.modes[i]) continue;
+    const PulseRegime& r = *c.pulses[i];
+    out += fmt::format(
+        "    input {}: {}; the two e/2 pulses of an injected electron arrive {} apart: e V dt/hbar = {:.3g} ({}), "
+        "k_B T dt/hbar = {:.3g}, (I/e) dt = {:.3g}\n",
+        i + 1, DescribeModes(*c.modes[i]), FormatSI(r.delay_s, "s", 3), r.bias_ratio,
+        DescribePulses(r), r.thermal_ratio, r.injection_ratio);
+  }
+  return out;
+}
+
+// P and the drains' cross-correlation SNR against the source-to-collider distance (docs/models.md
+// "Distance from the sources").
+std::string DistanceCurveText(const ColliderPrediction& c, double scale) {
+  if (c.distance_curve.empty()) return {};
+  std::string out =
+      "    against the distance from the sources (both paths scaled; docs/models.md \"Distance from the sources\"):\n" +
+      fmt::format("      {:>10} {:>9} {:>10} {:>11} {:>10}  {}\n", "distance", "P", "cross SNR", "pulse delay",
+                  "eV dt/hbar", "note");
+  for (const ColliderPrediction::DistancePoint& p : c.distance_curve) {
+    std::string note = p.design ? "the design's distance" : "";
+    if (!p.why_not.empty()) note += (note.empty() ? "" : "; ") + std::string("P not predicted: ") + p.why_not;
+    if (p.beyond_relaxation_rule)
+      note += (note.empty() ? "" : "; ") +
+              std::string("beyond the relaxation rule of thumb (relaxation not modelled: P may differ)");
+    out += fmt::format("      {:>10} {:>9} {:>10} {:>11} {:>10}  {}\n", FormatSI(p.distance_m, "m", 3),
+                       p.fano ? fmt::format("{:.4g}", WithoutResidueOf(*p.fano, p.cross_excess_A2_per_Hz.value_or(
+                                                                               c.s34_A2_per_Hz.value_or(0.0)), scale))
+                              : "-",
+                       p.cross_snr ? FormatSnr(*p.cross_snr, p.cross_excess_A2_per_Hz.value_or(0.0), scale) : "-",
+                       p.delay_s ? FormatSI(*p.delay_s, "s", 3) : "-",
+                       p.bias_ratio ? fmt::format("{:.3g}", *p.bias_ratio) : "-", note);
+  }
+  return out;
+}
+
+// An integer channel's collider: P read from the exact scattering in the contact matrix.
+std::string IntegerColliderText(const Design& d, const ColliderPrediction& c, double scale) {
+  std::string out = fmt::format(
+      "  collider {} (integer channel {}, fed by {} and {}{})\n    I1 = {}, I2 = {} (arriving; {:.3g} and {:.3g} of "
+      "their sources' bias), I+ = {}, I- = {}; collider transmission {:.3g}\n",
+      d.constrictions[static_cast<std::size_t>(c.constriction)].name, c.channel + 1,
+      FeedName(d, c.source_first, c.contact_first), FeedName(d, c.source_second, c.contact_second),
+      c.one_beam ? "; one beam" : "", FormatSI(c.stream_first_A, "A"), FormatSI(c.stream_second_A, "A"),
+      c.dilution_first, c.dilution_second, FormatSI(c.i_plus_A, "A"), FormatSI(c.i_minus_A, "A"), c.tunnelling);
+  if (!c.not_computed.empty())
+    out += "    not computed: " + c.not_computed + "\n";
+  else
+    out += fmt::format(
+        "    P = {:.4g}: the drains' S_34 = {} A^2/Hz in the contact matrix over 2 e |I+| T(1 - T); {}; time for P "
+        "to +-0.1: {}\n",
+        WithoutResidueOf(*c.fano, *c.s34_A2_per_Hz, scale), sci(WithoutResidue(*c.s34_A2_per_Hz, scale)),
+        c.fano_pulses ? fmt::format("non-interacting exact scattering at the design temperature {:.4g}, fractionalized "
+                                    "pulses {:.4g} (T = 0, first order in the dilution; docs/models.md \"Collider at "
+                                    "filling 2: fractionalized pulses\")",
+                                    WithoutResidueOf(*c.fano - *c.fano_pulses,
+                                                     (*c.fano - *c.fano_pulses) * *c.s34_A2_per_Hz / *c.fano, scale),
+                                    *c.fano_pulses)
+                      : std::string("non-interacting electrons, exact scattering at the design temperature"),
+        opt_time(c.time_for_fano_s));
+  out += PulseLines(c) + DistanceCurveText(c, scale);
+  for (const auto& cv : c.caveats) out += "    caveat: " + cv + "\n";
+  return out;
+}
+
+std::string ColliderText(const Design& d, const ColliderPrediction& c, double scale) {
+  if (c.integer) return IntegerColliderText(d, c, scale);
   std::string out = fmt::format("  collider {} (channel {}, fed by {} and {}{})\n",
                                 d.constrictions[static_cast<std::size_t>(c.constriction)].name, c.channel + 1,
                                 FeedName(d, c.source_first, c.contact_first),
@@ -148,6 +219,7 @@ std::string ColliderText(const Design& d, const ColliderPrediction& c) {
         "with thermally excited pairs, Lee, Han & Sim, Phys. Rev. Lett. 123, 016803 (2019)); the drain that collects "
         "it also sees its input edge's thermal correlation with the tunnelling (docs/models.md \"Anyon collider\")\n",
         sci(c.shape.stt_A2_per_Hz));
+  out += DistanceCurveText(c, scale);
   for (const auto& cv : c.caveats) out += "    caveat: " + cv + "\n";
   return out;
 }
@@ -194,8 +266,63 @@ std::string print_noise(const Design& d, const NoiseResult& n) {
                          FormatSnr(c.snr, c.excess_current_A2_per_Hz, scale),
                          FormatSignalTime(c.time_for_target_s, c.excess_current_A2_per_Hz, scale));
   }
-  for (const ColliderPrediction& c : n.colliders) out += ColliderText(d, c);
+  for (const ColliderPrediction& c : n.colliders) out += ColliderText(d, c, scale);
   return out;
+}
+
+// One collider of the noise document (docs/models.md "Anyon collider", "Distance from the sources").
+json ColliderJson(const Design& d, const ColliderPrediction& c) {
+  json x = {{"constriction", d.constrictions[static_cast<std::size_t>(c.constriction)].name},
+            {"channel", c.channel + 1},
+            {"I1_A", c.stream_first_A},
+            {"I2_A", c.stream_second_A},
+            {"I_plus_A", c.i_plus_A},
+            {"I_minus_A", c.i_minus_A},
+            {"tunnelling", c.tunnelling},
+            {"dilute", c.dilute},
+            {"weak_tunnelling", c.weak_tunnelling},
+            {"exchange_below_half_pi", c.exchange_below_half_pi},
+            {"rate_over_temperature", c.rate_over_temperature},
+            {"caveats", c.caveats}};
+  x["sources"] = {FeedName(d, c.source_first, c.contact_first), FeedName(d, c.source_second, c.contact_second)};
+  x["dilution"] = {c.dilution_first, c.dilution_second};
+  x["one_beam"] = c.one_beam;
+  x["in_contact_matrix"] = c.in_contact_matrix;
+  x["not_computed"] = c.not_computed.empty() ? json(nullptr) : json(c.not_computed);
+  x["P"] = c.fano ? json(*c.fano) : json(nullptr);
+  x["P_finite_temperature"] = c.fano_finite_temperature ? json(*c.fano_finite_temperature) : json(nullptr);
+  x["S34_A2_per_Hz"] = c.s34_A2_per_Hz ? json(*c.s34_A2_per_Hz) : json(nullptr);
+  x["model_in_contact_matrix"] = ToString(c.model_in_matrix);
+  x["S_TT_excess_A2_per_Hz"] = c.s34_A2_per_Hz ? json(c.shape.stt_A2_per_Hz) : json(nullptr);
+  x["time_for_P_s"] = c.time_for_fano_s ? json(*c.time_for_fano_s) : json(nullptr);
+  x["integer"] = c.integer;
+  x["P_fractionalized_pulses"] = c.fano_pulses ? json(*c.fano_pulses) : json(nullptr);
+  // Filling 2: per input, the delay between the charge and neutral pulses (null where not applicable).
+  json delays = json::array(), ratios = json::array(), modes = json::array();
+  for (std::size_t i = 0; i < 2; ++i) {
+    delays.push_back(c.pulses[i] ? json(c.pulses[i]->delay_s) : json(nullptr));
+    ratios.push_back(c.pulses[i] ? json(c.pulses[i]->bias_ratio) : json(nullptr));
+    modes.push_back(c.modes[i] ? json{{"charge_velocity_m_per_s", c.modes[i]->charge_velocity_m_per_s},
+                                      {"neutral_velocity_m_per_s", c.modes[i]->neutral_velocity_m_per_s},
+                                      {"from_design", c.modes[i]->from_design}}
+                               : json(nullptr));
+  }
+  x["delay_s"] = delays;
+  x["delay_bias_ratio"] = ratios;
+  x["edge_modes"] = modes;
+  json curve = json::array();
+  for (const ColliderPrediction::DistancePoint& p : c.distance_curve)
+    curve.push_back({{"distance_m", p.distance_m},
+                     {"design_distance", p.design},
+                     {"P", p.fano ? json(*p.fano) : json(nullptr)},
+                     {"cross_excess_A2_per_Hz", p.cross_excess_A2_per_Hz ? json(*p.cross_excess_A2_per_Hz) : json(nullptr)},
+                     {"cross_snr", p.cross_snr ? json(*p.cross_snr) : json(nullptr)},
+                     {"delay_s", p.delay_s ? json(*p.delay_s) : json(nullptr)},
+                     {"delay_bias_ratio", p.bias_ratio ? json(*p.bias_ratio) : json(nullptr)},
+                     {"beyond_relaxation_rule_of_thumb", p.beyond_relaxation_rule},
+                     {"P_not_predicted", p.why_not.empty() ? json(nullptr) : json(p.why_not)}});
+  x["distance_curve"] = curve;
+  return x;
 }
 
 json noise_json(const Design& d, const NoiseResult& n) {
@@ -238,32 +365,7 @@ json noise_json(const Design& d, const NoiseResult& n) {
   }
   j["cross_correlations"] = cross;
   json colliders = json::array();
-  for (const ColliderPrediction& c : n.colliders) {
-    json x = {{"constriction", d.constrictions[static_cast<std::size_t>(c.constriction)].name},
-              {"channel", c.channel + 1},
-              {"I1_A", c.stream_first_A},
-              {"I2_A", c.stream_second_A},
-              {"I_plus_A", c.i_plus_A},
-              {"I_minus_A", c.i_minus_A},
-              {"tunnelling", c.tunnelling},
-              {"dilute", c.dilute},
-              {"weak_tunnelling", c.weak_tunnelling},
-              {"exchange_below_half_pi", c.exchange_below_half_pi},
-              {"rate_over_temperature", c.rate_over_temperature},
-              {"caveats", c.caveats}};
-    x["sources"] = {FeedName(d, c.source_first, c.contact_first), FeedName(d, c.source_second, c.contact_second)};
-    x["dilution"] = {c.dilution_first, c.dilution_second};
-    x["one_beam"] = c.one_beam;
-    x["in_contact_matrix"] = c.in_contact_matrix;
-    x["not_computed"] = c.not_computed.empty() ? json(nullptr) : json(c.not_computed);
-    x["P"] = c.fano ? json(*c.fano) : json(nullptr);
-    x["P_finite_temperature"] = c.fano_finite_temperature ? json(*c.fano_finite_temperature) : json(nullptr);
-    x["S34_A2_per_Hz"] = c.s34_A2_per_Hz ? json(*c.s34_A2_per_Hz) : json(nullptr);
-    x["model_in_contact_matrix"] = ToString(c.model_in_matrix);
-    x["S_TT_excess_A2_per_Hz"] = c.s34_A2_per_Hz ? json(c.shape.stt_A2_per_Hz) : json(nullptr);
-    x["time_for_P_s"] = c.time_for_fano_s ? json(*c.time_for_fano_s) : json(nullptr);
-    colliders.push_back(x);
-  }
+  for (const ColliderPrediction& c : n.colliders) colliders.push_back(ColliderJson(d, c));
   j["colliders"] = colliders;
   j["models"] = ModelTexts(n);
   json tags = json::array();

@@ -91,7 +91,13 @@ json PathsJson(const Design& d, const EdgeNetwork& net, const PathResult& r) {
                        {"path_difference_m", s.loop ? json(s.path_difference_m) : json(nullptr)},
                        {"path_thermal_length_m", s.loop ? json(s.path_thermal_length_m) : json(nullptr)},
                        {"thermal_visibility", s.loop ? json(s.visibility) : json(nullptr)},
-                       {"beyond_thermal_length", s.beyond_thermal_length}});
+                       {"beyond_thermal_length", s.beyond_thermal_length},
+                       {"charge_velocity_m_per_s", s.modes ? json(s.modes->charge_velocity_m_per_s) : json(nullptr)},
+                       {"neutral_velocity_m_per_s", s.modes ? json(s.modes->neutral_velocity_m_per_s) : json(nullptr)},
+                       {"mode_velocities_from_design", s.modes ? json(s.modes->from_design) : json(nullptr)},
+                       {"delay_s", s.pulses ? json(s.pulses->delay_s) : json(nullptr)},
+                       {"delay_bias_ratio", s.pulses ? json(s.pulses->bias_ratio) : json(nullptr)},
+                       {"delay_thermal_ratio", s.pulses ? json(s.pulses->thermal_ratio) : json(nullptr)}});
   json floats = json::array();
   for (const FloatHeating& f : r.floats)
     floats.push_back({{"contact", d.contacts[static_cast<std::size_t>(f.contact)].name},
@@ -130,11 +136,26 @@ bool ParsePathOptions(const PathsArgs& args, std::size_t max_memory, PathOptions
 
 // One source path: distance, time of flight and thermal length; against the relaxation rule of thumb,
 // or for an interferometer arm against the thermal length with its visibility factor.
+std::string SourcePathMetrics(const Design& d, const PathResult& r, const SourcePath& s);
+
+// Filling 2: the modes along a source path and the delay between the two half pulses at its target.
+std::string PulseLine(const SourcePath& s) {
+  if (!s.modes || !s.pulses) return {};
+  return fmt::format("    {}; pulses {} apart at the target: e V dt/hbar = {:.3g}, k_B T dt/hbar = {:.3g}: {}\n",
+                     DescribeModes(*s.modes), FormatSI(s.pulses->delay_s, "s", 3), s.pulses->bias_ratio,
+                     s.pulses->thermal_ratio, DescribePulses(*s.pulses));
+}
+
 std::string SourcePathLine(const Design& d, const PathResult& r, const SourcePath& s) {
+  return SourcePathMetrics(d, r, s) + PulseLine(s);
+}
+
+std::string SourcePathMetrics(const Design& d, const PathResult& r, const SourcePath& s) {
   std::string out = fmt::format("  channel {}: {} -> {}: {}, flight {}, hbar v/kT {}", s.channel + 1,
                                 d.constrictions[static_cast<std::size_t>(s.source)].name,
                                 d.constrictions[static_cast<std::size_t>(s.target)].name, FormatSI(s.distance_m, "m"),
                                 FormatSI(s.time_of_flight_s, "s"), FormatSI(s.thermal_length_m, "m"));
+  if (!s.loop && s.pulses) return out + "  (at filling 2 the pulse delay below judges the distance)\n";
   if (!s.loop)
     return out + (s.beyond_relaxation ? "  (beyond the relaxation length, a rule of thumb)\n"
                                       : "  (within the relaxation length, a rule of thumb)\n");

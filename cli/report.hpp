@@ -73,6 +73,9 @@ Table ConductanceTable(const ReportData& r);
 Table ContactsTable(const ReportData& r);
 Table NoiseTable(const ReportData& r);
 Table AmplifierTable(const ReportData& r);
+// Every collider's P and drains' cross-correlation against the distance from the sources (the page and
+// distance_curve.csv; docs/models.md "Distance from the sources"), numbers in SI.
+Table DistanceTable(const ReportData& r);
 
 // A figure of the page, its PNG inlined (the page loads nothing).
 std::string FigureHtml(const std::filesystem::path& png, const std::string& caption);

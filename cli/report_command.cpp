@@ -249,6 +249,38 @@ void draw_interference_map(const ReportData& r, const fs::path& dir,
                            "phase\")"});
 }
 
+// Each collider's P and drains' cross-correlation SNR against the distance from the sources
+// (docs/models.md "Distance from the sources"), where they are predicted.
+void draw_distance_plots(const ReportData& r, const fs::path& dir,
+                         std::vector<std::pair<fs::path, std::string>>* pictures) {
+  for (const ColliderPrediction& c : r.noise.colliders) {
+    figures::Series fano{"P", {}, {}}, snr{"cross SNR", {}, {}};
+    for (const ColliderPrediction::DistancePoint& pt : c.distance_curve) {
+      if (!pt.fano) continue;
+      fano.x.push_back(pt.distance_m * 1e6);
+      fano.y.push_back(*pt.fano);
+      if (!pt.cross_snr) continue;
+      snr.x.push_back(pt.distance_m * 1e6);
+      snr.y.push_back(*pt.cross_snr);
+    }
+    if (fano.x.size() < 2) continue;
+    const std::string name = r.d.constrictions[static_cast<std::size_t>(c.constriction)].name;
+    const fs::path p = dir / ("distance_" + name + ".png");
+    for (auto f : {figures::Format::kPng, figures::Format::kSvg})
+      figures::DrawPlot({fano}, "mean distance from the sources (um)", "generalized Fano factor P",
+                        "collider " + name + " against the source distance",
+                        fs::path(p).replace_extension(figures::ToString(f)).string(), f);
+    pictures->push_back({p, "Collider " + name + ": P against the distance from the sources (distance_curve.csv)"});
+    if (snr.x.size() < 2) continue;
+    const fs::path q = dir / ("distance_snr_" + name + ".png");
+    for (auto f : {figures::Format::kPng, figures::Format::kSvg})
+      figures::DrawPlot({snr}, "mean distance from the sources (um)", "SNR of the drains' cross-correlation",
+                        "collider " + name + ": signal-to-noise in the planned averaging time",
+                        fs::path(q).replace_extension(figures::ToString(f)).string(), f);
+    pictures->push_back({q, "Collider " + name + ": the drains' cross-correlation SNR against the source distance"});
+  }
+}
+
 // Draws every figure into `dir`; returns the pictures for the page with their captions. Throws on failure.
 std::vector<std::pair<fs::path, std::string>> draw_figures(const ReportData& r, const fs::path& dir) {
   std::vector<std::pair<fs::path, std::string>> pictures;
@@ -286,6 +318,7 @@ std::vector<std::pair<fs::path, std::string>> draw_figures(const ReportData& r, 
                         fs::path(p).replace_extension(figures::ToString(f)).string(), f);
     pictures.push_back({p, "Collider " + name + ": P against the imbalance of the two streams"});
   }
+  draw_distance_plots(r, dir, &pictures);
   return pictures;
 }
 
@@ -361,6 +394,8 @@ int write_files(const ReportData& r, const fs::path& dir, const std::string& des
     WriteFileAtomically((dir / "amplifiers.csv").string(), AmplifierTable(r).csv(), {design_path});
     WriteFileAtomically((dir / "wiring_card.csv").string(), CardTable(r.d, r.verdict).csv(), {design_path});
     WriteFileAtomically((dir / "bias_scan.csv").string(), scan_csv(r.d, r.scan), {design_path});
+    if (const Table t = DistanceTable(r); !t.rows.empty())
+      WriteFileAtomically((dir / "distance_curve.csv").string(), t.csv(), {design_path});
     if (r.fringes && r.fringes->map)
       WriteFileAtomically((dir / "interference_map.csv").string(), FringesCsv(*r.fringes->map), {design_path});
     WriteFileAtomically((dir / "result.json").string(), result.dump(2) + "\n", {design_path});

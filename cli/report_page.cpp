@@ -200,6 +200,24 @@ Table AmplifierTable(const ReportData& r) {
   return t;
 }
 
+Table DistanceTable(const ReportData& r) {
+  const double scale = noise_scale(r.noise);
+  Table t{{"collider", "distance_m", "design_distance", "P", "cross_excess_A2_per_Hz", "cross_snr", "delay_s",
+           "delay_bias_ratio", "beyond_relaxation_rule_of_thumb", "P_not_predicted"},
+          {}};
+  auto num = [](const std::optional<double>& x) { return x ? fmt::format("{:.6g}", *x) : std::string(); };
+  for (const ColliderPrediction& c : r.noise.colliders)
+    for (const ColliderPrediction::DistancePoint& pt : c.distance_curve) {
+      const double sxy = pt.cross_excess_A2_per_Hz.value_or(c.s34_A2_per_Hz.value_or(0.0));
+      t.rows.push_back({constriction(r.d, c.constriction), num(pt.distance_m), pt.design ? "yes" : "no",
+                        pt.fano ? num(WithoutResidueOf(*pt.fano, sxy, scale)) : "",
+                        pt.cross_excess_A2_per_Hz ? num(WithoutResidue(*pt.cross_excess_A2_per_Hz, scale)) : "",
+                        pt.cross_snr ? num(IsResidue(sxy, scale) ? 0.0 : *pt.cross_snr) : "", num(pt.delay_s),
+                        num(pt.bias_ratio), pt.beyond_relaxation_rule ? "yes" : "no", pt.why_not});
+    }
+  return t;
+}
+
 namespace {
 
 // ---- The wiring verdict ----------------------------------------------------------------------------
@@ -344,8 +362,48 @@ std::string feed_name(const Design& d, int source, int contact_index) {
 }
 
 // One collider as `noise` prints it, plus I-/I+.
-std::string collider_html(const Design& d, const ColliderPrediction& c) {
+// An integer channel's collider: P read from the exact scattering in the contact matrix, with the
+// fractionalized pulses' part at filling 2 (docs/models.md "Charge and neutral modes at filling 2").
+std::vector<std::string> integer_collider_items(const ColliderPrediction& c, double scale) {
+  std::vector<std::string> items;
+  if (!c.not_computed.empty()) {
+    items.push_back("P not computed: " + c.not_computed);
+  } else {
+    items.push_back(fmt::format(
+        "P = {:.4g}: the drains' S_34 = {} A^2/Hz in the contact matrix over 2 e |I+| T(1 - T){}",
+        WithoutResidueOf(*c.fano, *c.s34_A2_per_Hz, scale), sci(WithoutResidue(*c.s34_A2_per_Hz, scale)),
+        c.fano_pulses ? fmt::format("; non-interacting exact scattering {:.4g}, fractionalized pulses {:.4g} (T = 0, "
+                                    "first order in the dilution)",
+                                    WithoutResidueOf(*c.fano - *c.fano_pulses,
+                                                     (*c.fano - *c.fano_pulses) * *c.s34_A2_per_Hz / *c.fano, scale),
+                                    *c.fano_pulses)
+                      : std::string("; non-interacting electrons, exact scattering at the design temperature")));
+    items.push_back(fmt::format("time to know P to +-{:.3g}: {}", NoiseOptions{}.collider_fano_uncertainty,
+                                FormatDuration(c.time_for_fano_s)));
+  }
+  for (std::size_t i = 0; i < 2; ++i)
+    if (c.pulses[i] && c.modes[i])
+      items.push_back(fmt::format("input {}: {}; the two e/2 pulses arrive {} apart, e V dt/hbar = {:.3g}, k_B T "
+                                  "dt/hbar = {:.3g}, (I/e) dt = {:.3g}: {}",
+                                  i + 1, DescribeModes(*c.modes[i]), FormatSI(c.pulses[i]->delay_s, "s", 3),
+                                  c.pulses[i]->bias_ratio, c.pulses[i]->thermal_ratio, c.pulses[i]->injection_ratio,
+                                  DescribePulses(*c.pulses[i])));
+  return items;
+}
+
+std::string collider_html(const Design& d, const ColliderPrediction& c, double scale) {
   std::string h = "<h4>Collider " + esc(constriction(d, c.constriction)) + "</h4>\n";
+  if (c.integer) {
+    std::vector<std::string> items{fmt::format(
+        "integer channel {}, fed by {} and {}{}; I1 = {}, I2 = {} ({:.3g} and {:.3g} of their sources' bias), I+ = "
+        "{}; collider transmission {:.3g}",
+        c.channel + 1, feed_name(d, c.source_first, c.contact_first), feed_name(d, c.source_second, c.contact_second),
+        c.one_beam ? "; one beam" : "", FormatSI(c.stream_first_A, "A"), FormatSI(c.stream_second_A, "A"),
+        c.dilution_first, c.dilution_second, FormatSI(c.i_plus_A, "A"), c.tunnelling)};
+    for (std::string& x : integer_collider_items(c, scale)) items.push_back(std::move(x));
+    for (const auto& cv : c.caveats) items.push_back("caveat: " + cv);
+    return h + list(items);
+  }
   std::vector<std::string> items;
   items.push_back(fmt::format("channel {}, fed by {} and {}{}", c.channel + 1,
                               feed_name(d, c.source_first, c.contact_first),
@@ -400,10 +458,21 @@ std::string noise_html(const ReportData& r) {
        noise_matrix_table(d, n.total_A2_per_Hz, noise_scale(n), "S (A^2/Hz)").html();
   h += amplifiers_html(r);
   h += "<h3 id=\"colliders\">Colliders: P and the time to know it</h3>\n";
-  h += model("generalised Fano factor P of Rosenow, Levkivskyi & Halperin at T = 0 and with thermal edge correlators",
-             {"Anyon collider"});
+  h += model("generalised Fano factor P of Rosenow, Levkivskyi & Halperin at T = 0 and with thermal edge correlators "
+             "for fractional channels; for integer channels P read from the exact scattering, with the fractionalized "
+             "pulses' part at filling 2",
+             {"Anyon collider", "Charge and neutral modes at filling 2", "Collider at filling 2: fractionalized pulses"});
   if (n.colliders.empty()) h += p("No constriction of this design acts as a collider.");
-  for (const ColliderPrediction& c : n.colliders) h += collider_html(d, c);
+  for (const ColliderPrediction& c : n.colliders) h += collider_html(d, c, noise_scale(n));
+  const Table distances = DistanceTable(r);
+  if (!distances.rows.empty()) {
+    h += "<h3 id=\"distance\">Colliders against the distance from the sources</h3>\n";
+    h += model("the same layout with both source-to-collider paths scaled; P where a model puts a length into "
+               "it (the fractionalized pulses at filling 2), else the same P with points beyond the relaxation rule "
+               "of thumb marked; the SNR of the drains' cross-correlation with that P (distance_curve.csv)",
+               {"Distance from the sources", "Charge and neutral modes at filling 2"});
+    h += distances.html();
+  }
   return h;
 }
 

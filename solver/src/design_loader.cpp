@@ -900,15 +900,36 @@ void read_gate_limits(const Reader& r, const Reader::Map& c, Conditions& cd) {
   }
 }
 
+// The charge and neutral mode velocities at filling 2 (design.hpp): both or neither, each between
+// 1e3 and 1e7 m/s (an edge slower than 1 km/s or faster than 1 % of light in vacuum is not a GaAs edge,
+// common practice), the charge mode the faster one (the Coulomb coupling adds to it and subtracts from
+// the neutral mode: docs/models.md "Charge and neutral modes at filling 2").
+void read_mode_velocities(const Reader& r, const Reader::Map& c, Conditions& cd) {
+  const auto vc = c.get("charge_mode_velocity"), vn = c.get("neutral_mode_velocity");
+  if (!vc && !vn) return;
+  if (!vc || !vn)
+    r.fail(vc ? *vc : *vn, "give both `charge_mode_velocity` and `neutral_mode_velocity`, or neither (hallway then "
+                           "estimates both; docs/models.md \"Charge and neutral modes at filling 2\")");
+  cd.charge_mode_velocity_m_per_s = r.quantity(*vc, Kind::kVelocity);
+  range(r, *vc, *cd.charge_mode_velocity_m_per_s, 1e3, 1e7, "charge_mode_velocity", {"m/s"});
+  cd.neutral_mode_velocity_m_per_s = r.quantity(*vn, Kind::kVelocity);
+  range(r, *vn, *cd.neutral_mode_velocity_m_per_s, 1e3, 1e7, "neutral_mode_velocity", {"m/s"});
+  if (!(*cd.charge_mode_velocity_m_per_s > *cd.neutral_mode_velocity_m_per_s))
+    r.fail(*vn, "the neutral mode must be slower than the charge mode (the Coulomb coupling speeds up the charge "
+                "mode and slows down the neutral one)");
+}
+
 // Conditions: temperature and exactly one of filling / field.
 void read_conditions(Loading& ctx) {
   const Reader& r = ctx.r;
   const Reader::Map& m = ctx.m;
   Design& d = ctx.d;
   const auto c =
-      r.map(r.require(m, "conditions"), {"temperature", "filling", "field", "gate_voltage_min", "gate_voltage_max"});
+      r.map(r.require(m, "conditions"), {"temperature", "filling", "field", "gate_voltage_min", "gate_voltage_max",
+                                         "charge_mode_velocity", "neutral_mode_velocity"});
   auto& cd = d.conditions;
   read_gate_limits(r, c, cd);
+  read_mode_velocities(r, c, cd);
   const Value t = r.require(c, "temperature");
   cd.temperature_K = r.quantity(t, Kind::kTemperature);
   if (!(cd.temperature_K > 0.0)) r.fail(t, "temperature must be above absolute zero");

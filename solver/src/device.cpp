@@ -109,7 +109,10 @@ const TransportResult& Device::transport(FieldSign sign) const {
 }
 
 NoiseResult Device::noise(const NoiseOptions& options, FieldSign sign) const {
-  if (!options.loop_phase_rad || !options.piece_time_of_flight_s.empty())
+  // The pieces' times of flight also set the delay between the charge and neutral pulses of a collider's
+  // inputs at filling 2 (edge_modes.hpp).
+  const bool filling_two = design_.conditions.filling.is_integer() && design_.conditions.filling.num == 2;
+  if ((!options.loop_phase_rad && !filling_two) || !options.piece_time_of_flight_s.empty())
     return SolveNoise(design_, edges(sign), transport(sign), options);
   // A fixed loop phase is averaged over energy with each piece's time of flight: the edge velocities of
   // this device's electrostatics (the paths' E x B drift; the fixed velocity under the bare estimate).

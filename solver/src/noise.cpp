@@ -10,6 +10,7 @@
 #include <stdexcept>
 
 #include "hallway/collider.hpp"
+#include "hallway/fractionalized_collider.hpp"
 #include "hallway/constants.hpp"
 #include "hallway/paths.hpp"
 
@@ -222,6 +223,7 @@ double FractionalPartitionNoise_A2_per_Hz(double charge_C, double voltage_V, dou
 }
 
 std::string ToString(ColliderModel m) {
+  if (m == ColliderModel::kExactScattering) return "exact-scattering";
   return m == ColliderModel::kZeroTemperature ? "zero-temperature" : "finite-temperature";
 }
 std::optional<ColliderModel> ColliderModelFromString(const std::string& s) {
@@ -291,99 +293,120 @@ std::string NotComputedReason(const Channel& ch, const Feed& a, const Feed& b, c
   return {};
 }
 
-// Colliders: constrictions on a fractional channel with 0 < t < 1 fed on at least one input by the
-// output of an upstream constriction that carries a stream, the other input a stream or an edge at
-// equilibrium (one-beam partitioning). P is computed where the model's domain allows; the collider is
-// put into the contact matrix when both inputs are dilute (or at equilibrium) and it tunnels weakly.
+// A possible collider on channel k at constriction q (0 < t < 1): fed on at least one input by the output
+// of an upstream constriction that carries a stream, the other input a stream or an edge at equilibrium
+// (one-beam partitioning). Nullopt when it is not one: nothing arrives, or two constrictions in series.
+// Fills what every collider model shares: feeds, streams, dilution, outputs; `a`, `b` receive the feeds.
+std::optional<ColliderPrediction> CandidateCollider(const Design& d, const EdgeNetwork& net, const TransportResult& tr,
+                                                    const NoiseOptions& opt, int kk, int qq, double scale, Feed* a,
+                                                    Feed* b) {
+  const double t = d.constrictions[static_cast<std::size_t>(qq)].transmission[static_cast<std::size_t>(kk)];
+  const ConstrictionPorts ports = PortsOf(net, kk, qq);
+  const int in0 = ports.incoming[0], in1 = ports.incoming[1];
+  if (!(t > 0.0 && t < 1.0) || in0 < 0 || in1 < 0) return std::nullopt;
+  auto upstream = [&](int in) {
+    const EdgePiece& p = net.pieces[static_cast<std::size_t>(in)];
+    return p.from.kind == EdgeEnd::Kind::kConstriction && p.from.index != qq;
+  };
+  if (!upstream(in0) && !upstream(in1)) return std::nullopt;
+  *a = FeedOf(d, net, tr, kk, in0, scale);
+  *b = FeedOf(d, net, tr, kk, in1, scale);
+  if (a->equilibrium && b->equilibrium) return std::nullopt;  // nothing arrives: no collider at this bias
+  // Fed by one upstream constriction only: a one-beam collider when that stream is dilute and the other
+  // input is at equilibrium; otherwise two constrictions in series, not a collider.
+  if (!(upstream(in0) && upstream(in1))) {
+    const Feed& fed = upstream(in0) ? *a : *b;
+    const Feed& other = upstream(in0) ? *b : *a;
+    if (!other.equilibrium || fed.equilibrium || fed.dilution > opt.dilution_limit) return std::nullopt;
+  }
+  ColliderPrediction cp;
+  cp.constriction = qq;
+  cp.channel = kk;
+  cp.source_first = a->source;
+  cp.source_second = b->source;
+  cp.contact_first = a->contact;
+  cp.contact_second = b->contact;
+  cp.stream_first_A = a->equilibrium ? 0.0 : a->stream_A;
+  cp.stream_second_A = b->equilibrium ? 0.0 : b->stream_A;
+  cp.dilution_first = a->dilution;
+  cp.dilution_second = b->dilution;
+  cp.one_beam = a->equilibrium || b->equilibrium;
+  cp.i_plus_A = cp.stream_first_A + cp.stream_second_A;
+  cp.i_minus_A = cp.stream_first_A - cp.stream_second_A;
+  cp.dilute = a->dilution <= opt.dilution_limit && b->dilution <= opt.dilution_limit;
+  for (int f = 0; f < 2; ++f) {
+    const int o = ports.outgoing[f];
+    int best = -1;
+    double most = 0.0;
+    for (std::size_t x = 0; o >= 0 && x < d.contacts.size(); ++x)
+      if (tr.piece_absorption[static_cast<std::size_t>(o)][x] > most) {
+        most = tr.piece_absorption[static_cast<std::size_t>(o)][x];
+        best = static_cast<int>(x);
+      }
+    // Output 1 continues input 1 across the gap (face 1), output 2 continues input 2 (face 0).
+    (f == 1 ? cp.output_first : cp.output_second) = best;
+  }
+  return cp;
+}
+
+double ContactScale_V(const TransportResult& tr) {
+  double scale = 0.0;
+  for (const auto& v : tr.voltage_V) scale = std::max(scale, std::abs(v.value_or(0.0)));
+  return scale;
+}
+
+// The collider model's P and block for a fractional collider that the model's domain allows.
+void PredictFractionalCollider(const NoiseOptions& opt, ColliderPrediction& cp) {
+  const double theta = cp.exchange_pi * std::numbers::pi;
+  const double x = cp.i_minus_A / cp.i_plus_A;  // same signs: |x| <= 1
+  const ColliderNoiseShape zero = ColliderShape(x, theta, cp.scaling, HUGE_VAL);
+  const ColliderNoiseShape warm = ColliderShape(x, theta, cp.scaling, cp.rate_over_temperature);
+  cp.fano = zero.p;
+  cp.fano_finite_temperature = warm.p;
+  // One beam: the published effect (braiding with thermally excited pairs at the constriction; Lee, Han &
+  // Sim, Phys. Rev. Lett. 123, 016803 (2019)) exists only at finite temperature, so that form fills the
+  // matrix whatever the option.
+  const bool warm_used = opt.collider_model == ColliderModel::kFiniteTemperature || cp.one_beam;
+  const ColliderNoiseShape& used = warm_used ? warm : zero;
+  cp.model_in_matrix = warm_used ? ColliderModel::kFiniteTemperature : ColliderModel::kZeroTemperature;
+  const double unit =
+      2.0 * cp.charge_e * kElementaryCharge_C * std::abs(cp.i_plus_A) * cp.tunnelling * (1.0 - cp.tunnelling);
+  cp.s34_A2_per_Hz = used.p * unit;
+  cp.in_contact_matrix = cp.dilute && cp.weak_tunnelling;
+  cp.shape = {used.p * unit, used.s1t * unit, used.s2t * unit, used.stt * unit};
+}
+
+// Colliders on fractional channels (CandidateCollider). P is computed where the model's domain allows;
+// the collider is put into the contact matrix when both inputs are dilute (or at equilibrium) and it
+// tunnels weakly.
 std::vector<ColliderPrediction> FindColliders(const Design& d, const EdgeNetwork& net, const TransportResult& tr,
                                               const NoiseOptions& opt, std::vector<Finding>* findings) {
   std::vector<ColliderPrediction> out;
-  const double temperature = d.conditions.temperature_K;
-  double scale = 0.0;
-  for (const auto& v : tr.voltage_V) scale = std::max(scale, std::abs(v.value_or(0.0)));
+  const double scale = ContactScale_V(tr);
   for (std::size_t k = 0; k < d.channels.size(); ++k) {
     const Channel& ch = d.channels[k];
     if (is_integer_channel(ch)) continue;
     for (std::size_t q = 0; q < d.constrictions.size(); ++q) {
       const Constriction& c = d.constrictions[q];
-      const double t = c.transmission[k];
-      const int kk = static_cast<int>(k), qq = static_cast<int>(q);
-      const ConstrictionPorts ports = PortsOf(net, kk, qq);
-      const int in0 = ports.incoming[0], in1 = ports.incoming[1];
-      if (!(t > 0.0 && t < 1.0) || in0 < 0 || in1 < 0) continue;
-      const EdgePiece& p0 = net.pieces[static_cast<std::size_t>(in0)];
-      const EdgePiece& p1 = net.pieces[static_cast<std::size_t>(in1)];
-      auto upstream = [&](const EdgePiece& p) {
-        return p.from.kind == EdgeEnd::Kind::kConstriction && p.from.index != qq;
-      };
-      if (!upstream(p0) && !upstream(p1)) continue;
-      const Feed a = FeedOf(d, net, tr, kk, in0, scale), b = FeedOf(d, net, tr, kk, in1, scale);
-      if (a.equilibrium && b.equilibrium) continue;  // nothing arrives: no collider at this bias
-      // Fed by one upstream constriction only: a one-beam collider when that stream is dilute and the
-      // other input is at equilibrium; otherwise two constrictions in series, not a collider.
-      if (!(upstream(p0) && upstream(p1))) {
-        const Feed& fed = upstream(p0) ? a : b;
-        const Feed& other = upstream(p0) ? b : a;
-        if (!other.equilibrium || fed.equilibrium || fed.dilution > opt.dilution_limit) continue;
-      }
-      ColliderPrediction cp;
-      cp.constriction = qq;
-      cp.channel = kk;
-      cp.source_first = a.source;
-      cp.source_second = b.source;
-      cp.contact_first = a.contact;
-      cp.contact_second = b.contact;
-      cp.stream_first_A = a.equilibrium ? 0.0 : a.stream_A;
-      cp.stream_second_A = b.equilibrium ? 0.0 : b.stream_A;
-      cp.dilution_first = a.dilution;
-      cp.dilution_second = b.dilution;
-      cp.one_beam = a.equilibrium || b.equilibrium;
-      cp.i_plus_A = cp.stream_first_A + cp.stream_second_A;
-      cp.i_minus_A = cp.stream_first_A - cp.stream_second_A;
+      Feed a, b;
+      std::optional<ColliderPrediction> found =
+          CandidateCollider(d, net, tr, opt, static_cast<int>(k), static_cast<int>(q), scale, &a, &b);
+      if (!found) continue;
+      ColliderPrediction& cp = *found;
       const Regime reg = EffectiveRegime(c);
+      const double t = c.transmission[k];
       cp.tunnelling = reg == Regime::kWeak ? 1.0 - t : t;
       cp.charge_e = ch.charge_e;
       cp.exchange_pi = ch.exchange_pi.value_or(0.0);
       cp.scaling = ch.scaling.value_or(0.0);
-      cp.dilute = a.dilution <= opt.dilution_limit && b.dilution <= opt.dilution_limit;
       cp.weak_tunnelling = reg == Regime::kWeak && cp.tunnelling <= opt.weak_tunnelling_limit;
       cp.exchange_below_half_pi = ch.exchange_pi && *ch.exchange_pi < 0.5;
-      for (int f = 0; f < 2; ++f) {
-        const int o = ports.outgoing[f];
-        int best = -1;
-        double most = 0.0;
-        for (std::size_t x = 0; o >= 0 && x < d.contacts.size(); ++x)
-          if (tr.piece_absorption[static_cast<std::size_t>(o)][x] > most) {
-            most = tr.piece_absorption[static_cast<std::size_t>(o)][x];
-            best = static_cast<int>(x);
-          }
-        // Output 1 continues input 1 across the gap (face 1), output 2 continues input 2 (face 0).
-        (f == 1 ? cp.output_first : cp.output_second) = best;
-      }
       if (!ch.note.empty()) cp.caveats.push_back(ch.note);
       cp.not_computed = NotComputedReason(ch, a, b, cp);
       cp.rate_over_temperature = ColliderRateOverTemperature(
           cp.exchange_below_half_pi ? cp.exchange_pi * std::numbers::pi : std::numbers::pi / 2, std::abs(cp.i_plus_A),
-          cp.charge_e * kElementaryCharge_C, temperature);
-      if (cp.not_computed.empty()) {
-        const double theta = cp.exchange_pi * std::numbers::pi;
-        const double x = cp.i_minus_A / cp.i_plus_A;  // same signs: |x| <= 1
-        const ColliderNoiseShape zero = ColliderShape(x, theta, cp.scaling, HUGE_VAL);
-        const ColliderNoiseShape warm = ColliderShape(x, theta, cp.scaling, cp.rate_over_temperature);
-        cp.fano = zero.p;
-        cp.fano_finite_temperature = warm.p;
-        // One beam: the published effect (braiding with thermally excited pairs at the constriction; Lee,
-        // Han & Sim, Phys. Rev. Lett. 123, 016803 (2019)) exists only at finite temperature, so that form
-        // fills the matrix whatever the option.
-        const bool warm_used = opt.collider_model == ColliderModel::kFiniteTemperature || cp.one_beam;
-        const ColliderNoiseShape& used = warm_used ? warm : zero;
-        cp.model_in_matrix = warm_used ? ColliderModel::kFiniteTemperature : ColliderModel::kZeroTemperature;
-        const double unit =
-            2.0 * cp.charge_e * kElementaryCharge_C * std::abs(cp.i_plus_A) * cp.tunnelling * (1.0 - cp.tunnelling);
-        cp.s34_A2_per_Hz = used.p * unit;
-        cp.in_contact_matrix = cp.dilute && cp.weak_tunnelling;
-        cp.shape = {used.p * unit, used.s1t * unit, used.s2t * unit, used.stt * unit};
-      }
+          cp.charge_e * kElementaryCharge_C, d.conditions.temperature_K);
+      if (cp.not_computed.empty()) PredictFractionalCollider(opt, cp);
       if (!cp.dilute)
         cp.caveats.push_back("an input is not dilute (it carries more than " +
                              std::to_string(static_cast<int>(opt.dilution_limit * 100 + 0.5)) +
@@ -891,25 +914,226 @@ std::vector<std::optional<double>> collider_measurement_times(const NoiseSolving
       continue;
     const double rr = amplifier_at(r.amplifiers, cp.output_first)->effective_resistance_Ohm *
                       amplifier_at(r.amplifiers, cp.output_second)->effective_resistance_Ohm;
-    const double p_used =
-        cp.model_in_matrix == ColliderModel::kFiniteTemperature ? *cp.fano_finite_temperature : *cp.fano;
+    // S_34 per unit of P: 2 e* |I+| T (1 - T) (the normalisation of P for every collider model).
+    const double unit =
+        2.0 * cp.charge_e * kElementaryCharge_C * std::abs(cp.i_plus_A) * cp.tunnelling * (1.0 - cp.tunnelling);
     double snr = 0.0;
-    if (p_used != 0.0)
+    if (unit > 0.0)
       cross_correlation(ctx, r.amplifiers, cp.output_first, cp.output_second,
                         ctx.excess_p(cp.output_first, cp.output_second), &snr, &time,
-                        rr * ctx.opt.collider_fano_uncertainty * *cp.s34_A2_per_Hz / p_used);
+                        rr * ctx.opt.collider_fano_uncertainty * unit);
   }
   return times;
 }
 
+// Filling 2: the modes along a collider input and where its half pulses stand (edge_modes.hpp), with the
+// piece's velocity from its time of flight and the bias of the feeding constriction's hot input.
+void pulses_at_input(const NoiseSolving& ctx, const std::vector<double>& tof, int input, const Feed& feed,
+                     ColliderPrediction& cp, int which) {
+  const EdgePiece& p = ctx.net.pieces[static_cast<std::size_t>(input)];
+  const double t = tof[static_cast<std::size_t>(input)];
+  if (feed.source < 0 || !(t > 0.0)) return;
+  cp.modes[static_cast<std::size_t>(which)] = ModesAlongPiece(ctx.d, ctx.net, input, p.length_m / t);
+  if (!cp.modes[static_cast<std::size_t>(which)]) return;
+  double hot = 0.0;
+  for (int i : PortsOf(ctx.net, cp.channel, feed.source).incoming)
+    if (i >= 0) hot = std::max(hot, std::abs(ctx.tr.piece_potential_V[static_cast<std::size_t>(i)]));
+  cp.pulses[static_cast<std::size_t>(which)] =
+      PulseRegimeOf(PulseDelay_s(p.length_m, *cp.modes[static_cast<std::size_t>(which)]), hot, ctx.temperature,
+                    which == 0 ? cp.stream_first_A : cp.stream_second_A);
+}
+
+// Above this the zero-temperature, first-order theory of the fractionalized pulses does not hold: k_B T dt/hbar
+// or (I/e) dt of an input (fractionalized_collider.hpp asks for both << 1; the bound is our judgement).
+constexpr double kPulseTheoryLimit = 0.3;
+
+// Filling 2: what the fractionalized pulses add to P with every input path scaled by `scale`:
+// sum_i (I_i / I+) P(X_i) (fractionalized_collider.hpp; docs/models.md "Collider at filling 2: fractionalized
+// pulses"); 0 without pulses; nullopt, with the reason in *why, outside the theory's domain.
+std::optional<double> fractionalized_part(const ColliderPrediction& cp, double scale, std::string* why) {
+  double p = 0.0;
+  for (std::size_t i = 0; i < 2; ++i) {
+    if (!cp.pulses[i]) continue;
+    const PulseRegime& r = *cp.pulses[i];
+    const double stream = i == 0 ? cp.stream_first_A : cp.stream_second_A;
+    if (stream == 0.0) continue;
+    if (scale * r.thermal_ratio > kPulseTheoryLimit || scale * r.injection_ratio > kPulseTheoryLimit) {
+      char text[160];
+      std::snprintf(text, sizeof text, "k_B T dt/hbar = %.3g and (I/e) dt = %.3g at input %zu", scale * r.thermal_ratio,
+                    scale * r.injection_ratio, i + 1);
+      *why = std::string("the theory of the fractionalized pulses is at T = 0 and first order in the dilution; ") +
+             text + ", not well below 1";
+      return std::nullopt;
+    }
+    p += stream / cp.i_plus_A * Filling2ColliderFano(scale * r.bias_ratio);
+  }
+  return p;
+}
+
+// Colliders on integer channels: the exact scattering of non-interacting electrons is already in the
+// contact matrix, so P is read from the drains' cross-correlation, S_34 / (2 e |I+| T (1 - T)) (zero for
+// balanced beams at T = 0: docs/models.md "Coherent noise of integer channels"). At filling 2 each input
+// also gets the delay between the two half pulses of an injected electron.
+std::vector<ColliderPrediction> integer_colliders(const NoiseSolving& ctx, Mat& excess) {
+  std::vector<ColliderPrediction> out;
+  const std::vector<double> tof = piece_times(ctx);
+  const double scale = ContactScale_V(ctx.tr);
+  for (std::size_t k = 0; k < ctx.d.channels.size(); ++k) {
+    if (!is_integer_channel(ctx.d.channels[k])) continue;
+    for (std::size_t q = 0; q < ctx.d.constrictions.size(); ++q) {
+      const int kk = static_cast<int>(k), qq = static_cast<int>(q);
+      Feed a, b;
+      std::optional<ColliderPrediction> found = CandidateCollider(ctx.d, ctx.net, ctx.tr, ctx.opt, kk, qq, scale, &a, &b);
+      if (!found) continue;
+      ColliderPrediction& cp = *found;
+      cp.integer = true;
+      cp.tunnelling = ctx.d.constrictions[q].transmission[k];
+      cp.charge_e = 1.0;
+      cp.exchange_pi = 1.0;
+      cp.scaling = 0.5;
+      cp.weak_tunnelling = true;  // the exact scattering holds at every transmission
+      cp.model_in_matrix = ColliderModel::kExactScattering;
+      cp.in_contact_matrix = true;
+      const ConstrictionPorts ports = PortsOf(ctx.net, kk, qq);
+      pulses_at_input(ctx, tof, ports.incoming[0], a, cp, 0);
+      pulses_at_input(ctx, tof, ports.incoming[1], b, cp, 1);
+      const int o1 = cp.output_first, o2 = cp.output_second;
+      const double unit = 2.0 * kElementaryCharge_C * std::abs(cp.i_plus_A) * cp.tunnelling * (1.0 - cp.tunnelling);
+      if (o1 < 0 || o2 < 0 || o1 == o2 || !(unit > 0.0)) {
+        cp.not_computed = "its two outputs do not reach two different contacts: no drains' cross-correlation to read "
+                          "P from";
+      } else {
+        // Every contact voltage fixed, as the fractional colliders' blocks. The fractionalized pulses add
+        // dS_34 = P_pulses unit to the drains' cross-correlation and take it from their autocorrelations
+        // (only the partition term Q of the collider changes; docs/models.md "Collider at filling 2").
+        std::string why;
+        const std::optional<double> pulses = fractionalized_part(cp, 1.0, &why);
+        if (!pulses) {
+          cp.not_computed = why;
+        } else {
+          const double ds = *pulses * unit;
+          excess(o1, o2) += ds;
+          excess(o2, o1) += ds;
+          excess(o1, o1) -= ds;
+          excess(o2, o2) -= ds;
+          if (cp.pulses[0] || cp.pulses[1]) cp.fano_pulses = *pulses;
+          cp.s34_A2_per_Hz = excess(o1, o2);
+          cp.fano = cp.fano_finite_temperature = *cp.s34_A2_per_Hz / unit;
+          cp.shape.s34_A2_per_Hz = *cp.s34_A2_per_Hz;
+        }
+      }
+      if (!cp.dilute)
+        cp.caveats.push_back("an input is not dilute (more than " +
+                             std::to_string(static_cast<int>(ctx.opt.dilution_limit * 100 + 0.5)) +
+                             " % of its feeding constriction's bias, common practice): P is read from the exact "
+                             "scattering but is not the dilute-stream quantity");
+      out.push_back(cp);
+    }
+  }
+  return out;
+}
+
+// Mean source-to-collider distances of the distance curve: the range designers draw, from a quarter
+// micrometre to 20 um (common practice), and the design's own distance.
+constexpr double kCurveDistances_m[] = {0.25e-6, 0.5e-6, 0.75e-6, 1e-6, 1.5e-6, 2e-6, 2.5e-6, 3e-6, 4e-6,
+                                        5e-6,    6e-6,   7e-6,    8e-6, 10e-6, 12e-6, 15e-6, 20e-6};
+
+// P at mean distance D with every input path scaled by D / (design's mean): the same P where no model
+// puts a length into it; at filling 2 the pulse delays scale with D and P is not predicted once the pulses
+// separate (docs/models.md "Distance from the sources").
+ColliderPrediction::DistancePoint point_at(const NoiseSolving& ctx, const ColliderPrediction& cp, double distance,
+                                           double scale, double p_matrix) {
+  ColliderPrediction::DistancePoint pt;
+  pt.distance_m = distance;
+  for (std::size_t i = 0; i < 2; ++i) {
+    if (!cp.pulses[i]) continue;
+    pt.delay_s = std::max(pt.delay_s.value_or(0.0), scale * cp.pulses[i]->delay_s);
+    pt.bias_ratio = std::max(pt.bias_ratio.value_or(0.0), scale * cp.pulses[i]->bias_ratio);
+  }
+  if (!cp.integer) {
+    pt.beyond_relaxation_rule = distance > RelaxationRuleOfThumb_m(ctx.d.conditions.filling);
+    pt.fano = p_matrix;
+    return pt;
+  }
+  // The matrix holds the non-interacting part and the pulses' part at the design's distance; only the
+  // pulses' part depends on the distance.
+  std::string why;
+  const std::optional<double> here = fractionalized_part(cp, 1.0, &why), there = fractionalized_part(cp, scale, &why);
+  if (!here || !there) {
+    pt.why_not = why;
+    return pt;
+  }
+  pt.fano = p_matrix - *here + *there;
+  return pt;
+}
+
+void distance_curve(const NoiseSolving& ctx, ColliderPrediction& cp) {
+  if (!cp.fano || !cp.s34_A2_per_Hz) return;
+  const ConstrictionPorts ports = PortsOf(ctx.net, cp.channel, cp.constriction);
+  double sum = 0.0;
+  int fed = 0;
+  for (int i = 0; i < 2; ++i) {
+    const double stream = i == 0 ? cp.stream_first_A : cp.stream_second_A;
+    if (stream == 0.0 || ports.incoming[static_cast<std::size_t>(i)] < 0) continue;
+    sum += ctx.net.pieces[static_cast<std::size_t>(ports.incoming[static_cast<std::size_t>(i)])].length_m;
+    ++fed;
+  }
+  if (fed == 0 || !(sum > 0.0)) return;
+  const double mean = sum / fed;
+  const double p_matrix =
+      cp.model_in_matrix == ColliderModel::kFiniteTemperature ? *cp.fano_finite_temperature : *cp.fano;
+  std::vector<double> distances(std::begin(kCurveDistances_m), std::end(kCurveDistances_m));
+  distances.push_back(mean);
+  std::sort(distances.begin(), distances.end());
+  const bool measured = cp.output_first >= 0 && cp.output_second >= 0 && cp.output_first != cp.output_second &&
+                        amplifier_at(ctx.r.amplifiers, cp.output_first) &&
+                        amplifier_at(ctx.r.amplifiers, cp.output_second);
+  for (double dist : distances) {
+    ColliderPrediction::DistancePoint pt = point_at(ctx, cp, dist, dist / mean, p_matrix);
+    pt.design = dist == mean;
+    if (pt.fano && measured) {
+      // The drains' cross-correlation with this P in place of the matrix's (the rest of the matrix unchanged).
+      const double unit =
+          2.0 * cp.charge_e * kElementaryCharge_C * std::abs(cp.i_plus_A) * cp.tunnelling * (1.0 - cp.tunnelling);
+      const double sxy = ctx.excess_p(cp.output_first, cp.output_second) + (*pt.fano - p_matrix) * unit;
+      double snr = 0.0;
+      std::optional<double> unused;
+      cross_correlation(ctx, ctx.r.amplifiers, cp.output_first, cp.output_second, sxy, &snr, &unused, 0.0);
+      pt.cross_excess_A2_per_Hz = sxy;
+      pt.cross_snr = snr;
+    }
+    cp.distance_curve.push_back(pt);
+  }
+}
+
+std::optional<std::string> apply_integer_colliders(NoiseSolving& ctx) {
+  std::vector<ColliderPrediction> integer = integer_colliders(ctx, ctx.excess);
+  if (integer.empty()) return std::nullopt;
+  ctx.r.colliders.insert(ctx.r.colliders.end(), integer.begin(), integer.end());
+  return "integer colliders: P = S_34 / (2 e |I+| T(1 - T)) read from the drains' cross-correlation of the exact "
+         "scattering at the design temperature (docs/models.md \"Coherent noise of integer channels\"); at filling 2 the "
+         "delay between the charge and neutral pulses of each input, and the holes the fractionalized pulses leave "
+         "in the outer channel add -2 n_h to P and to the drains' block (T = 0, first order in the dilution; "
+         "docs/models.md \"Collider at filling 2: fractionalized pulses\")";
+}
+
 std::optional<std::string> apply_collider_times(NoiseSolving& ctx) {
+  bool fractional = false;
+  for (const ColliderPrediction& cp : ctx.r.colliders) fractional = fractional || !cp.integer;
   const std::vector<std::optional<double>> times = collider_measurement_times(ctx);
   for (std::size_t i = 0; i < times.size(); ++i) ctx.r.colliders[i].time_for_fano_s = times[i];
+  for (ColliderPrediction& cp : ctx.r.colliders) distance_curve(ctx, cp);
   if (ctx.r.colliders.empty()) return std::nullopt;
-  return "colliders: generalized Fano factor P of Rosenow, Levkivskyi & Halperin, Phys. Rev. Lett. 116, 156802 "
-         "(2016), lowest order in the collider tunnelling, at T = 0 and with thermal edge correlators at the design "
-         "temperature; the contact matrix uses the " +
-         ToString(ctx.opt.collider_model) + " form; S_34 = 2 P e* |I+| T(1 - T) (docs/models.md \"Anyon collider\")";
+  std::string text;
+  if (fractional)
+    text = "colliders: generalized Fano factor P of Rosenow, Levkivskyi & Halperin, Phys. Rev. Lett. 116, 156802 "
+           "(2016), lowest order in the collider tunnelling, at T = 0 and with thermal edge correlators at the design "
+           "temperature; the contact matrix uses the " +
+           ToString(ctx.opt.collider_model) + " form; S_34 = 2 P e* |I+| T(1 - T) (docs/models.md \"Anyon collider\")";
+  return text + (text.empty() ? "colliders: " : "; ") +
+         "the time to know P to +-" + std::to_string(ctx.opt.collider_fano_uncertainty).substr(0, 4) +
+         " from the drains' cross-correlation, and P against the distance from the sources (docs/models.md "
+         "\"Distance from the sources\")";
 }
 
 // When a model runs. Sources add to the contacts' excess noise with every voltage fixed; the circuit
@@ -933,6 +1157,8 @@ const std::vector<ModelRow>& ModelTable() {
        apply_coherent},
       {NoiseModel::kFractionalPartition, "fractional-partition", "Fractional constriction", Stage::kSource,
        apply_fractional},
+      {NoiseModel::kIntegerCollider, "integer-collider", "Charge and neutral modes at filling 2", Stage::kSource,
+       apply_integer_colliders},
       {NoiseModel::kFloatingContacts, "floating-contacts", "Floating contacts", Stage::kCircuit, apply_floating},
       {NoiseModel::kAmplifierChain, "amplifier-chain", "Amplifier chain", Stage::kReadout, apply_amplifiers},
       {NoiseModel::kCollider, "collider", "Anyon collider", Stage::kReadout, apply_collider_times},

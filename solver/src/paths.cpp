@@ -17,6 +17,7 @@
 #include "hallway/map.hpp"
 #include "hallway/saddle.hpp"
 #include "hallway/saddle_model.hpp"
+#include "hallway/units.hpp"
 
 namespace hallway {
 
@@ -287,10 +288,42 @@ void judge_arm(PathsContext& ctx, SourcePath& sp) {
        d.constrictions[static_cast<std::size_t>(sp.target)].where});
 }
 
+// Filling 2: the charge and neutral modes along a source path on the outer channel, the delay between the
+// two half pulses at its target, and a warning where they no longer overlap (docs/models.md "Charge and
+// neutral modes at filling 2"). There the delay, not the relaxation rule of thumb, judges the distance.
+void pulse_delay(PathsContext& ctx, const TransportResult& tr, SourcePath& sp) {
+  const Design& d = ctx.d;
+  {
+    const PieceMetrics& pm = ctx.r.pieces[static_cast<std::size_t>(sp.piece)];
+    sp.modes = ModesAlongPiece(d, ctx.net, sp.piece, pm.velocity_m_per_s);
+    if (!sp.modes) return;
+    double hot = 0.0;  // the bias of the source constriction's hot input
+    for (int i : PortsOf(ctx.net, sp.channel, sp.source).incoming)
+      if (i >= 0 && std::abs(tr.piece_potential_V[static_cast<std::size_t>(i)]) > std::abs(hot))
+        hot = tr.piece_potential_V[static_cast<std::size_t>(i)];
+    const double stream = constants::kConductanceQuantum_S * tr.piece_potential_V[static_cast<std::size_t>(sp.piece)];
+    sp.pulses = PulseRegimeOf(PulseDelay_s(sp.distance_m, *sp.modes), hot, d.conditions.temperature_K, stream);
+    if (!(sp.pulses->bias_ratio > kOverlappingPulses)) return;
+    char ratio[32];
+    std::snprintf(ratio, sizeof ratio, "%.3g", sp.pulses->bias_ratio);
+    ctx.r.findings.push_back(
+        {Severity::kWarning, "pulses-separate",
+         "an electron sent from constriction " + d.constrictions[static_cast<std::size_t>(sp.source)].name +
+             " arrives at " + d.constrictions[static_cast<std::size_t>(sp.target)].name + " as two e/2 pulses " +
+             units::FormatSI(sp.pulses->delay_s, "s", 3) + " apart (e V dt / hbar = " + ratio + " at the source bias " +
+             units::FormatSI(hot, "V", 3) +
+             "): the interaction between the two channels changes how they are partitioned there (`hallway noise` "
+             "gives a collider's P with the pulses' part; cross-correlations of such pulses were measured negative, "
+             "Glidic et al., Nat. Commun. (2024), doi:10.1038/s41467-024-50820-0; docs/models.md \"Charge and neutral "
+             "modes at filling 2\")",
+         d.constrictions[static_cast<std::size_t>(sp.target)].where});
+  }
+}
+
 // Source constriction -> splitter or collider paths: time of flight and thermal length beside each
 // distance; a warning beyond the relaxation rule of thumb, or for an interferometer arm beyond the
 // thermal length instead.
-void find_source_paths(PathsContext& ctx) {
+void find_source_paths(PathsContext& ctx, const TransportResult& tr) {
   const Design& d = ctx.d;
   const PathOptions& opt = ctx.opt;
   const double relax =
@@ -300,8 +333,8 @@ void find_source_paths(PathsContext& ctx) {
       "relaxation length " + std::to_string(relax * 1e6).substr(0, 4) + " um, a rule of thumb (common practice" +
       (opt.relaxation_length_m > 0.0 ? ", set by the user" : ": 1 um at integer fillings >= 2, 3 um otherwise") +
       "): energy relaxation by neutral modes or edge reconstruction over a few micrometres, no published distance "
-      "law for this model; interferometer arms are compared with the thermal length instead (docs/models.md "
-      "\"Edge velocity and lengths\")";
+      "law for this model; interferometer arms are compared with the thermal length instead, and at filling 2 the "
+      "delay between the charge and neutral pulses replaces it (docs/models.md \"Edge velocity and lengths\")";
   for (std::size_t p = 0; p < ctx.net.pieces.size(); ++p) {
     const EdgePiece& e = ctx.net.pieces[p];
     if (e.from.kind != EdgeEnd::Kind::kConstriction || e.to.kind != EdgeEnd::Kind::kConstriction ||
@@ -323,6 +356,8 @@ void find_source_paths(PathsContext& ctx) {
     sp.loop = arm_of(ctx.r, e, sp.piece);
     if (sp.loop) {
       judge_arm(ctx, sp);
+    } else if (pulse_delay(ctx, tr, sp); sp.pulses) {
+      sp.beyond_relaxation = e.length_m > relax;  // shown, but the delay judges the distance
     } else if ((sp.beyond_relaxation = e.length_m > relax)) {
       ctx.r.findings.push_back(
           {Severity::kWarning, "path-long",
@@ -521,7 +556,7 @@ PathResult ComputePaths(const Design& d, const EdgeNetwork& net, const Transport
                                " m/s (docs/models.md \"Edge velocity and lengths\"; no electrostatic map)";
   measure_pieces(ctx, map);
   measure_loops(ctx);
-  find_source_paths(ctx);
+  find_source_paths(ctx, tr);
   float_heating(ctx, tr);
   return r;
 }

@@ -300,6 +300,7 @@ std::string ToString(Kind k) {
     case Kind::kTime: return "time";
     case Kind::kEnergy: return "energy";
     case Kind::kCapacitance: return "capacitance";
+    case Kind::kVelocity: return "velocity";
   }
   return "?";
 }
@@ -322,6 +323,7 @@ std::string ExampleFor(Kind k) {
     case Kind::kTime: return "20 min";
     case Kind::kEnergy: return "10 ueV";
     case Kind::kCapacitance: return "2 fF";
+    case Kind::kVelocity: return "5e4 m/s";
   }
   return "?";
 }
@@ -344,6 +346,7 @@ Dimension DimensionOf(Kind k) {
     case Kind::kTime: return kSecond;
     case Kind::kEnergy: return kJoule;
     case Kind::kCapacitance: return kFarad;
+    case Kind::kVelocity: return add(kMetre, kSecond, -1);
   }
   return kNone;
 }

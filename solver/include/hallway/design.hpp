@@ -65,6 +65,11 @@ struct Conditions {
   Fraction filling;                 // bulk plateau used by the solvers
   bool field_given = false;         // true: `field:` was given and `filling` is the nearest plateau
   double filling_from_field = 0.0;  // n h / (e |B|) when field_given
+  // At filling 2: the velocities of the charge and neutral modes of the two coupled channels, when the
+  // user knows them (`conditions.charge_mode_velocity`, `neutral_mode_velocity`, both or neither);
+  // absent: hallway's capacitance model (edge_modes.hpp; docs/models.md "Charge and neutral modes at
+  // filling 2").
+  std::optional<double> charge_mode_velocity_m_per_s, neutral_mode_velocity_m_per_s;
 };
 
 // One edge channel at the bulk filling, outermost first.

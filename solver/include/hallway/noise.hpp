@@ -27,19 +27,23 @@
 // NoiseResult::models says which models produced the numbers.
 #pragma once
 
+#include <array>
 #include <optional>
 #include <string>
 #include <vector>
 
 #include "hallway/design.hpp"
+#include "hallway/edge_modes.hpp"
 #include "hallway/finding.hpp"
 #include "hallway/network.hpp"
 #include "hallway/transport.hpp"
 
 namespace hallway {
 
-// Which collider model fills the contact matrix (both are always computed and printed).
-enum class ColliderModel { kZeroTemperature, kFiniteTemperature };
+// Which collider model fills the contact matrix (both are always computed and printed). An integer
+// channel's collider is in the contact matrix through the exact scattering of non-interacting electrons
+// (kExactScattering; docs/models.md "Coherent noise of integer channels").
+enum class ColliderModel { kZeroTemperature, kFiniteTemperature, kExactScattering };
 std::string ToString(ColliderModel m);
 std::optional<ColliderModel> ColliderModelFromString(const std::string& s);
 
@@ -137,6 +141,32 @@ struct ColliderPrediction {
     double s34_A2_per_Hz = 0.0, s1t_A2_per_Hz = 0.0, s2t_A2_per_Hz = 0.0, stt_A2_per_Hz = 0.0;
   } shape;
   std::vector<std::string> caveats;
+  // Integer channel: P is read from the drains' cross-correlation of the exact scattering (the contact
+  // matrix), S_34 / (2 e |I+| T (1 - T)), at the design temperature (fano and fano_finite_temperature hold
+  // the same number). At filling 2, per input (first, second): the charge and neutral modes along the path
+  // from its source and where the two half pulses stand at the collider (edge_modes.hpp; docs/models.md
+  // "Charge and neutral modes at filling 2").
+  bool integer = false;
+  // Filling 2: the part of P the fractionalized pulses add, sum_i (I_i / I+) P(X_i) (fractionalized_collider.hpp;
+  // docs/models.md "Collider at filling 2: fractionalized pulses"), included in fano and in the matrix.
+  std::optional<double> fano_pulses;
+  std::array<std::optional<EdgeModes>, 2> modes;
+  std::array<std::optional<PulseRegime>, 2> pulses;
+  // The same layout with both source-to-collider paths scaled to a mean distance (docs/models.md "Distance
+  // from the sources"): P and the drains' cross-correlation SNR there, so a designer reads off the distance
+  // to draw. Empty when P is not computed.
+  struct DistancePoint {
+    double distance_m = 0.0;    // mean of the two inputs' paths
+    bool design = false;        // the design's own distance
+    std::optional<double> fano;       // the P of the contact matrix's model; nullopt: not predicted there
+    std::optional<double> cross_excess_A2_per_Hz;  // the drains' excess cross-correlation S_34 there
+    std::optional<double> cross_snr;  // of the drains' cross-correlation (both outputs on amplifiers)
+    std::optional<double> delay_s;    // filling 2: the larger of the inputs' pulse delays
+    std::optional<double> bias_ratio;  // filling 2: e V dt / hbar for that delay
+    bool beyond_relaxation_rule = false;  // fractional fillings: beyond the rule of thumb
+    std::string why_not;                  // why P is not predicted (empty when it is)
+  };
+  std::vector<DistancePoint> distance_curve;
 };
 
 // The noise models SolveNoise composes, one tag each (docs/models.md gives each its section).
@@ -145,6 +175,7 @@ enum class NoiseModel {
   kFractionalPartition,  // fractional channels: partition noise at each constriction, collider blocks
   kFloatingContacts,     // floating contacts and current sources hold dI = 0
   kAmplifierChain,       // what each amplifier measures, and the amplifiers' cross-correlations
+  kIntegerCollider,      // integer channels' colliders: P from the exact scattering, pulse delays at filling 2
   kCollider,             // colliders' generalised Fano factor P and the time to measure it
 };
 std::string ToString(NoiseModel m);  // "coherent-integer", "fractional-partition", ...

@@ -29,6 +29,7 @@
 #include <vector>
 
 #include "hallway/design.hpp"
+#include "hallway/edge_modes.hpp"
 #include "hallway/electrostatics.hpp"
 #include "hallway/finding.hpp"
 #include "hallway/network.hpp"
@@ -97,6 +98,12 @@ struct SourcePath {
   double path_thermal_length_m = 0.0;
   double visibility = 1.0;
   bool beyond_thermal_length = false;  // arm: path difference > path_thermal_length_m
+  // Filling 2, outer channel beside the inner one: the charge and neutral modes along the path and where
+  // the two half pulses of an injected electron stand at the target (edge_modes.hpp; docs/models.md
+  // "Charge and neutral modes at filling 2"), with the bias of the source's hot input and the stream on
+  // the path.
+  std::optional<EdgeModes> modes;
+  std::optional<PulseRegime> pulses;
 };
 
 struct FloatHeating {

@@ -43,6 +43,7 @@ enum class Kind {
   kTime,
   kEnergy,
   kCapacitance,
+  kVelocity,  // m / s
 };
 std::string ToString(Kind k);    // "length", "sheet density", ...
 std::string ExampleFor(Kind k);  // "95 nm", "2.3e11 cm^-2", ...
