@@ -78,7 +78,7 @@ TEST(EdgeModes, DelayAndRegimeFollowTheirDefinitions) {
   EXPECT_TRUE(NearRel(r.injection_ratio, 58e-12 / kElementaryCharge_C * 90e-12, 1e-12));
 }
 
-const ColliderPrediction& OnlyCollider(const NoiseResult& n) {
+const ColliderPrediction& OnlyCollider(const NoiseResult& n) {  // n must outlive the reference
   EXPECT_EQ(n.colliders.size(), 1u);
   return n.colliders.front();
 }
@@ -103,7 +103,8 @@ TEST(EdgeModes, DelayIsProportionalToThePathLength) {
     const Device dev(LoadDesign(test::SourcePath(rel)), o);
     ASSERT_TRUE(dev.usable());
     const PathResult paths = ComputePaths(dev.design(), dev.edges(), dev.transport(), nullptr);
-    const ColliderPrediction& c = OnlyCollider(dev.noise());
+    const NoiseResult noise = dev.noise();
+    const ColliderPrediction& c = OnlyCollider(noise);
     for (const SourcePath& sp : paths.source_paths) {
       ASSERT_TRUE(sp.pulses && sp.modes) << rel;
       EXPECT_TRUE(sp.modes->from_design);
@@ -126,7 +127,8 @@ TEST(EdgeModes, DelayIsProportionalToThePathLength) {
 // exact scattering the contact matrix holds). The fractionalized pulses add P(X) (fractionalized_collider.hpp)
 // with X = e V dt / hbar recomputed here from dt = L (1/v_n - 1/v_c) and the design's bias.
 TEST(EdgeModes, IntegerColliderIsExactScatteringPlusThePulses) {
-  const ColliderPrediction& c = OnlyCollider(NoiseOf("tests/data/noise/collider_nu2_near.yaml"));
+  const NoiseResult noise = NoiseOf("tests/data/noise/collider_nu2_near.yaml");
+  const ColliderPrediction& c = OnlyCollider(noise);
   ASSERT_TRUE(c.integer && c.fano && c.fano_pulses);
   EXPECT_EQ(c.model_in_matrix, ColliderModel::kExactScattering);
   EXPECT_TRUE(c.in_contact_matrix);
@@ -151,7 +153,8 @@ TEST(EdgeModes, IntegerColliderWithOverlappingPulsesIsTheExactResult) {
   DeviceOptions o;
   o.bare_estimate = true;
   const Device dev(LoadDesignFromString(text, "near.yaml"), o);
-  const ColliderPrediction& c = OnlyCollider(dev.noise());
+  const NoiseResult noise = dev.noise();
+  const ColliderPrediction& c = OnlyCollider(noise);
   ASSERT_TRUE(c.fano && c.fano_pulses && c.pulses[0]);
   EXPECT_LT(c.pulses[0]->bias_ratio, 0.1);
   EXPECT_LT(std::abs(*c.fano), 1e-6);
@@ -162,7 +165,8 @@ TEST(EdgeModes, IntegerColliderWithOverlappingPulsesIsTheExactResult) {
 // the bias windows 30 uV and 15 uV: P = -(2 R_s^2 e 15 uV) / (2 R_s e 45 uV) = -R_s / 3 for the
 // non-interacting part. The smearing of the two Fermi edges at k_B T / (e 15 uV) = 0.006 changes it by about 1 %.
 TEST(EdgeModes, IntegerColliderWithImbalancedBeamsMatchesTheClosedForm) {
-  const ColliderPrediction& c = OnlyCollider(NoiseOf("tests/data/noise/collider_nu2_imbalanced.yaml"));
+  const NoiseResult noise = NoiseOf("tests/data/noise/collider_nu2_imbalanced.yaml");
+  const ColliderPrediction& c = OnlyCollider(noise);
   ASSERT_TRUE(c.fano);
   EXPECT_TRUE(NearRel(*c.fano - c.fano_pulses.value_or(0.0), -0.05 / 3.0, 0.02)) << *c.fano;
 }
